@@ -1,0 +1,2 @@
+"""Colour-separation optics workbench."""
+__version__ = "0.1.0"
