@@ -13,10 +13,10 @@ note:
   nothing beyond).
 * CIE illuminant A: computed from its defining formula on any grid
   (CIE 15:2004, Eq. 2.1), so it needs no interpolation.
-* CIE daylight illuminants (D50, D55, D65, D75) and E: linear interpolation
-  (CIE 15:2004 recommends linear interpolation of the D series; from memory,
-  and it is what colour-science does).
-* every other illuminant: Sprague interpolation (CIE 167:2005).
+* every tabulated illuminant: linear interpolation. CIE 15:2004 recommends
+  it for the D series (from memory); for the fluorescent, LED and other
+  tables, whose narrow lines make higher-order interpolation ring, it is
+  the safe choice and the one colour-science makes for all of them.
 * outside an illuminant table's range: its end values repeated (constant
   extrapolation, CIE 167:2005), said in the note.
 """
@@ -53,7 +53,6 @@ _OBSERVER_ALIASES = {
 }
 _OBSERVER_LABEL = {"2": "CIE 1931 2°", "10": "CIE 1964 10°"}
 
-_LINEAR_ILLUMINANTS = {"D50", "D55", "D60", "D65", "D75", "E", "ID50", "ID65"}
 
 
 def observer_key(observer) -> str:
@@ -165,7 +164,7 @@ def illuminant_A(wavelengths) -> np.ndarray:
 
 
 @lru_cache(maxsize=256)
-def _illuminant_on(key: bytes, name: str) -> Tabulated:
+def _illuminant_on(key: bytes, name: str, interpolation: str = "linear") -> Tabulated:
     import colour
 
     wl = np.frombuffer(key, dtype=float)
@@ -176,14 +175,12 @@ def _illuminant_on(key: bytes, name: str) -> Tabulated:
     sd = colour.SDS_ILLUMINANTS[name]
     twl = np.array(sd.wavelengths, dtype=float)
     tv = np.array(sd.values, dtype=float)
-    method = "linear" if name in _LINEAR_ILLUMINANTS else "auto"
-    values, used = resample_values(tv, twl, wl, method=method, extrapolation="constant")
+    values, used = resample_values(tv, twl, wl, method=interpolation, extrapolation="constant")
     node = np.isin(wl, twl)
     parts = []
     if not node.all():
         parts.append(
-            "linearly interpolated (CIE 15:2004)" if used == "linear"
-            else "Sprague-interpolated (CIE 167:2005)"
+            "linearly interpolated" if used == "linear" else "Sprague-interpolated (CIE 167:2005)"
         )
     lo, hi = twl[0], twl[-1]
     ext = []
@@ -201,7 +198,7 @@ def _illuminant_on(key: bytes, name: str) -> Tabulated:
     return Tabulated(values, note)
 
 
-def illuminant_on(wavelengths, illuminant) -> tuple[str, Tabulated]:
+def illuminant_on(wavelengths, illuminant, *, interpolation: str = "linear") -> tuple[str, Tabulated]:
     """An illuminant's relative SPD on ``wavelengths`` (nm).
 
     Parameters
@@ -211,6 +208,9 @@ def illuminant_on(wavelengths, illuminant) -> tuple[str, Tabulated]:
         ``F2`` is accepted for ``FL2``), or a single emission spectrum, which
         must already lie on ``wavelengths`` or be resampled by the caller
         (user data are never resampled silently).
+    interpolation : {'linear', 'sprague'}
+        How a tabulated illuminant is put between its points (see module
+        notes); A is always computed from its formula.
 
     Returns
     -------
@@ -233,4 +233,6 @@ def illuminant_on(wavelengths, illuminant) -> tuple[str, Tabulated]:
             )
         return name, Tabulated(illuminant.flat()[0], f"illuminant from {name}")
     name = _canonical_illuminant(str(illuminant))
-    return name, _illuminant_on(wl.tobytes(), name)
+    if interpolation not in ("linear", "sprague"):
+        raise WorkbenchError(f"interpolation must be linear or sprague (got {interpolation!r})")
+    return name, _illuminant_on(wl.tobytes(), name, interpolation)

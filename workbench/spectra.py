@@ -79,13 +79,13 @@ def is_uniform(wavelengths: np.ndarray) -> bool:
     return bool(np.all(np.abs(d - d[0]) <= _UNIFORM_RTOL * abs(d[0]) + 1e-12))
 
 
-def check_wavelengths(wavelengths, *, what: str = "wavelengths") -> np.ndarray:
+def check_wavelengths(wavelengths, *, what: str = "wavelengths", min_points: int = 3) -> np.ndarray:
     """Return the wavelengths as a float array, or raise naming the fault."""
     wl = np.asarray(wavelengths, dtype=float)
     if wl.ndim != 1:
         raise WorkbenchError(f"{what} must be a 1-D vector in nm (got shape {wl.shape})")
-    if wl.size < 3:
-        raise WorkbenchError(f"{what} must hold at least 3 points (got {wl.size})")
+    if wl.size < min_points:
+        raise WorkbenchError(f"{what} must hold at least {min_points} points (got {wl.size})")
     if not np.all(np.isfinite(wl)):
         raise WorkbenchError(f"{what} must be finite numbers in nm")
     d = np.diff(wl)
@@ -236,7 +236,7 @@ def resampling_matrix(
         The method actually used (``'auto'`` resolved).
     """
     x = check_wavelengths(wavelengths, what="source wavelengths")
-    xt = check_wavelengths(target, what="target wavelengths")
+    xt = check_wavelengths(target, what="target wavelengths", min_points=1)
     if method not in INTERPOLATION_METHODS:
         raise WorkbenchError(
             f"method must be one of {', '.join(INTERPOLATION_METHODS)} (got {method!r})"
@@ -436,7 +436,7 @@ class Spectra:
         >>> r.notes[-1]
         'resampled 400-700 nm at 10 nm -> 400-700 nm at 5 nm by Sprague interpolation (CIE 167:2005)'
         """
-        xt = check_wavelengths(target, what="target wavelengths")
+        xt = check_wavelengths(target, what="target wavelengths", min_points=1)
         if extrapolation == "zero" and self.kind not in ("transmittance", "sensitivity"):
             raise WorkbenchError(
                 f"zero extrapolation is for filters and sensitivities only (these are {self.kind})"

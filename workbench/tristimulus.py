@@ -21,6 +21,9 @@ Methods
     (computed by ASTM E2022 from the 1 nm functions and illuminant, over
     360-780 nm, then with the weights outside the data's range added to the
     end points); for 1 and 5 nm data, summation as above over 360-780 nm.
+    The 1 nm illuminant for E2022 is A from its formula, D65 linearly
+    interpolated (as the CIE's 1 nm table is) and any other table by Sprague
+    interpolation, which reproduces the E308 whites of C and D50.
 
 References
 ----------
@@ -39,6 +42,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from .cie import _canonical_illuminant as _canonical_name
 from .cie import cmfs_on, illuminant_on, observer_key, observer_label
 from .errors import RangeCoverageError, WorkbenchError
 from .spectra import Spectra, grid, is_uniform
@@ -121,22 +125,52 @@ def _object_weights(key: bytes, observer: str, illuminant_key, method: str) -> W
 
 
 def _integration_weights(wl, step, observer, illuminant_key, method) -> Weights:
+    if method == "astm-e308":
+        return _astm_summation_weights(wl, step, observer, illuminant_key)
     cm = cmfs_on(wl, observer)
     name, ill = illuminant_on(wl, _illuminant_from_key(illuminant_key))
-    keep = np.ones(wl.size, bool)
-    notes = [cm.note, ill.note]
-    if method == "astm-e308":
-        keep = (wl >= _ASTM_RANGE[0] - 1e-9) & (wl <= _ASTM_RANGE[1] + 1e-9)
-        if not keep.all():
-            notes.append("ASTM E308: points outside 360-780 nm given zero weight")
-        notes.append(f"ASTM E308 at {step:g} nm: summation of the CIE functions")
-    else:
-        notes.append(f"summation at {step:g} nm (CIE 15:2004 § 7.1)")
-    Sx = ill.values[:, None] * cm.values * step * keep[:, None]
-    k = 100.0 / Sx[:, 1].sum()
-    W = k * Sx
+    notes = [cm.note, ill.note, f"summation at {step:g} nm (CIE 15:2004 § 7.1)"]
+    Sx = ill.values[:, None] * cm.values * step
+    W = (100.0 / Sx[:, 1].sum()) * Sx
     W.setflags(write=False)
     return Weights(wl, W, observer, name, method, tuple(notes))
+
+
+def _fold_into_ends(W_full: np.ndarray, wl_full: np.ndarray, wl: np.ndarray) -> np.ndarray:
+    """Weights on ``wl`` with the rows of ``W_full`` outside it added to its end points."""
+    i0 = int(np.flatnonzero(np.isclose(wl_full, wl[0]))[0])
+    i1 = int(np.flatnonzero(np.isclose(wl_full, wl[-1]))[0])
+    W = W_full[i0:i1 + 1].copy()
+    W[0] += W_full[:i0].sum(axis=0)
+    W[-1] += W_full[i1 + 1:].sum(axis=0)
+    return W
+
+
+def _astm_summation_weights(wl, step, observer, illuminant_key) -> Weights:
+    """ASTM E308 for 1 and 5 nm data: summation over 360-780 nm, ends folded in."""
+    lo, hi = _ASTM_RANGE
+    if wl[0] < lo or wl[-1] > hi or (wl[0] - lo) % step or (hi - wl[-1]) % step:
+        raise WorkbenchError(
+            f"ASTM E308 at {step:g} nm needs data within {lo:g}-{hi:g} nm on whole {step:g} nm "
+            f"steps (got {wl[0]:g}-{wl[-1]:g} nm); use --method integration"
+        )
+    full = grid(lo, hi, step)
+    cm = cmfs_on(full, observer)
+    name, ill = illuminant_on(full, _illuminant_from_key(illuminant_key)) if not isinstance(
+        illuminant_key, tuple) else (None, None)
+    if ill is None:
+        raise WorkbenchError(
+            "ASTM E308 needs the illuminant over 360-780 nm; with a measured illuminant use "
+            "--method integration"
+        )
+    Sx = ill.values[:, None] * cm.values * step
+    W = (100.0 / Sx[:, 1].sum()) * Sx
+    notes = [cm.note, ill.note, f"ASTM E308 at {step:g} nm: summation over {lo:g}-{hi:g} nm"]
+    if wl[0] != lo or wl[-1] != hi:
+        W = _fold_into_ends(W, full, wl)
+        notes.append(f"weights outside {wl[0]:g}-{wl[-1]:g} nm added to the end points (ASTM E308)")
+    W.setflags(write=False)
+    return Weights(wl, W, observer, name, "astm-e308", tuple(notes))
 
 
 def _astm_weights(wl, step, observer, illuminant_key) -> Weights:
@@ -165,7 +199,13 @@ def _astm_weights(wl, step, observer, illuminant_key) -> Weights:
             "ASTM E308 weights need a 1 nm illuminant over 360-780 nm; with a measured "
             "illuminant use --method integration"
         )
-    name, ill1 = illuminant_on(wl1, illuminant_key)
+    # The 1 nm illuminant for E2022: A from its formula, D65 by linear
+    # interpolation (the CIE's own 1 nm D65 table is that), every other table
+    # by Sprague (CIE 167), which reproduces the published E308 whites of C
+    # and D50.
+    name = _canonical_name(illuminant_key)
+    how = "linear" if name in ("D65", "A") else "sprague"
+    name, ill1 = illuminant_on(wl1, name, interpolation=how)
     cmfs = colour.MultiSpectralDistributions(cm1, wl1)
     ill = colour.SpectralDistribution(ill1.values, wl1)
     full = colour.SpectralShape(lo, lo + step * math.floor((hi - lo) / step), step)
