@@ -72,10 +72,10 @@ class TestChromaticity:
 
     def test_uv_prime_matches_reference_library(self):
         """u′v′ from XYZ and from xy agree with colour-science."""
-        # colour-science 0.4.7 Luv_to_uv / xy_to_Luv_uv as reference library
+        # colour-science 0.4.7 XYZ_to_xy / xy_to_Luv_uv as reference library
         rng = np.random.default_rng(2)
         XYZ = rng.uniform(1, 100, (50, 3))
-        ref = colour.Luv_to_uv(colour.XYZ_to_Luv(XYZ / 100, colour.XYZ_to_xy(D65 / 100)))
+        ref = colour.xy_to_Luv_uv(colour.XYZ_to_xy(XYZ))
         np.testing.assert_allclose(XYZ_to_uv_prime(XYZ), ref, atol=1e-12)
         xy = XYZ_to_xy(XYZ)
         np.testing.assert_allclose(xy_to_uv_prime(xy), colour.xy_to_Luv_uv(xy), atol=1e-12)
