@@ -1,0 +1,24 @@
+"""Every notebook runs headlessly from top to bottom with no error output."""
+
+from pathlib import Path
+
+import nbformat
+import pytest
+from nbclient import NotebookClient
+
+NOTEBOOKS = sorted((Path(__file__).parents[1] / "notebooks").glob("*.ipynb"))
+
+
+@pytest.mark.parametrize("path", NOTEBOOKS, ids=[p.name for p in NOTEBOOKS])
+def test_notebook_runs(path, tmp_path):
+    """The notebook executes without edits and shows no error and at least one figure."""
+    nb = nbformat.read(path, as_version=4)
+    NotebookClient(nb, timeout=300, kernel_name="python3", resources={"metadata": {"path": str(tmp_path)}}).execute()
+    outputs = [o for c in nb.cells if c.cell_type == "code" for o in c.get("outputs", [])]
+    assert not [o for o in outputs if o.output_type == "error"]
+    assert any("image/png" in o.get("data", {}) for o in outputs)
+
+
+def test_there_are_notebooks():
+    """The lab command has notebooks to open."""
+    assert NOTEBOOKS
