@@ -25,7 +25,6 @@ from __future__ import annotations
 import math
 import os
 import re
-import tempfile
 import tomllib
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -34,6 +33,7 @@ from typing import Any
 import numpy as np
 
 from . import optics
+from .files import write_text_atomically
 from .errors import InputFileError, WorkbenchError
 from .spectra import Spectra, grid as make_grid
 
@@ -1072,17 +1072,7 @@ def save_design(design: Design, path) -> None:
 
     text = "# camera design file, schema 1 (see docs/design-file.md)\n" + tomli_w.dumps(
         _to_dict(design, rebase))
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-        os.replace(tmp, target)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
+    write_text_atomically(target, text)
 
 
 # --------------------------------------------------------------------------

@@ -78,14 +78,13 @@ import io
 import math
 import os
 import re
-import stat
-import uuid
 from dataclasses import replace
 from decimal import Decimal
 from pathlib import Path
 
 import numpy as np
 
+from .files import write_text_atomically as _write_atomically
 from .errors import InputFileError, WorkbenchError
 from .spectra import KINDS, Spectra
 
@@ -369,32 +368,6 @@ def _check_writable(spectra: Spectra) -> None:
             "units must be non-empty, without surrounding spaces or line breaks, "
             f"to be written (got {units!r})"
         )
-
-
-def _write_atomically(target: Path, text: str) -> None:
-    tmp = target.with_name(f".{target.name}.{uuid.uuid4().hex[:12]}.tmp")
-    try:
-        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
-    except OSError as err:
-        raise InputFileError(f"cannot write: {err.strerror or err}", str(target)) from None
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        try:
-            os.chmod(tmp, stat.S_IMODE(os.stat(target).st_mode))
-        except FileNotFoundError:
-            pass
-        os.replace(tmp, target)
-    except BaseException as err:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        if isinstance(err, OSError):
-            raise InputFileError(f"cannot write: {err.strerror or err}", str(target)) from None
-        raise
 
 
 # --------------------------------------------------------------------------

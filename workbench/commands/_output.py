@@ -6,10 +6,9 @@ import csv
 import io
 import json
 import math
-import os
 import sys
-import tempfile
-from pathlib import Path
+
+from ..files import write_text_atomically
 
 FORMATS = ("table", "json", "csv")
 
@@ -61,15 +60,4 @@ def render_rows(rows: list[dict], columns: list[str], fmt: str, *, header_lines=
 
 def atomic_write_text(path, text: str) -> None:
     """Write ``text`` to ``path`` through a temporary file and a rename."""
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent or ".")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as f:
-            f.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
+    write_text_atomically(path, text)
