@@ -47,7 +47,10 @@ def render_rows(rows: list[dict], columns: list[str], fmt: str, *, header_lines=
 
     def cell(v):
         if isinstance(v, float):
-            return "nan" if not math.isfinite(v) else f"{v:.{digits}f}"
+            if not math.isfinite(v):
+                return "nan"
+            text = f"{v:.{digits}f}"
+            return text[1:] if text.startswith("-") and float(text) == 0 else text
         return str(v)
 
     table = [columns] + [[cell(r.get(c, "")) for c in columns] for r in rows]
