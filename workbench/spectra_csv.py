@@ -103,7 +103,8 @@ _PERCENT_ABOVE = 1.5
 
 _DELIMITER_NAMES = {",": "comma", ";": "semicolon", "\t": "tab"}
 
-_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
+# ASCII digits only: Python's float() also takes "1_000" and other scripts' digits.
+_NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
 _NAN = re.compile(r"[+-]?nan", re.IGNORECASE)
 _INF = re.compile(r"[+-]?inf(?:inity)?", re.IGNORECASE)
 _ONLY_DELIMITERS = re.compile(r'[,;\t\s"]*')
