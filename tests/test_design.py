@@ -11,8 +11,7 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from workbench import optics
-from workbench.design import CHANNELS, Design, DesignError, load_design, save_design
+from workbench.design import CHANNELS, DesignError, load_design, save_design
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.spectra_csv import read_spectra_csv
 
