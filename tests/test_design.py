@@ -199,11 +199,11 @@ BAD = {
     ),
     'unknown_section': (
         'PATH: 1 problem in the design file (output)\n'
-        '  output: expected no such key (unknown; allowed: schema, name, description, observer, grid, target, chain, samples, illuminants, fit)'
+        '  output: expected no such key (unknown; allowed: schema, name, description, observer, grid, target, chain, samples, illuminants, fit, noise, matrix, tolerance)'
     ),
     'unknown_top_key': (
         'PATH: 1 problem in the design file (colour_space)\n'
-        '  colour_space: expected no such key (unknown; allowed: schema, name, description, observer, grid, target, chain, samples, illuminants, fit)'
+        '  colour_space: expected no such key (unknown; allowed: schema, name, description, observer, grid, target, chain, samples, illuminants, fit, noise, matrix, tolerance)'
     ),
     'unknown_type': (
         'PATH: 1 problem in the design file (chain[0].type)\n'

@@ -50,6 +50,10 @@ __all__ = [
     "SampleSetSpec",
     "IlluminantSpec",
     "Fit",
+    "NoiseModel",
+    "FittedMatrix",
+    "FieldPosition",
+    "ToleranceSpec",
     "Design",
     "ElementCurve",
     "ChainModel",
@@ -60,6 +64,9 @@ __all__ = [
 SCHEMA = 1
 CHANNELS = ("R", "G", "B")
 OBJECTIVES = ("vora", "mean-delta-e00", "luther-residual")
+MATRIX_METHODS = ("least-squares", "white-preserving", "delta-e00")
+MATRIX_SCOPES = ("shared", "per-illuminant")
+GLOBAL_STARTS = ("none", "multi-start", "differential-evolution")
 TARGET_KINDS = ("observer", "primaries", "chromaticities", "emitters")
 TOLERANCE_DISTRIBUTIONS = ("normal", "uniform")
 EXTRAPOLATIONS = ("none", "constant", "zero")
@@ -199,12 +206,74 @@ class IlluminantSpec:
 
 @dataclass(frozen=True)
 class Fit:
-    """The fit objective, the illuminants it uses and the weight of each sample set."""
+    """How to fit and judge the design: objective, illuminants, matrix rule, weights, search.
+
+    ``illuminants`` are the ``[[illuminants]]`` the ΔE00 statistics and the
+    colorimetric objective use (empty: all of them). ``matrix`` and
+    ``matrix_scope`` choose the colour-correction matrix (see
+    :mod:`workbench.camera`). ``noise_weight`` weighs the matrix's row
+    norms against the objective; ``global_start`` with ``starts`` and
+    ``seed`` an optional global search before the local fit.
+    """
 
     objective: str = "vora"
     recording_illuminant: str | None = None
     viewing_illuminant: str | None = None
     weights: tuple[tuple[str, float], ...] = ()
+    illuminants: tuple[str, ...] = ()
+    matrix: str = "least-squares"
+    matrix_scope: str = "shared"
+    noise_weight: float = 0.0
+    global_start: str = "none"
+    starts: int = 8
+    seed: int = 0
+    max_evaluations: int = 3000
+
+
+@dataclass(frozen=True)
+class NoiseModel:
+    """Sensor noise for the noise measures: shot noise from the full well plus read noise.
+
+    ``exposure`` is the fraction of the full well the perfect white reaches
+    in the channel that collects most of it; ``grey`` the reflectance of the
+    patch whose output noise is reported.
+    """
+
+    full_well_e: float = 20000.0
+    read_noise_e: float = 8.0
+    exposure: float = 0.8
+    grey: float = 0.18
+
+
+@dataclass(frozen=True)
+class FittedMatrix:
+    """A colour-correction matrix stored with the design (written by ``workbench fit``).
+
+    ``values`` (3×3 rows) for a shared matrix; ``per_illuminant`` holds
+    ``(name, 3×3)`` for one matrix per illuminant.
+    """
+
+    method: str
+    scope: str
+    values: tuple[tuple[float, float, float], ...] | None = None
+    per_illuminant: tuple[tuple[str, tuple[tuple[float, float, float], ...]], ...] = ()
+
+
+@dataclass(frozen=True)
+class FieldPosition:
+    """A position in the image where the chief ray meets the splitter at a different angle."""
+
+    name: str
+    aoi_offset_deg: float
+
+
+@dataclass(frozen=True)
+class ToleranceSpec:
+    """The specification a unit must meet and the field positions to check (``[tolerance]``)."""
+
+    max_mean_delta_E00: float = 1.5
+    min_vora: float = 0.95
+    field: tuple[FieldPosition, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -225,6 +294,9 @@ class Design:
     samples: tuple[SampleSetSpec, ...] = ()
     illuminants: tuple[IlluminantSpec, ...] = ()
     fit: Fit = field(default_factory=Fit)
+    noise: NoiseModel = field(default_factory=NoiseModel)
+    matrix: FittedMatrix | None = None
+    tolerance: ToleranceSpec = field(default_factory=ToleranceSpec)
     schema: int = SCHEMA
     base_dir: str = field(default=".", compare=False)
     source: str | None = field(default=None, compare=False)
@@ -427,7 +499,7 @@ ELEMENT_TYPES: dict[str, tuple[dict[str, _P], dict[str, tuple]]] = {
 }
 
 _TOP_KEYS = ("schema", "name", "description", "observer", "grid", "target", "chain",
-             "samples", "illuminants", "fit")
+             "samples", "illuminants", "fit", "noise", "matrix", "tolerance")
 
 
 # --------------------------------------------------------------------------
@@ -813,9 +885,37 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
     t = c.table(v, "fit")
     if t is None:
         return None
-    c.unknown(t, ("objective", "recording_illuminant", "viewing_illuminant", "weights"), "fit")
+    c.unknown(t, ("objective", "recording_illuminant", "viewing_illuminant", "weights", "illuminants",
+                  "matrix", "matrix_scope", "noise_weight", "global_start", "starts", "seed",
+                  "max_evaluations"), "fit")
     n0 = len(c.problems)
     objective = c.choice(t.get("objective", "vora"), OBJECTIVES, "fit.objective")
+    extra = {}
+    for k, choices in (("matrix", MATRIX_METHODS), ("matrix_scope", MATRIX_SCOPES),
+                       ("global_start", GLOBAL_STARTS)):
+        if k in t:
+            extra[k] = c.choice(t[k], choices, f"fit.{k}")
+    if "noise_weight" in t:
+        f = _number(t["noise_weight"])
+        if f is None or f < 0:
+            c.bad("fit.noise_weight", "a number >= 0", t["noise_weight"])
+        extra["noise_weight"] = f
+    for k, lo in (("starts", 1), ("seed", 0), ("max_evaluations", 10)):
+        if k in t:
+            x = t[k]
+            if isinstance(x, bool) or not isinstance(x, int) or x < lo:
+                c.bad(f"fit.{k}", f"a whole number >= {lo}", x)
+            extra[k] = x
+    if "illuminants" in t:
+        v = t["illuminants"]
+        if not isinstance(v, list) or not v or not all(isinstance(x, str) for x in v):
+            c.bad("fit.illuminants", "a non-empty list of [[illuminants]] names", v)
+        else:
+            for x in v:
+                if x not in illuminant_names:
+                    c.bad("fit.illuminants", "names of the [[illuminants]] ("
+                          + (", ".join(illuminant_names) or "none defined") + ")", x)
+            extra["illuminants"] = tuple(v)
     ill = {}
     for k in ("recording_illuminant", "viewing_illuminant"):
         if k in t:
@@ -838,7 +938,103 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
     if len(c.problems) > n0:
         return None
     return Fit(objective, ill.get("recording_illuminant"), ill.get("viewing_illuminant"),
-               tuple(weights))
+               tuple(weights), **extra)
+
+
+def _check_noise(c: _Checker, v) -> NoiseModel | None:
+    t = c.table(v, "noise")
+    if t is None:
+        return None
+    c.unknown(t, ("full_well_e", "read_noise_e", "exposure", "grey"), "noise")
+    n0 = len(c.problems)
+    out = {}
+    rules = {"full_well_e": ("a number > 0 (electrons)", lambda f: f > 0),
+             "read_noise_e": ("a number >= 0 (electrons rms)", lambda f: f >= 0),
+             "exposure": ("a number in (0, 1] (fraction of the full well)", lambda f: 0 < f <= 1),
+             "grey": ("a number in (0, 1] (reflectance)", lambda f: 0 < f <= 1)}
+    for k, (expected, ok) in rules.items():
+        if k in t:
+            f = _number(t[k])
+            if f is None or not ok(f):
+                c.bad(f"noise.{k}", expected, t[k])
+            out[k] = f
+    return None if len(c.problems) > n0 else NoiseModel(**out)
+
+
+def _matrix3(c: _Checker, v, key: str):
+    if (not isinstance(v, list) or len(v) != 3
+            or not all(isinstance(r, list) and len(r) == 3 and all(_number(x) is not None for x in r)
+                       for r in v)):
+        c.bad(key, "a 3×3 matrix as three rows of three numbers", v)
+        return None
+    m = tuple(tuple(float(_number(x)) for x in r) for r in v)
+    if abs(float(np.linalg.det(np.array(m)))) < 1e-12:
+        c.bad(key, "an invertible 3×3 matrix", v)
+        return None
+    return m
+
+
+def _check_matrix(c: _Checker, v, illuminant_names) -> FittedMatrix | None:
+    t = c.table(v, "matrix")
+    if t is None:
+        return None
+    c.unknown(t, ("method", "scope", "values", "per_illuminant"), "matrix")
+    n0 = len(c.problems)
+    method = c.choice(t.get("method"), MATRIX_METHODS, "matrix.method")
+    scope = c.choice(t.get("scope", "shared"), MATRIX_SCOPES, "matrix.scope")
+    values = None
+    per = []
+    if scope == "shared":
+        if "values" not in t:
+            c.bad("matrix.values", "a 3×3 matrix (missing)", show_got=False)
+        else:
+            values = _matrix3(c, t["values"], "matrix.values")
+    elif scope == "per-illuminant":
+        p = c.table(t.get("per_illuminant"), "matrix.per_illuminant")
+        for k, m in (p or {}).items():
+            if k not in illuminant_names:
+                c.bad(f"matrix.per_illuminant.{k}", "the name of one of the [[illuminants]]", k)
+            per.append((k, _matrix3(c, m, f"matrix.per_illuminant.{k}")))
+    return None if len(c.problems) > n0 else FittedMatrix(method, scope, values, tuple(per))
+
+
+def _check_tolerance(c: _Checker, v) -> ToleranceSpec | None:
+    t = c.table(v, "tolerance")
+    if t is None:
+        return None
+    c.unknown(t, ("max_mean_delta_E00", "min_vora", "field"), "tolerance")
+    n0 = len(c.problems)
+    out = {}
+    if "max_mean_delta_E00" in t:
+        f = _number(t["max_mean_delta_E00"])
+        if f is None or f <= 0:
+            c.bad("tolerance.max_mean_delta_E00", "a number > 0 (ΔE00)", t["max_mean_delta_E00"])
+        out["max_mean_delta_E00"] = f
+    if "min_vora" in t:
+        f = _number(t["min_vora"])
+        if f is None or not 0 <= f <= 1:
+            c.bad("tolerance.min_vora", "a number in [0, 1]", t["min_vora"])
+        out["min_vora"] = f
+    if "field" in t:
+        field_ = []
+        items = t["field"]
+        if not isinstance(items, list):
+            c.bad("tolerance.field", "a list of [[tolerance.field]] tables", items)
+            items = []
+        for i, f in enumerate(items):
+            key = f"tolerance.field[{i}]"
+            f = c.table(f, key)
+            if f is None:
+                continue
+            c.unknown(f, ("name", "aoi_offset_deg"), key)
+            name = c.string(f.get("name"), f"{key}.name")
+            a = _number(f.get("aoi_offset_deg"))
+            if a is None or not -30 <= a <= 30:
+                c.bad(f"{key}.aoi_offset_deg", "a number of degrees in [-30, 30]", f.get("aoi_offset_deg"))
+            if name is not None and a is not None:
+                field_.append(FieldPosition(name, a))
+        out["field"] = tuple(field_)
+    return None if len(c.problems) > n0 else ToleranceSpec(**out)
 
 
 def _duplicates(c: _Checker, names, key: str):
@@ -912,12 +1108,16 @@ def design_from_dict(data: dict, *, base_dir=".", source=None) -> Design:
         if isinstance(t, dict) and isinstance(t.get("name"), str)
     ] if isinstance(data.get("samples"), list) else []
     fit = _check_fit(c, data["fit"], ill_names, smp_names) if "fit" in data else Fit()
+    noise = _check_noise(c, data["noise"]) if "noise" in data else NoiseModel()
+    matrix = _check_matrix(c, data["matrix"], ill_names) if "matrix" in data else None
+    tolerance = _check_tolerance(c, data["tolerance"]) if "tolerance" in data else ToleranceSpec()
     if c.problems:
         raise DesignError(c.problems, source)
     return Design(
         name=name, grid=g, chain=tuple(e for _, e in chain), observer=observer,
         description=description, target=target, samples=tuple(samples),
-        illuminants=tuple(illuminants), fit=fit, schema=SCHEMA,
+        illuminants=tuple(illuminants), fit=fit, noise=noise, matrix=matrix, tolerance=tolerance,
+        schema=SCHEMA,
         base_dir=str(base_dir), source=None if source is None else str(source),
     )
 
@@ -1048,7 +1248,28 @@ def _to_dict(d: Design, rebase=None) -> dict:
         fit["viewing_illuminant"] = d.fit.viewing_illuminant
     if d.fit.weights:
         fit["weights"] = dict(d.fit.weights)
+    defaults = Fit()
+    for k in ("illuminants", "matrix", "matrix_scope", "noise_weight", "global_start", "starts",
+              "seed", "max_evaluations"):
+        v = getattr(d.fit, k)
+        if v != getattr(defaults, k):
+            fit[k] = list(v) if isinstance(v, tuple) else v
     out["fit"] = fit
+    if d.noise != NoiseModel():
+        out["noise"] = {k: getattr(d.noise, k) for k in ("full_well_e", "read_noise_e", "exposure", "grey")}
+    if d.tolerance != ToleranceSpec():
+        tol: dict[str, Any] = {"max_mean_delta_E00": d.tolerance.max_mean_delta_E00,
+                               "min_vora": d.tolerance.min_vora}
+        if d.tolerance.field:
+            tol["field"] = [{"name": f.name, "aoi_offset_deg": f.aoi_offset_deg} for f in d.tolerance.field]
+        out["tolerance"] = tol
+    if d.matrix is not None:
+        m: dict[str, Any] = {"method": d.matrix.method, "scope": d.matrix.scope}
+        if d.matrix.values is not None:
+            m["values"] = [list(r) for r in d.matrix.values]
+        if d.matrix.per_illuminant:
+            m["per_illuminant"] = {k: [list(r) for r in v] for k, v in d.matrix.per_illuminant}
+        out["matrix"] = m
     return out
 
 
