@@ -141,7 +141,7 @@ DESIGN = '''\
 # Lanternfield studio. Schema: docs/design-file.md. Data: spectra-demo/README.md.
 schema = 1
 name = "Lanternfield Tern-3, prism block rev A"
-description = "Invented demo design: lens, IR cut, two-edge dichroic prism, two trim glasses, one sensor type."
+description = "Invented demo design: lens, IR cut, two-edge dichroic prism, two trim glasses, three trim coatings, one sensor type."
 observer = 2
 
 [grid]
@@ -170,8 +170,8 @@ order = "blue-first"
 # 50 % points at normal incidence; the chief ray meets the faces at 25 and 12 degrees in glass
 blue_green_nm = { value = 532.0, min = 500.0, max = 570.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
 green_red_nm = { value = 605.0, min = 575.0, max = 640.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
-blue_green_width_nm = { value = 18.0, min = 8.0, max = 40.0, free = true }
-green_red_width_nm = { value = 20.0, min = 8.0, max = 40.0, free = true }
+blue_green_width_nm = { value = 18.0, min = 8.0, max = 60.0, free = true }
+green_red_width_nm = { value = 20.0, min = 8.0, max = 60.0, free = true }
 blue_green_aoi_deg = 25.0
 green_red_aoi_deg = 12.0
 medium_index = 1.52
@@ -200,6 +200,29 @@ measured_thickness_mm = 1.0
 thickness_mm = { value = 1.5, min = 0.3, max = 4.0, free = true, tolerance = { distribution = "normal", width = 0.05 } }
 refractive_index = 1.54
 reflection = "exact"
+
+# trim coatings on the channel paths (parametric until the coating vendor's curves arrive)
+[[chain]]
+name = "red-edge"
+type = "short-pass"
+paths = ["R"]
+center_nm = { value = 660.0, min = 600.0, max = 700.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
+width_nm = { value = 25.0, min = 8.0, max = 100.0, free = true }
+
+[[chain]]
+name = "green-edge"
+type = "long-pass"
+paths = ["G"]
+center_nm = { value = 480.0, min = 400.0, max = 540.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
+width_nm = { value = 30.0, min = 8.0, max = 100.0, free = true }
+
+[[chain]]
+name = "blue-trim"
+type = "band-pass"
+paths = ["B"]
+low_nm = { value = 410.0, min = 380.0, max = 450.0, free = true }
+high_nm = { value = 500.0, min = 450.0, max = 540.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
+width_nm = { value = 30.0, min = 8.0, max = 100.0, free = true }
 
 [[chain]]
 name = "sensor"
@@ -232,15 +255,47 @@ file = "luminaire_halogen_3200K.csv"
 name = "daylight"
 cie = "D65"
 
+[[illuminants]]
+name = "tungsten"
+cie = "A"
+
 [fit]
 objective = "vora"
-recording_illuminant = "halogen"
+recording_illuminant = "daylight"
 viewing_illuminant = "daylight"
+# ΔE00 statistics under these; the halogen stays available to the light-source tools
+illuminants = ["daylight", "tungsten", "stage-led"]
+matrix = "least-squares"
+matrix_scope = "shared"
 
 [fit.weights]
 tcs = 1.0
 ces = 1.0
 studio = 2.0
+
+# the sensor for the noise measures: shot noise from the full well plus read noise
+[noise]
+full_well_e = 15000.0
+read_noise_e = 6.0
+exposure = 0.8
+grey = 0.18
+
+# what a unit must meet, and where in the image the angle on the prism faces differs
+[tolerance]
+max_mean_delta_E00 = 1.5
+min_vora = 0.95
+
+[[tolerance.field]]
+name = "centre"
+aoi_offset_deg = 0.0
+
+[[tolerance.field]]
+name = "edge"
+aoi_offset_deg = 3.0
+
+[[tolerance.field]]
+name = "corner"
+aoi_offset_deg = 5.0
 '''
 
 

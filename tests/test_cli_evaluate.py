@@ -28,7 +28,7 @@ def test_json_contract(capsys):
     # the same value from the public functions, with the design's illuminants
     d = load_design(DEMO)
     s = d.channel_sensitivities()
-    rec = d.illuminant_values("halogen")[1]
+    rec = d.illuminant_values(d.fit.recording_illuminant)[1]
     view = d.illuminant_values("daylight")[1]
     nu = vora_value(s.values.T, cmfs_on(s.wavelengths).values, rec, view)
     assert abs(out["vora_value"] - nu) < 1e-12

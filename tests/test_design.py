@@ -259,12 +259,15 @@ class TestDemoDesign:
     def test_loads(self):
         """The demo design loads with its chain, samples, illuminants and fit."""
         d = load_design(DEMO)
-        assert [e.name for e in d.chain] == ["lens", "ir-cut", "prism", "red-trim", "green-trim", "sensor"]
+        assert [e.name for e in d.chain] == ["lens", "ir-cut", "prism", "red-trim", "green-trim",
+                                             "red-edge", "green-edge", "blue-trim", "sensor"]
         assert d.observer == "2"
         assert d.target.kind == "primaries" and d.target.name == "ITU-R BT.709"
         assert set(d.free_parameters()) == {
             "prism.blue_green_nm", "prism.green_red_nm", "prism.blue_green_width_nm",
             "prism.green_red_width_nm", "red-trim.thickness_mm", "green-trim.thickness_mm",
+            "red-edge.center_nm", "red-edge.width_nm", "green-edge.center_nm", "green-edge.width_nm",
+            "blue-trim.low_nm", "blue-trim.high_nm", "blue-trim.width_nm",
         }
         p = d.parameters()["prism.f_number"]
         assert p.tolerance.distribution == "uniform" and p.tolerance.width == 0.2
@@ -355,7 +358,7 @@ class TestChainModel:
         shutil.copytree(DEMO.parent, tmp_path / "d")
         p = tmp_path / "d" / "x.toml"
         p.write_text(text)
-        with pytest.raises(WorkbenchError, match=r"chain\[5\]: expected column 'quantum'"):
+        with pytest.raises(WorkbenchError, match=r"chain\[8\]: expected column 'quantum'"):
             load_design(p).channel_sensitivities()
 
     def test_per_channel_qe(self, tmp_path):
@@ -381,8 +384,9 @@ def test_plot_chain():
 
     d = load_design(DEMO)
     ax = plot_chain(d.grid.wavelengths, d.element_curves())
-    # R: lens, ir-cut, prism, red-trim, sensor + cumulative; G: green-trim instead of red-trim
-    assert [len(a.lines) for a in ax] == [6, 6, 5]
+    # R: lens, ir-cut, prism, red-trim, red-edge, sensor + cumulative; G: green-trim and
+    # green-edge instead; B: blue-trim
+    assert [len(a.lines) for a in ax] == [7, 7, 6]
     np.testing.assert_allclose(ax[0].lines[-1].get_ydata(), d.channel_sensitivities()["R"])
     assert "nm" in ax[-1].get_xlabel()
     import matplotlib.pyplot as plt

@@ -295,8 +295,8 @@ class ColourBench:
 
     def lab_of(self, C, M) -> np.ndarray:
         """CIELAB (..., J, K, 3) of balanced RGB ``C`` (..., J, K, 3) through matrices ``M`` (..., J, 3, 3)."""
-        display = np.einsum("...jab,...jkb->...jka", M, C)
-        return XYZ_to_Lab(100 * display @ self.N.T, self.white_Lab_ref)
+        Mx = 100 * (self.N @ M)                                # (..., J, 3, 3): balanced → XYZ
+        return XYZ_to_Lab(C @ np.swapaxes(Mx, -1, -2), self.white_Lab_ref)
 
     def delta_e(self, C, M) -> np.ndarray:
         """ΔE00 (..., J, K) of balanced RGB ``C`` through ``M`` against the truth."""

@@ -159,6 +159,11 @@ def Lab_to_LCh(Lab) -> np.ndarray:
     return np.stack([Lab[..., 0], C, h], axis=-1)
 
 
+_TAU = 2 * np.pi
+_P25_7 = 25.0 ** 7
+_R6, _R25, _R30, _R63, _R275 = np.radians([6.0, 25.0, 30.0, 63.0, 275.0])
+
+
 def delta_E_CIE2000(Lab_1, Lab_2, *, k_L: float = 1.0, k_C: float = 1.0, k_H: float = 1.0) -> np.ndarray:
     """CIEDE2000 colour difference ΔE00 between L*a*b* (..., 3) arrays → (...).
 
@@ -170,56 +175,42 @@ def delta_E_CIE2000(Lab_1, Lab_2, *, k_L: float = 1.0, k_C: float = 1.0, k_H: fl
     >>> float(delta_E_CIE2000([50.0, 2.6772, -79.7751], [50.0, 0.0, -82.7485]).round(4))
     2.0425
     """
-    L1, a1, b1 = np.moveaxis(_last3(Lab_1, "Lab_1"), -1, 0)
-    L2, a2, b2 = np.moveaxis(_last3(Lab_2, "Lab_2"), -1, 0)
-    C1 = np.hypot(a1, b1)
-    C2 = np.hypot(a2, b2)
-    Cm = (C1 + C2) / 2
+    x1 = _last3(Lab_1, "Lab_1")
+    x2 = _last3(Lab_2, "Lab_2")
+    L1, a1, b1 = x1[..., 0], x1[..., 1], x1[..., 2]
+    L2, a2, b2 = x2[..., 0], x2[..., 1], x2[..., 2]
+    # Angles in radians throughout; the formula's degree constants converted once.
+    Cm = (np.hypot(a1, b1) + np.hypot(a2, b2)) * 0.5
     Cm7 = Cm ** 7
-    G = 0.5 * (1 - np.sqrt(Cm7 / (Cm7 + 25.0 ** 7)))
-    a1p = (1 + G) * a1
-    a2p = (1 + G) * a2
+    G1 = 1.5 - 0.5 * np.sqrt(Cm7 / (Cm7 + _P25_7))        # 1 + G
+    a1p = G1 * a1
+    a2p = G1 * a2
     C1p = np.hypot(a1p, b1)
     C2p = np.hypot(a2p, b2)
-    h1p = np.degrees(np.arctan2(b1, a1p)) % 360
-    h2p = np.degrees(np.arctan2(b2, a2p)) % 360
+    h1p = np.arctan2(b1, a1p) % _TAU
+    h2p = np.arctan2(b2, a2p) % _TAU
     # arctan2(0, 0) is 0 already, as Sharma et al. require.
-
-    dLp = L2 - L1
-    dCp = C2p - C1p
     zero = (C1p * C2p) == 0
     dh = h2p - h1p
-    dh = np.where(dh > 180, dh - 360, np.where(dh < -180, dh + 360, dh))
+    dh = np.where(dh > np.pi, dh - _TAU, np.where(dh < -np.pi, dh + _TAU, dh))
     dh = np.where(zero, 0.0, dh)
-    dHp = 2 * np.sqrt(C1p * C2p) * np.sin(np.radians(dh) / 2)
-
-    Lpm = (L1 + L2) / 2
-    Cpm = (C1p + C2p) / 2
+    dHp = 2 * np.sqrt(C1p * C2p) * np.sin(dh * 0.5)
+    Cpm = (C1p + C2p) * 0.5
     hsum = h1p + h2p
-    hpm = np.where(
-        np.abs(h1p - h2p) <= 180,
-        hsum / 2,
-        np.where(hsum < 360, (hsum + 360) / 2, (hsum - 360) / 2),
-    )
+    hpm = np.where(np.abs(h1p - h2p) <= np.pi, hsum * 0.5,
+                   np.where(hsum < _TAU, hsum * 0.5 + np.pi, hsum * 0.5 - np.pi))
     hpm = np.where(zero, hsum, hpm)
-
-    T = (
-        1
-        - 0.17 * np.cos(np.radians(hpm - 30))
-        + 0.24 * np.cos(np.radians(2 * hpm))
-        + 0.32 * np.cos(np.radians(3 * hpm + 6))
-        - 0.20 * np.cos(np.radians(4 * hpm - 63))
-    )
-    dtheta = 30 * np.exp(-(((hpm - 275) / 25) ** 2))
+    T = (1 - 0.17 * np.cos(hpm - _R30) + 0.24 * np.cos(2 * hpm)
+         + 0.32 * np.cos(3 * hpm + _R6) - 0.20 * np.cos(4 * hpm - _R63))
+    dtheta = _R30 * np.exp(-(((hpm - _R275) / _R25) ** 2))
     Cpm7 = Cpm ** 7
-    R_C = 2 * np.sqrt(Cpm7 / (Cpm7 + 25.0 ** 7))
-    Lm50 = (Lpm - 50) ** 2
+    R_C = 2 * np.sqrt(Cpm7 / (Cpm7 + _P25_7))
+    Lm50 = ((L1 + L2) * 0.5 - 50) ** 2
     S_L = 1 + 0.015 * Lm50 / np.sqrt(20 + Lm50)
     S_C = 1 + 0.045 * Cpm
     S_H = 1 + 0.015 * Cpm * T
-    R_T = -np.sin(np.radians(2 * dtheta)) * R_C
-
-    tL = dLp / (k_L * S_L)
-    tC = dCp / (k_C * S_C)
+    R_T = -np.sin(2 * dtheta) * R_C
+    tL = (L2 - L1) / (k_L * S_L)
+    tC = (C2p - C1p) / (k_C * S_C)
     tH = dHp / (k_H * S_H)
-    return np.sqrt(tL ** 2 + tC ** 2 + tH ** 2 + R_T * tC * tH)
+    return np.sqrt(tL * tL + tC * tC + tH * tH + R_T * tC * tH)

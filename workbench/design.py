@@ -1361,6 +1361,7 @@ class ChainModel:
             notes.extend(s.notes)
             self._tables[e.name] = s.values
         self.notes = tuple(notes)
+        self._memo: dict[str, tuple] = {}
 
     def parameter_names(self) -> tuple[str, ...]:
         return tuple(self.design.parameters())
@@ -1417,6 +1418,13 @@ class ChainModel:
         out = []
         n = self.wavelengths.size
         for e in self.design.chain:
+            # each element's curve is kept for its last parameter values: a slider or a fit
+            # step that moves one element recomputes only that one
+            key = tuple((k, p[f"{e.name}.{k}"].shape, p[f"{e.name}.{k}"].tobytes()) for k, _ in e.params)
+            hit = self._memo.get(e.name)
+            if hit is not None and hit[0] == key:
+                out.append(hit[1])
+                continue
             c = np.asarray(self._curve(e, p))
             if e.type == "dichroic-splitter":
                 full = c
@@ -1427,7 +1435,11 @@ class ChainModel:
             else:
                 mask = np.array([ch in e.paths for ch in CHANNELS])[:, None]
                 full = np.where(mask, c[..., None, :], 1.0)
-            out.append(ElementCurve(e.name, e.type, e.paths, full))
+            full = np.asarray(full)
+            full.setflags(write=False)
+            curve = ElementCurve(e.name, e.type, e.paths, full)
+            self._memo[e.name] = (key, curve)
+            out.append(curve)
         return tuple(out)
 
     def sensitivities(self, values=None) -> np.ndarray:

@@ -529,39 +529,33 @@ def dichroic_splitter(
     theta_bg = _ray_angles(blue_green_aoi_deg, fn, medium_index, r, phi)
     theta_gr = _ray_angles(green_red_aoi_deg, fn, medium_index, r, phi)
 
-    def reflect(center, width, theta, n_eff, kind):
-        # (..., K, n): edge scaled by the shift factor of each ray.
-        k = angle_shift_factor(theta, _arr(n_eff)[..., None], _arr(medium_index)[..., None])
-        c = _arr(center)[..., None] * k
-        wd = _arr(width)[..., None] * k
+    # polarisations on their own axis: (..., P, K) angles → (..., P, K, n) edges
+    n_eff_all = np.stack(np.broadcast_arrays(*[_arr(v) for v in n_effs]), axis=-1)  # (..., P)
+    n0 = _arr(medium_index)[..., None, None]
+
+    def reflect(center, width, theta, kind):
+        k = angle_shift_factor(theta[..., None, :], n_eff_all[..., :, None], n0)
+        c = _arr(center)[..., None, None] * k
+        wd = _arr(width)[..., None, None] * k
         return edge(wl, c, wd, kind=kind, shape=shape)
 
-    ell = loss[..., None, None]
+    ell = loss[..., None, None, None]
     keep = 1.0 - ell
-    total = 0.0
-    absorbed = 0.0
-    for n_eff in n_effs:
-        # The blue/green edge reflects short wavelengths, green/red long ones.
-        r_b = reflect(blue_green_nm, blue_green_width_nm, theta_bg, n_eff, "short-pass")
-        r_r = reflect(green_red_nm, green_red_width_nm, theta_gr, n_eff, "long-pass")
-        if order == "blue-first":
-            first, second = r_b, r_r
-        else:
-            first, second = r_r, r_b
-        R1 = keep * first
-        T1 = keep * (1.0 - first)
-        R2 = keep * second
-        T2 = keep * (1.0 - second)
-        p_first, p_second, p_green = R1, T1 * R2, T1 * T2
-        if order == "blue-first":
-            rgb = np.stack(np.broadcast_arrays(p_second, p_green, p_first), axis=-3)
-        else:
-            rgb = np.stack(np.broadcast_arrays(p_first, p_green, p_second), axis=-3)
-        total = total + rgb
-        # what the surfaces absorb: all light meets the first, T₁/(1−ℓ) the second
-        absorbed = absorbed + ell + (1.0 - first) * keep * ell
-    # average over rays (axis -2 of (..., 3, K, n)) and polarisations
-    paths = np.einsum("...pkn,k->...pn", total, w) / len(n_effs)
-    absorbed = np.broadcast_to(absorbed, total.shape[:-3] + total.shape[-2:])
-    lost = np.einsum("...kn,k->...n", absorbed, w) / len(n_effs)
+    # The blue/green edge reflects short wavelengths, green/red long ones.
+    r_b = reflect(blue_green_nm, blue_green_width_nm, theta_bg, "short-pass")
+    r_r = reflect(green_red_nm, green_red_width_nm, theta_gr, "long-pass")
+    first, second = (r_b, r_r) if order == "blue-first" else (r_r, r_b)
+    T1 = keep * (1.0 - first)
+    p_first, p_second, p_green = keep * first, T1 * (keep * second), T1 * (keep * (1.0 - second))
+    if order == "blue-first":
+        rgb = np.stack(np.broadcast_arrays(p_second, p_green, p_first), axis=-4)
+    else:
+        rgb = np.stack(np.broadcast_arrays(p_first, p_green, p_second), axis=-4)
+    # what the surfaces absorb: all light meets the first, T₁/(1−ℓ) the second
+    absorbed = ell + (1.0 - first) * keep * ell
+    P = len(n_effs)
+    # average over polarisations and rays (axes -3, -2 of (..., 3, P, K, n))
+    paths = (np.swapaxes(rgb, -1, -2) @ w).sum(axis=-2) / P
+    absorbed = np.broadcast_to(absorbed, rgb.shape[:-4] + rgb.shape[-3:])
+    lost = (np.swapaxes(absorbed, -1, -2) @ w).sum(axis=-2) / P
     return paths, lost
