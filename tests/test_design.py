@@ -209,6 +209,26 @@ BAD = {
         'PATH: 1 problem in the design file (chain[0].type)\n'
         "  chain[0].type: expected one of measured, glass, long-pass, short-pass, band-pass, neutral-density, colour-correction, dichroic-splitter, sensor-qe (got 'shortpass')"
     ),
+    'fit_matrix_rule': (
+        'PATH: 3 problems in the design file (fit.matrix, fit.matrix_scope, fit.seed)\n'
+        "  fit.matrix: expected one of least-squares, white-preserving, delta-e00 (got 'fancy')\n"
+        "  fit.matrix_scope: expected one of shared, per-illuminant (got 'each')\n"
+        '  fit.seed: expected a whole number >= 0 (got -1)'
+    ),
+    'noise_values': (
+        'PATH: 2 problems in the design file (noise.full_well_e, noise.exposure)\n'
+        '  noise.full_well_e: expected a number > 0 (electrons) (got 0)\n'
+        '  noise.exposure: expected a number in (0, 1] (fraction of the full well) (got 1.5)'
+    ),
+    'matrix_singular': (
+        'PATH: 1 problem in the design file (matrix.values)\n'
+        "  matrix.values: expected an invertible 3×3 matrix (this one's determinant is 0)"
+    ),
+    'tolerance_section': (
+        'PATH: 2 problems in the design file (tolerance.min_vora, tolerance.field[0].aoi_offset_deg)\n'
+        '  tolerance.min_vora: expected a number in [0, 1] (got 1.5)\n'
+        '  tolerance.field[0].aoi_offset_deg: expected a number of degrees in [-30, 30] (got 45)'
+    ),
     'value_outside_bounds': (
         'PATH: 1 problem in the design file (chain[0].center_nm.value)\n'
         '  chain[0].center_nm.value: expected a number within [min, max] = [620.0, 680.0] (got 700.0)'

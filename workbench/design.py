@@ -969,7 +969,7 @@ def _matrix3(c: _Checker, v, key: str):
         return None
     m = tuple(tuple(float(_number(x)) for x in r) for r in v)
     if abs(float(np.linalg.det(np.array(m)))) < 1e-12:
-        c.bad(key, "an invertible 3×3 matrix", v)
+        c.bad(key, "an invertible 3×3 matrix (this one's determinant is 0)", show_got=False)
         return None
     return m
 

@@ -1,0 +1,411 @@
+"""The colour pipeline, the measures and the fit, checked against outside references."""
+
+from __future__ import annotations
+
+import json
+import shutil
+import threading
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from colour_reference import evaluate_with_colour, gaussian_camera
+from workbench.camera import (ColourBench, bradford_matrix, least_squares_matrix,
+                              white_preserving_matrix)
+from workbench.cie import cmfs_on, illuminant_on
+from workbench.design import load_design
+from workbench.errors import WorkbenchError
+from workbench.fitting import (DesignEvaluator, fit_design, load_camera, luther_residual,
+                               noise_report, sensitivity_metamerism_index)
+from workbench.measures import neugebauer_q, vora_value
+from workbench.primaries import primaries_named
+from workbench.samples import ces_cie_224, tcs_cie_13_3
+from workbench.spectra import grid
+
+DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"
+BT709 = primaries_named("ITU-R BT.709")
+
+
+def d65(wl):
+    return np.asarray(illuminant_on(wl, "D65")[1].values)
+
+
+def illum_A(wl):
+    return np.asarray(illuminant_on(wl, "A")[1].values)
+
+
+# --------------------------------------------------------------------------
+# Matrices
+# --------------------------------------------------------------------------
+
+
+class TestMatrices:
+    def setup_method(self):
+        rng = np.random.default_rng(7)
+        self.C = rng.random((40, 3))
+        self.T = self.C @ rng.normal(size=(3, 3)).T + 0.05 * rng.normal(size=(40, 3))
+
+    def test_least_squares_equals_colour(self):
+        """Least squares equals colour-science's 3-term matrix_colour_correction."""
+        import colour
+
+        M = least_squares_matrix(self.C, self.T)
+        ref = colour.characterisation.matrix_colour_correction(self.C, self.T, method="Cheung 2004", terms=3)
+        np.testing.assert_allclose(M, ref, atol=1e-10)  # colour-science 0.4.7 (methods.md § 3)
+
+    def test_white_preserving_maps_white_exactly(self):
+        """The white-preserving matrix maps w_c to w_t to rounding."""
+        wc, wt = np.array([0.9, 1.1, 1.0]), np.array([1.0, 1.0, 1.0])
+        M = white_preserving_matrix(self.C, self.T, white_camera=wc, white_target=wt)
+        np.testing.assert_allclose(M @ wc, wt, atol=1e-12)
+
+    def test_white_preserving_equals_brute_force_kkt(self):
+        """The closed form equals a brute-force KKT solve of the constrained problem."""
+        # Finlayson & Drew, CIC5 (1997), pp. 258-261: minimise ‖CMᵀ − T‖ s.t. M w_c = w_t
+        wc, wt = np.array([0.9, 1.1, 1.0]), np.array([1.0, 0.95, 1.05])
+        M = white_preserving_matrix(self.C, self.T, white_camera=wc, white_target=wt)
+        G = self.C.T @ self.C
+        # unknowns: the 9 entries (row by row) and 3 multipliers
+        K = np.zeros((12, 12))
+        rhs = np.zeros(12)
+        for i in range(3):
+            K[3 * i:3 * i + 3, 3 * i:3 * i + 3] = 2 * G
+            K[3 * i:3 * i + 3, 9 + i] = wc
+            K[9 + i, 3 * i:3 * i + 3] = wc
+            rhs[3 * i:3 * i + 3] = 2 * self.C.T @ self.T[:, i]
+            rhs[9 + i] = wt[i]
+        sol = np.linalg.solve(K, rhs)
+        np.testing.assert_allclose(M, sol[:9].reshape(3, 3), atol=1e-10)
+
+    def test_white_preserving_differs_from_colour_whitepoint_preserving_matrix(self):
+        """colour's whitepoint_preserving_matrix only rewrites the last column: not this optimum."""
+        import colour
+
+        M = white_preserving_matrix(self.C, self.T)
+        ref = colour.characterisation.whitepoint_preserving_matrix(least_squares_matrix(self.C, self.T))
+        cost = lambda m: np.sum((self.C @ m.T - self.T) ** 2)  # noqa: E731
+        # methods.md § 3 (⚠): both map (1,1,1) to (1,1,1); the closed form has the lower cost
+        np.testing.assert_allclose(ref @ np.ones(3), np.ones(3), atol=1e-12)
+        assert cost(M) < cost(ref)
+
+    def test_batched(self):
+        """A batch of problems gives each problem's own matrix."""
+        C2 = np.stack([self.C, self.C * [1, 2, 3]])
+        M = least_squares_matrix(C2, np.stack([self.T, self.T]))
+        np.testing.assert_allclose(M[0], least_squares_matrix(self.C, self.T))
+        np.testing.assert_allclose(M[1], least_squares_matrix(self.C * [1, 2, 3], self.T))
+
+
+class TestBradford:
+    def test_equals_colour(self):
+        """The linear Bradford matrix equals colour-science's von Kries with the Bradford transform."""
+        import colour
+
+        A = np.array([1.09850, 1.0, 0.35585])
+        D65 = np.array([0.95047, 1.0, 1.08883])
+        ref = colour.adaptation.matrix_chromatic_adaptation_VonKries(A, D65, transform="Bradford")
+        np.testing.assert_allclose(bradford_matrix(A, D65), ref, atol=1e-12)
+        np.testing.assert_allclose(bradford_matrix(A, D65) @ A, D65, atol=1e-12)
+
+
+# --------------------------------------------------------------------------
+# Measures of the synthetic Gaussian camera (methods.md §§ 1-3)
+# --------------------------------------------------------------------------
+
+
+class TestGaussianCamera:
+    def test_vora_q_luther_residual(self):
+        """ν, q and the Luther residual of the Gaussian camera (400-700 nm at 10 nm, 2°)."""
+        wl = grid(400, 700, 10)
+        S = gaussian_camera(wl)
+        X = cmfs_on(wl).values
+        # recomputed here from colour-science's CMFs and numpy projections
+        import colour
+
+        Xc = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"].copy().align(
+            colour.SpectralShape(400, 700, 10)).values
+        Pa = Xc @ np.linalg.pinv(Xc)
+        Pm = S.T @ np.linalg.pinv(S.T)
+        assert vora_value(S.T, X) == pytest.approx(np.trace(Pa @ Pm) / 3, abs=1e-10)
+        assert vora_value(S.T, X) == pytest.approx(0.9769, abs=5e-5)  # methods.md § 1 [C]
+        E = d65(wl)
+        assert vora_value(S.T, X, E, E) == pytest.approx(0.9758, abs=5e-5)  # methods.md § 1 [C]
+        np.testing.assert_allclose(neugebauer_q(S.T, X), [0.9467, 0.9928, 0.9865], atol=5e-5)  # methods.md § 1
+        assert luther_residual(S.T, X) == pytest.approx(0.156, abs=5e-4)  # methods.md § 1 [C]
+
+    def test_smi(self):
+        """ISO 17321-1-style SMI of the Gaussian camera: mean ΔE*ab 0.677, SMI 96.3 (D65, TCS01-08)."""
+        wl = grid(380, 780, 5)
+        tcs = tcs_cie_13_3(wl).flat()[:8]
+        r = sensitivity_metamerism_index(gaussian_camera(wl), wl, tcs, d65(wl))
+        assert r["mean_delta_E_ab"] == pytest.approx(0.677, abs=5e-4)  # methods.md § 2 [C]
+        assert r["smi"] == pytest.approx(96.3, abs=0.05)  # methods.md § 2 [C]
+
+    def test_smi_luther_camera_is_100(self):
+        """A Luther camera scores SMI 100."""
+        wl = grid(380, 780, 5)
+        S = (cmfs_on(wl).values @ np.array([[1, 0.2, 0], [0.1, 1, 0], [0, 0.3, 1]]).T).T
+        r = sensitivity_metamerism_index(S, wl, tcs_cie_13_3(wl).flat()[:8], d65(wl))
+        assert r["smi"] == pytest.approx(100.0, abs=1e-9)  # methods.md § 2 [C]
+
+    @pytest.mark.parametrize("method, expected", [("least-squares", 0.776), ("white-preserving", 1.088)])
+    def test_delta_e_99_samples(self, method, expected):
+        """Mean ΔE00 over the 99 CIE 224 samples under D65, 400-700 nm at 5 nm, to BT.709."""
+        wl = grid(400, 700, 5)
+        ces = ces_cie_224(wl)
+        b = ColourBench(wl, ces, {"D65": d65(wl)}, BT709)
+        r = b.evaluate(gaussian_camera(wl), method)
+        assert r.delta_E00.mean() == pytest.approx(expected, abs=5e-4)  # methods.md § 3 [C]
+
+    def test_pipeline_equals_colour_science(self):
+        """Per-sample ΔE00 under D65 and A equals a per-sample pipeline built from colour-science calls."""
+        wl = grid(400, 700, 10)
+        ces = ces_cie_224(wl)
+        ills = {"D65": d65(wl), "A": illum_A(wl)}
+        S = gaussian_camera(wl)
+        ours = ColourBench(wl, ces, ills, BT709).evaluate(S, "least-squares", "per-illuminant")
+        ref = evaluate_with_colour(wl, S, ces.flat(), ills)
+        np.testing.assert_allclose(ours.delta_E00, ref, atol=1e-8)  # colour-science 0.4.7
+
+    def test_delta_e_matrix_beats_least_squares(self):
+        """The ΔE00-minimising matrix gives a lower weighted RMS ΔE00 than least squares."""
+        wl = grid(400, 700, 10)
+        b = ColourBench(wl, ces_cie_224(wl), {"D65": d65(wl)}, BT709)
+        ls = b.evaluate(gaussian_camera(wl), "least-squares").delta_E00
+        de = b.evaluate(gaussian_camera(wl), "delta-e00").delta_E00
+        assert np.sqrt(np.mean(de ** 2)) < np.sqrt(np.mean(ls ** 2))
+
+
+class TestLutherCamera:
+    @pytest.mark.parametrize("mix", [np.eye(3), np.array([[0.9, 0.3, 0.0], [0.1, 1.0, 0.2], [0.0, 0.1, 1.1]])])
+    def test_luther_camera_is_perfect(self, mix):
+        """CIE functions (or an invertible mix) give ν = 1, q = 1 and ΔE00 = 0 under D65 and A."""
+        wl = grid(380, 780, 5)
+        S = (cmfs_on(wl).values @ mix.T).T
+        X = cmfs_on(wl).values
+        E = d65(wl)
+        assert vora_value(S.T, X, E, E) == pytest.approx(1.0, abs=1e-12)  # Luther (1927); methods.md § 1
+        np.testing.assert_allclose(neugebauer_q(S.T, X, E, E), 1.0, atol=1e-12)
+        b = ColourBench(wl, ces_cie_224(wl), {"D65": E, "A": illum_A(wl)}, BT709)
+        for method in ("least-squares", "white-preserving"):
+            r = b.evaluate(S, method, "per-illuminant")
+            assert r.delta_E00.max() < 1e-9  # a linear map exists: the Bradford transform is 3×3
+
+    def test_luther_design_through_the_chain(self, tmp_path):
+        """A design whose sensor is the CIE functions through a flat chain scores ν = q = 1, ΔE00 = 0."""
+        wl = grid(380, 780, 5)
+        X = cmfs_on(wl).values
+        rows = "\n".join(f"{w:g},{x:.17g},{y:.17g},{z:.17g}" for w, (x, y, z) in zip(wl, X))
+        (tmp_path / "qe.csv").write_text("wavelength_nm,r,g,b\n" + rows + "\n")
+        (tmp_path / "d.toml").write_text(
+            'schema = 1\nname = "luther"\n[grid]\nstart_nm = 380\nstop_nm = 780\nstep_nm = 5\n'
+            '[target]\nkind = "primaries"\nname = "ITU-R BT.709"\n'
+            '[[chain]]\nname = "nd"\ntype = "neutral-density"\ndensity = 0.3\n'
+            '[[chain]]\nname = "s"\ntype = "sensor-qe"\nfile = "qe.csv"\n'
+            'columns = { R = "r", G = "g", B = "b" }\n'
+            '[[samples]]\nname = "ces"\nsource = "cie-224"\n'
+            '[[illuminants]]\nname = "d65"\ncie = "D65"\n'
+            '[fit]\nrecording_illuminant = "d65"\nviewing_illuminant = "d65"\n')
+        m = DesignEvaluator(load_design(tmp_path / "d.toml")).measures()
+        assert m.vora_value == pytest.approx(1.0, abs=1e-12)
+        np.testing.assert_allclose(m.neugebauer_q, 1.0, atol=1e-12)
+        assert m.delta_E00["d65"]["max"] < 1e-9
+        assert m.luther_residual < 1e-9
+        assert m.smi["smi"] == pytest.approx(100.0, abs=1e-9)
+
+
+# --------------------------------------------------------------------------
+# Noise
+# --------------------------------------------------------------------------
+
+
+class TestNoise:
+    def test_identity_matrix_shot_noise(self):
+        """With M = I, no read noise and equal channels, σ_out = √(grey·e_w)/e_w per channel."""
+        from workbench.design import NoiseModel
+
+        nm = NoiseModel(full_well_e=10000, read_noise_e=0, exposure=1.0, grey=0.25)
+        r = noise_report(np.eye(3), np.ones(3), nm)
+        # Poisson statistics (common practice): σ = √N electrons for N electrons
+        np.testing.assert_allclose(r["sigma_out"], np.sqrt(2500) / 10000)
+        np.testing.assert_allclose(r["row_norms"], 1.0)
+        assert r["condition"] == pytest.approx(1.0)
+
+    def test_matrix_propagation(self):
+        """σ_out² = Σ_j M_ij² σ_j² for independent channel noise (Σ_out = M Σ Mᵀ)."""
+        from workbench.design import NoiseModel
+
+        nm = NoiseModel(full_well_e=20000, read_noise_e=10, exposure=0.5, grey=0.18)
+        M = np.array([[1.6, -0.5, -0.1], [-0.2, 1.3, -0.1], [0.0, -0.2, 1.2]])
+        w = np.array([0.5, 1.0, 0.7])
+        r = noise_report(M, w, nm)
+        e_w = 0.5 * 20000 * w / 1.0
+        s_in = np.sqrt(0.18 * e_w + 100) / e_w
+        np.testing.assert_allclose(r["sigma_out"], np.sqrt(np.diag(M @ np.diag(s_in ** 2) @ M.T)))
+
+
+# --------------------------------------------------------------------------
+# The design evaluator and the fit
+# --------------------------------------------------------------------------
+
+
+def _recovery_design(tmp_path, c0=530.0, w0=40.0):
+    """A design that is a Luther camera exactly when its long-pass edge sits at (c0, w0)."""
+    from workbench import optics
+
+    wl = grid(380, 780, 5)
+    X = cmfs_on(wl).values
+    edge = optics.edge(wl, c0, w0, kind="long-pass", block_level=0.3)
+    qe = X / edge[:, None]
+    rows = "\n".join(f"{w:g},{a:.17g},{b:.17g},{c:.17g}" for w, (a, b, c) in zip(wl, qe))
+    (tmp_path / "qe.csv").write_text("wavelength_nm,r,g,b\n" + rows + "\n")
+    p = tmp_path / "rec.toml"
+    p.write_text(
+        'schema = 1\nname = "recovery"\n[grid]\nstart_nm = 380\nstop_nm = 780\nstep_nm = 5\n'
+        '[target]\nkind = "observer"\n'
+        '[[chain]]\nname = "edge"\ntype = "long-pass"\nblock_level = 0.3\n'
+        'center_nm = { value = 548.0, min = 480.0, max = 600.0, free = true }\n'
+        'width_nm = { value = 25.0, min = 10.0, max = 80.0, free = true }\n'
+        '[[chain]]\nname = "s"\ntype = "sensor-qe"\nfile = "qe.csv"\n'
+        'columns = { R = "r", G = "g", B = "b" }\n'
+        '[[samples]]\nname = "ces"\nsource = "cie-224"\n'
+        '[[illuminants]]\nname = "d65"\ncie = "D65"\n'
+        '[fit]\nobjective = "vora"\nrecording_illuminant = "d65"\nviewing_illuminant = "d65"\n')
+    return p
+
+
+class TestFit:
+    def test_recovers_known_parameters(self, tmp_path):
+        """From a perturbed start the fit recovers the edge (530 nm, 40 nm) within 0.01 nm."""
+        r = fit_design(load_design(_recovery_design(tmp_path)), progress=False)
+        got = {p["name"]: p["value"] for p in r.parameters}
+        assert r.converged, r.message
+        assert got["edge.center_nm"] == pytest.approx(530.0, abs=0.01)
+        assert got["edge.width_nm"] == pytest.approx(40.0, abs=0.01)
+        assert r.after.vora_value == pytest.approx(1.0, abs=1e-9)
+        assert r.before.vora_value < r.after.vora_value
+
+    @pytest.mark.parametrize("objective", ["luther-residual", "mean-delta-e00"])
+    def test_other_objectives_recover(self, tmp_path, objective):
+        """The spectral and colorimetric objectives reach the same Luther optimum."""
+        p = _recovery_design(tmp_path)
+        p.write_text(p.read_text().replace('objective = "vora"', f'objective = "{objective}"'))
+        r = fit_design(load_design(p), progress=False)
+        got = {q["name"]: q["value"] for q in r.parameters}
+        assert got["edge.center_nm"] == pytest.approx(530.0, abs=0.2)
+        assert r.after.delta_E00["d65"]["mean"] < 0.01
+
+    def test_vora_residual_sums_to_one_minus_nu(self, tmp_path):
+        """The ν objective's residual vector has Σ r² = 1 − ν exactly."""
+        ev = DesignEvaluator(load_design(_recovery_design(tmp_path)))
+        r = ev.residuals(ev.start)[0]
+        assert float(r @ r) == pytest.approx(1 - ev.measures().vora_value, abs=1e-12)
+
+    def test_demo_fit_improves_and_serialises(self):
+        """The demo fit raises ν, keeps bounds, flags parameters at bounds and gives valid JSON."""
+        d = load_design(DEMO)
+        r = fit_design(d, progress=False)
+        assert r.after.vora_value > r.before.vora_value
+        for p in r.parameters:
+            assert p["min"] <= p["value"] <= p["max"]
+            assert (p["at_bound"] is not None) == (p["value"] in (p["min"], p["max"])
+                                                   or abs(p["value"] - p["min"]) < 1e-4
+                                                   or abs(p["value"] - p["max"]) < 1e-4)
+        data = json.loads(r.to_json())
+        assert data["after"]["vora_value"] == pytest.approx(r.after.vora_value)
+        assert set(data["after"]["delta_E00"]) == set(r.after.illuminants)
+        assert "<table>" in r._repr_html_()
+        # the fitted design carries its matrix and reloads with it
+        assert r.design.matrix is not None and r.design.matrix.method == "least-squares"
+
+    def test_stop_event_keeps_best_so_far(self):
+        """A set stop event ends the fit at once, reported as interrupted, with the start kept."""
+        stop = threading.Event()
+        stop.set()
+        r = fit_design(load_design(DEMO), progress=False, stop=stop)
+        assert r.status == "interrupted" and not r.converged
+        assert r.after.vora_value == pytest.approx(r.before.vora_value)
+
+    def test_global_start_is_seeded(self, tmp_path):
+        """Multi-start with the same seed gives the same result."""
+        p = _recovery_design(tmp_path)
+        d = load_design(p)
+        a = fit_design(d, progress=False, global_start="multi-start", seed=3)
+        b = fit_design(d, progress=False, global_start="multi-start", seed=3)
+        assert [x["value"] for x in a.parameters] == [x["value"] for x in b.parameters]
+        assert a.after.vora_value == pytest.approx(1.0, abs=1e-9)
+
+    def test_differential_evolution(self, tmp_path):
+        """Differential evolution then the local fit reaches the optimum."""
+        d = load_design(_recovery_design(tmp_path))
+        r = fit_design(d, progress=False, global_start="differential-evolution", seed=1)
+        got = {q["name"]: q["value"] for q in r.parameters}
+        assert got["edge.center_nm"] == pytest.approx(530.0, abs=0.05)
+
+    def test_delta_e_matrix_fitted_jointly(self, tmp_path):
+        """With the ΔE00 objective and matrix, the matrix entries are fitted with the filters."""
+        p = _recovery_design(tmp_path)
+        p.write_text(p.read_text().replace('objective = "vora"',
+                                           'objective = "mean-delta-e00"\nmatrix = "delta-e00"'))
+        r = fit_design(load_design(p), progress=False)
+        assert r.after.matrix_method == "delta-e00"
+        assert r.after.delta_E00["d65"]["mean"] < 0.01
+
+    def test_no_free_parameters(self, tmp_path):
+        """A design with nothing free is refused with a one-line error."""
+        p = _recovery_design(tmp_path)
+        p.write_text(p.read_text().replace("free = true", "free = false"))
+        with pytest.raises(WorkbenchError, match="no free parameters to fit"):
+            fit_design(load_design(p), progress=False)
+
+
+class TestBatch:
+    def test_batch_equals_single(self):
+        """A batch of parameter values gives each member's single-state measures."""
+        d = load_design(DEMO)
+        ev = DesignEvaluator(d)
+        bg = np.array([520.0, 532.0, 545.0])
+        b = ev.batch({"prism.blue_green_nm": bg})
+        for i, v in enumerate(bg):
+            m = ev.measures({"prism.blue_green_nm": float(v)})
+            assert b["vora_value"][i] == pytest.approx(m.vora_value, abs=1e-12)
+            for ill in m.illuminants:
+                assert b["delta_E00"][ill]["mean"][i] == pytest.approx(m.delta_E00[ill]["mean"], abs=1e-10)
+
+    def test_fixed_matrix(self):
+        """A fixed matrix is used as given for every unit."""
+        ev = DesignEvaluator(load_design(DEMO))
+        m = ev.measures()
+        b = ev.batch({"prism.blue_green_nm": np.array([532.0, 540.0])}, matrices=m.matrices)
+        np.testing.assert_allclose(b["matrices"][1], m.matrices)
+
+
+class TestLoadCamera:
+    def test_design_camera_renders_like_the_bench(self):
+        """A camera from the demo design reproduces the evaluator's camera Lab under D65."""
+        d = load_design(DEMO)
+        ev = DesignEvaluator(d)
+        m = ev.measures()
+        cam = load_camera(DEMO)
+        j = m.illuminants.index("daylight")
+        lab = cam.Lab(ev.bench.R, ev.bench.E[j])
+        np.testing.assert_allclose(lab, m.camera_Lab[j], atol=1e-9)
+
+    def test_csv_camera(self, tmp_path):
+        """Three sensitivity columns load as a camera with a least-squares matrix."""
+        wl = grid(380, 780, 5)
+        S = gaussian_camera(wl)
+        rows = "\n".join(f"{w:g},{a:.10g},{b:.10g},{c:.10g}" for w, (a, b, c) in zip(wl, S.T))
+        (tmp_path / "s.csv").write_text("wavelength_nm,R,G,B\n" + rows + "\n")
+        cam = load_camera(tmp_path / "s.csv")
+        assert cam.sensitivities.shape == (3, wl.size)
+        white = cam.display_rgb(np.ones(wl.size), d65(wl))
+        assert np.all(np.abs(white - 1) < 0.05)
+
+    def test_csv_with_two_columns_is_refused(self, tmp_path):
+        """A sensitivity file without three columns gets a one-line error naming it."""
+        (tmp_path / "s.csv").write_text("wavelength_nm,R,G\n400,0.1,0.2\n500,0.3,0.4\n600,0.2,0.1\n")
+        with pytest.raises(WorkbenchError, match=r"s\.csv: expected three sensitivity columns"):
+            load_camera(tmp_path / "s.csv")
