@@ -419,6 +419,24 @@ def cone_quadrature(rings: int = 4, azimuths: int = 8):
     return r, p, w
 
 
+@lru_cache(maxsize=16)
+def _distinct_rays(rings: int, azimuths: int):
+    """The cone quadrature with rays of equal (r, cos φ) merged (their weights summed).
+
+    Only cos φ enters the angle of incidence (:func:`_ray_angles`), and the
+    azimuths come in mirror pairs φ, 2π − φ, so about half the rays are
+    duplicates; merging them changes nothing but the work.
+    """
+    r, phi, w = cone_quadrature(rings, azimuths)
+    key = np.round(np.stack([r, np.cos(phi)], axis=1), 12)
+    _, first, inverse = np.unique(key, axis=0, return_index=True, return_inverse=True)
+    w2 = np.bincount(inverse.ravel(), weights=w)
+    out = (r[first].copy(), phi[first].copy(), w2)
+    for a in out:
+        a.setflags(write=False)
+    return out
+
+
 def _ray_angles(aoi_deg, f_number, n0, r, phi):
     """Angles of incidence (deg), (..., K), of the cone's rays on a surface tilted ``aoi_deg``.
 
@@ -520,30 +538,30 @@ def dichroic_splitter(
         r, phi, w = np.zeros(1), np.zeros(1), np.ones(1)
         fn = np.inf
     else:
-        r, phi, w = cone_quadrature(int(rings), int(azimuths))
+        r, phi, w = _distinct_rays(int(rings), int(azimuths))
         fn = f_number
     loss = _arr(loss)
     if np.any(~((loss >= 0) & (loss < 1))):
         raise WorkbenchError("splitter loss must lie in [0, 1)")
     n_effs = [n_eff_s] if n_eff_p is None else [n_eff_s, n_eff_p]
-    theta_bg = _ray_angles(blue_green_aoi_deg, fn, medium_index, r, phi)
-    theta_gr = _ray_angles(green_red_aoi_deg, fn, medium_index, r, phi)
-
-    # polarisations on their own axis: (..., P, K) angles → (..., P, K, n) edges
+    # both surfaces in one computation: axis -3 of (..., 2, P, K) is the surface
+    # (0 blue/green, 1 green/red), -2 the polarisation, -1 the ray
+    aoi = np.stack(np.broadcast_arrays(_arr(blue_green_aoi_deg), _arr(green_red_aoi_deg)), axis=-1)
+    theta = _ray_angles(aoi, np.asarray(fn, dtype=float)[..., None], _arr(medium_index)[..., None],
+                        r, phi)                                            # (..., 2, K)
     n_eff_all = np.stack(np.broadcast_arrays(*[_arr(v) for v in n_effs]), axis=-1)  # (..., P)
-    n0 = _arr(medium_index)[..., None, None]
-
-    def reflect(center, width, theta, kind):
-        k = angle_shift_factor(theta[..., None, :], n_eff_all[..., :, None], n0)
-        c = _arr(center)[..., None, None] * k
-        wd = _arr(width)[..., None, None] * k
-        return edge(wl, c, wd, kind=kind, shape=shape)
+    n0 = _arr(medium_index)[..., None, None, None]
+    k = angle_shift_factor(theta[..., :, None, :], n_eff_all[..., None, :, None], n0)
+    centers = np.stack(np.broadcast_arrays(_arr(blue_green_nm), _arr(green_red_nm)), axis=-1)
+    widths = np.stack(np.broadcast_arrays(_arr(blue_green_width_nm), _arr(green_red_width_nm)), axis=-1)
+    # long-pass rise of both edges; the blue/green surface reflects the short side, 1 − rise
+    rise = edge(wl, centers[..., None, None] * k, widths[..., None, None] * k, kind="long-pass",
+                shape=shape)                                               # (..., 2, P, K, n)
+    r_b = 1.0 - rise[..., 0, :, :, :]
+    r_r = rise[..., 1, :, :, :]
 
     ell = loss[..., None, None, None]
     keep = 1.0 - ell
-    # The blue/green edge reflects short wavelengths, green/red long ones.
-    r_b = reflect(blue_green_nm, blue_green_width_nm, theta_bg, "short-pass")
-    r_r = reflect(green_red_nm, green_red_width_nm, theta_gr, "long-pass")
     first, second = (r_b, r_r) if order == "blue-first" else (r_r, r_b)
     T1 = keep * (1.0 - first)
     p_first, p_second, p_green = keep * first, T1 * (keep * second), T1 * (keep * (1.0 - second))
