@@ -32,6 +32,10 @@ def test_json_contract(capsys):
     view = d.illuminant_values("daylight")[1]
     nu = vora_value(s.values.T, cmfs_on(s.wavelengths).values, rec, view)
     assert abs(out["vora_value"] - nu) < 1e-12
+    # the full measures of the design evaluator, with their methods
+    assert set(out["delta_E00"]) == set(d.fit.illuminants)
+    assert {"luther_residual", "smi", "noise", "matrix"} <= set(out)
+    assert "CIEDE2000" in out["method"]["delta_E00"]
     assert out["channels"]["B"]["peak_nm"] == float(s.wavelengths[np.argmax(s["B"])])
 
 

@@ -1,4 +1,4 @@
-"""``workbench evaluate DESIGN.toml``: the channel sensitivities of a design as it stands.
+"""``workbench evaluate DESIGN.toml``: the channel sensitivities and measures of a design as it stands.
 
 Prints, per channel, the peak wavelength, the 50 % points and the area of
 the sensitivity curve, and the Vora value of the three channels against the
@@ -64,7 +64,11 @@ def curve_summary(wl: np.ndarray, s: np.ndarray) -> dict:
 
 def evaluate(design) -> dict:
     """The summary that ``workbench evaluate`` prints, as a dict."""
-    model = design.model()
+    from ..fitting import DesignEvaluator
+
+    ev = DesignEvaluator(design)
+    m = ev.measures(use_stored_matrix=design.matrix is not None)
+    model = ev.model
     sens = model.channel_sensitivities()
     wl = sens.wavelengths
     S = sens.values.T
@@ -84,6 +88,7 @@ def evaluate(design) -> dict:
             for k, ch in enumerate(CHANNELS)
         },
         "vora_value": float(nu),
+        **{k: v for k, v in m.summary().items() if k not in ("vora_value", "neugebauer_q")},
         "method": {
             "sensitivities": "product of the element curves along each path of the chain",
             "peak_nm": "grid point of the maximum, nm",
@@ -93,8 +98,10 @@ def evaluate(design) -> dict:
             "neugebauer_q": "|P_A m|^2/|m|^2 per channel (Neugebauer 1956), 0-1",
             "recording_illuminant": rec_label,
             "viewing_illuminant": view_label,
+            **{k: v for k, v in m.methods.items()
+               if k not in ("vora_value", "neugebauer_q", "recording_illuminant", "viewing_illuminant")},
         },
-        "notes": list(sens.notes) + list(rec_notes) + list(view_notes),
+        "notes": list(dict.fromkeys(list(sens.notes) + list(rec_notes) + list(view_notes) + list(ev.notes))),
     }
 
 
@@ -127,4 +134,11 @@ def run(args) -> int:
     ]
     print(render_rows(rows, ["channel", "peak_nm", "half_max_low_nm", "half_max_high_nm", "area",
                              "neugebauer_q"], "table", header_lines=header))
+    print()
+    de = [{"illuminant": ill, **s} for ill, s in result["delta_E00"].items()]
+    print(render_rows(de, ["illuminant", "mean", "median", "p95", "max"], "table", header_lines=[
+        f"ΔE00 over the design's samples: {m['delta_E00']}",
+        f"matrix: {m['matrix']}; Luther residual {result['luther_residual']:.4f}; "
+        f"{m['smi']}: {result['smi']['smi']:.1f}",
+    ]))
     return 0
