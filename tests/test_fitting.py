@@ -214,6 +214,17 @@ class TestLutherCamera:
         assert m.delta_E00["d65"]["max"] < 1e-9
         assert m.luther_residual < 1e-9
         assert m.smi["smi"] == pytest.approx(100.0, abs=1e-9)
+        # the curves after balance and matrix are the targets themselves
+        np.testing.assert_allclose(m.curves, m.targets, atol=1e-9 * np.abs(m.targets).max())
+
+    def test_curves_integrate_to_the_matrix_white(self):
+        """Σ curves·E = M·(1, 1, 1) and Σ targets·E = (1, 1, 1) under the curve illuminant."""
+        ev = DesignEvaluator(load_design(DEMO))
+        m = ev.measures()
+        j = m.illuminants.index(m.curve_illuminant)
+        E = ev.bench.E[j]
+        np.testing.assert_allclose(m.curves @ E, m.matrices[j] @ np.ones(3), atol=1e-12)
+        np.testing.assert_allclose(m.targets @ E, np.ones(3), atol=1e-12)
 
 
 # --------------------------------------------------------------------------

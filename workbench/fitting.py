@@ -443,7 +443,8 @@ class DesignEvaluator:
 
         A = bradford_matrix(XYZw / XYZw[1], b.display_white)
         targets_j = b.N_inv @ A @ (self.cmfs.T / XYZw[1])       # per unit light, (3, n)
-        curves = res.matrices[j] @ (res.gains[j][:, None] * S)  # (3, n)
+        # per unit light: Σ curves·E = M·(1,1,1), as Σ targets·E = (1,1,1)
+        curves = res.matrices[j] @ (res.gains[j][:, None] * S) * b.step  # (3, n)
         display_white = 100 * b.display_white
         from .colorimetry import Lab_to_XYZ
 
@@ -810,7 +811,7 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
                 best = (c, r, x)
         _, r, _ = best
         status = "converged" if r.success and r.status > 0 else "not converged"
-        message = r.message
+        message = str(r.message).rstrip(".")
     except FitStopped as e:
         status, message = "interrupted", f"{e}; best point so far kept"
     except KeyboardInterrupt:
