@@ -415,7 +415,7 @@ def fit_emitter_set(emitters, target: Primaries, wavelengths, *, observer="2",
     for (i, j, attr, *_), v, l_, h_ in zip(table, x, lo, hi):
         span = h_ - l_
         for b, side in ((l_, "lower"), (h_, "upper")):
-            if abs(v - b) <= 1e-6 * max(span, 1.0):
+            if abs(v - b) <= 1e-10 * span:  # relative to the span: wide default bounds flag nothing by accident
                 at_bounds.append(f"{_PRIMARY_NAMES[i]} component {j + 1} {attr} = {v:g} ({side} bound)")
     reached = bool(np.all(duv <= tolerance_uv) and duv_w <= tolerance_uv)
     worst = int(np.argmax(duv))
