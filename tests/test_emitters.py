@@ -90,6 +90,8 @@ class TestFit:
             assert b.amplitude == pytest.approx(t.amplitude, rel=1e-5)
         assert fit.delta_uv_primaries.max() < 1e-8
         np.testing.assert_allclose(fit.spectra.values, emitter_spectra(truth, WL).values, atol=1e-5)
+        # amplitudes 0.8-1.5 are far inside the default bounds (0, 1e6): nothing is at a bound
+        assert fit.at_bounds == ()
 
     def test_inputs_not_mutated(self):
         """The starting emitters keep their values (results are new values)."""
