@@ -3,9 +3,7 @@
 from __future__ import annotations
 
 import json
-import shutil
 import threading
-from dataclasses import replace
 from pathlib import Path
 
 import numpy as np

@@ -58,6 +58,7 @@ __all__ = [
     "ElementCurve",
     "ChainModel",
     "load_design",
+    "design_from_bytes",
     "save_design",
 ]
 
@@ -1149,22 +1150,30 @@ def load_design(path) -> Design:
         raw = p.read_bytes()
     except OSError as err:
         raise InputFileError(f"cannot read: {err.strerror or err}", str(path)) from None
+    return design_from_bytes(raw, source=str(path), base_dir=p.parent)
+
+
+def design_from_bytes(raw: bytes, *, source: str, base_dir=".") -> Design:
+    """A design file's bytes (a file, an upload) read and validated as :func:`load_design` reads a file.
+
+    Relative file names resolve against ``base_dir``; messages name ``source``.
+    """
     try:
-        text = raw.decode("utf-8")
+        text = bytes(raw).decode("utf-8")
     except UnicodeDecodeError as err:
-        raise InputFileError(f"expected UTF-8 text (byte {err.start} is not)", str(path)) from None
+        raise InputFileError(f"expected UTF-8 text (byte {err.start} is not)", source) from None
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
         msg = str(err)
         m = _TOML_POS.search(msg)
         if m:
-            raise InputFileError(f"not valid TOML: {msg[:m.start()]}", str(path),
+            raise InputFileError(f"not valid TOML: {msg[:m.start()]}", source,
                                  int(m.group(1)), int(m.group(2))) from None
-        raise InputFileError(f"not valid TOML: {msg}", str(path)) from None
+        raise InputFileError(f"not valid TOML: {msg}", source) from None
     except RecursionError:
-        raise InputFileError("not valid TOML: nested too deeply", str(path)) from None
-    return design_from_dict(data, base_dir=p.parent, source=str(path))
+        raise InputFileError("not valid TOML: nested too deeply", source) from None
+    return design_from_dict(data, base_dir=Path(base_dir), source=source)
 
 
 # --------------------------------------------------------------------------

@@ -9,16 +9,16 @@ from pathlib import Path
 
 from .errors import InputFileError
 
-__all__ = ["write_text_atomically"]
+__all__ = ["write_atomically", "write_text_atomically", "write_bytes_atomically"]
 
 
-def write_text_atomically(target, text: str) -> None:
-    """Write ``text`` (UTF-8) to ``target`` through a temporary file in the same folder.
+def write_atomically(target, write) -> None:
+    """Call ``write(fh)`` on a binary temporary file in ``target``'s folder, then rename it over ``target``.
 
     The temporary file is flushed to disk, given the old file's permissions
-    and renamed over ``target`` with ``os.replace``; on any failure it is
-    removed and the previous ``target`` is left as it was. An OS error
-    becomes :class:`InputFileError` naming the file.
+    and renamed over ``target`` with ``os.replace``; on any failure
+    (including Ctrl-C) it is removed and the previous ``target`` is left as
+    it was. An OS error becomes :class:`InputFileError` naming the file.
     """
     target = Path(target)
     tmp = target.with_name(f".{target.name}.{uuid.uuid4().hex[:12]}.tmp")
@@ -27,8 +27,8 @@ def write_text_atomically(target, text: str) -> None:
     except OSError as err:
         raise InputFileError(f"cannot write: {err.strerror or err}", str(target)) from None
     try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
+        with os.fdopen(fd, "wb") as fh:
+            write(fh)
             fh.flush()
             os.fsync(fh.fileno())
         try:
@@ -44,3 +44,14 @@ def write_text_atomically(target, text: str) -> None:
         if isinstance(err, OSError):
             raise InputFileError(f"cannot write: {err.strerror or err}", str(target)) from None
         raise
+
+
+def write_text_atomically(target, text: str) -> None:
+    """Write ``text`` (UTF-8, newlines as given) to ``target`` atomically; see :func:`write_atomically`."""
+    data = text.encode("utf-8")
+    write_atomically(target, lambda fh: fh.write(data))
+
+
+def write_bytes_atomically(target, data: bytes) -> None:
+    """Write ``data`` to ``target`` atomically; see :func:`write_atomically`."""
+    write_atomically(target, lambda fh: fh.write(data))

@@ -38,16 +38,15 @@ import math
 import re
 import threading
 import time
-import tomllib
 from pathlib import Path
 
 import numpy as np
 import ipywidgets as W
 
 from . import demo_dir
-from .design import (CHANNELS, ELEMENT_TYPES, Design, FittedMatrix, design_from_dict, load_design,
+from .design import (CHANNELS, ELEMENT_TYPES, Design, FittedMatrix, load_design,
                      save_design)
-from .errors import InputFileError, WorkbenchError
+from .errors import WorkbenchError
 from .fitting import DesignEvaluator, FitResult, Measures, fit_design
 
 __all__ = [
@@ -180,31 +179,15 @@ def read_uploaded_spectra(upload: W.FileUpload, *, kind: str | None = None):
     return parse_spectra_text(content, source=name, kind=kind)
 
 
-_TOML_POS = re.compile(r"\s*\(at line (\d+), column (\d+)\)\s*$")
-
-
 def design_from_upload(name: str, content: bytes, base_dir) -> Design:
     """A design file's bytes (an upload) read and validated as :func:`load_design` reads a file.
 
     Relative file names in it resolve against ``base_dir``; messages name
     the file ``name``, as the command line names a path.
     """
-    try:
-        text = bytes(content).decode("utf-8")
-    except UnicodeDecodeError as err:
-        raise InputFileError(f"expected UTF-8 text (byte {err.start} is not)", name) from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        msg = str(err)
-        m = _TOML_POS.search(msg)
-        if m:
-            raise InputFileError(f"not valid TOML: {msg[:m.start()]}", name,
-                                 int(m.group(1)), int(m.group(2))) from None
-        raise InputFileError(f"not valid TOML: {msg}", name) from None
-    except RecursionError:
-        raise InputFileError("not valid TOML: nested too deeply", name) from None
-    return design_from_dict(data, base_dir=Path(base_dir), source=name)
+    from .design import design_from_bytes
+
+    return design_from_bytes(content, source=name, base_dir=base_dir)
 
 
 def figure_png(fig, *, dpi=None) -> bytes:

@@ -13,7 +13,6 @@ that camera. Not a photobiological safety assessment (IEC 62471).
 from __future__ import annotations
 
 import os
-import uuid
 from pathlib import Path
 
 from ..errors import InputFileError, WorkbenchError
@@ -79,23 +78,9 @@ def _load_camera(path: str, primaries: str):
 
 def _write_png(fig, path: Path) -> None:
     """Save a figure as PNG through a temporary file and a rename (atomic)."""
-    import io
+    from ..files import write_atomically
 
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=110)
-    tmp = path.with_name(f".{path.name}.{uuid.uuid4().hex[:12]}.tmp")
-    try:
-        with open(tmp, "wb") as fh:
-            fh.write(buf.getvalue())
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except OSError as err:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise InputFileError(f"cannot write: {err.strerror or err}", str(path)) from None
+    write_atomically(path, lambda fh: fig.savefig(fh, format="png", dpi=110))
 
 
 def write_figures(report, directory) -> list[Path]:

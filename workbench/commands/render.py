@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import math
 import os
-import uuid
 from pathlib import Path
 
 import numpy as np
@@ -101,16 +100,9 @@ def _illuminant(design_path: Path, camera, name: str):
 
 
 def _save_npy(path: Path, a: np.ndarray) -> None:
-    tmp = path.with_name(f".{path.stem}.{uuid.uuid4().hex[:12]}.npy")
-    try:
-        with open(tmp, "wb") as fh:
-            np.save(fh, a, allow_pickle=False)
-        os.replace(tmp, path)
-    except BaseException as err:
-        tmp.unlink(missing_ok=True)
-        if isinstance(err, OSError):
-            raise InputFileError(f"cannot write: {err.strerror or err}", str(path)) from None
-        raise
+    from ..files import write_atomically
+
+    write_atomically(path, lambda fh: np.save(fh, a, allow_pickle=False))
 
 
 def _scheduler(text: str):

@@ -6,31 +6,11 @@ Saving goes through a temporary file in the target's folder and
 
 from __future__ import annotations
 
-import os
-import uuid
-from pathlib import Path
-
 import numpy as np
 
-from ..errors import InputFileError
+from ..files import write_atomically
 
 __all__ = ["plot_delta_e_map", "save_rgb8_png", "save_figure"]
-
-
-def _atomic(target, write) -> None:
-    target = Path(target)
-    tmp = target.with_name(f".{target.stem}.{uuid.uuid4().hex[:12]}{target.suffix}")
-    try:
-        write(tmp)
-        os.replace(tmp, target)
-    except BaseException as err:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        if isinstance(err, OSError):
-            raise InputFileError(f"cannot write: {err.strerror or err}", str(target)) from None
-        raise
 
 
 def save_rgb8_png(rgb8, path, *, description: str = "") -> None:
@@ -48,12 +28,12 @@ def save_rgb8_png(rgb8, path, *, description: str = "") -> None:
     if description:
         info.add_text("Description", description)
     img = Image.fromarray(np.ascontiguousarray(a))  # (h, w, 3) uint8 is RGB
-    _atomic(path, lambda tmp: img.save(tmp, format="PNG", pnginfo=info))
+    write_atomically(path, lambda fh: img.save(fh, format="PNG", pnginfo=info))
 
 
 def save_figure(fig, path, *, dpi: int = 150) -> None:
     """Save a matplotlib figure as PNG, atomically."""
-    _atomic(path, lambda tmp: fig.savefig(tmp, format="png", dpi=dpi))
+    write_atomically(path, lambda fh: fig.savefig(fh, format="png", dpi=dpi))
 
 
 def plot_delta_e_map(delta_e, *, ax=None, vmax: float | None = None, title: str = ""):

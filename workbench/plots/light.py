@@ -34,7 +34,7 @@ _WL_LABEL = "wavelength λ (nm)"
 _SET_COLOURS = {"cie-13.3": "tab:orange", "cie-224": "tab:blue"}
 _SET_LABEL = {"cie-13.3": "CIE 13.3 TCS01-14", "cie-224": "CIE 224:2017 CES01-99"}
 #: Factors the u′v′ arrows may be lengthened by (the first that makes them visible).
-_ARROW_SCALES = (1, 2, 5, 10, 20, 50, 100, 200, 500, 1000)
+from .fit import _arrow_scale  # noqa: E402  (one rule for the arrows of every u′v′ shift plot)
 
 
 def _figure(width: float, height: float, fig=None):
@@ -234,16 +234,6 @@ def plot_camera_delta_e(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
                  "(white balance on the perfect diffuser, the camera's matrix; Tech 3355 scoring of ΔE00 "
                  "on open samples)", fontsize="medium")
     return fig
-
-
-def _arrow_scale(lengths: np.ndarray, extent: float) -> int:
-    med = float(np.median(lengths)) if lengths.size else 0.0
-    if med <= 0 or extent <= 0:
-        return 1
-    for k in _ARROW_SCALES:
-        if med * k >= 0.03 * extent:
-            return k
-    return _ARROW_SCALES[-1]
 
 
 def plot_camera_shifts(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
