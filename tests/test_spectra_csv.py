@@ -427,6 +427,18 @@ BAD_FILES = [
 class TestReadSpectraCsv:
     """read_spectra_csv: files, their errors and the bad-file corpus."""
 
+    def test_tab_delimited_long_table_in_um_percent(self, tmp_path):
+        """Long table, tabs, µm by range and percent by range at once: converted and each said."""
+        p = tmp_path / "long.tsv"
+        p.write_text("wavelength\tname\tvalue\n0.40\ta\t50\n0.50\ta\t60\n0.60\ta\t70\n"
+                     "0.40\tb\t10\n0.50\tb\t20\n0.60\tb\t30\n")
+        s = read_spectra_csv(p)
+        assert s.names == ("a", "b")
+        np.testing.assert_allclose(s.wavelengths, [400, 500, 600])
+        np.testing.assert_allclose(s.values, [[0.5, 0.6, 0.7], [0.1, 0.2, 0.3]])
+        notes = " ".join(s.notes)
+        assert "taken as µm" in notes and "percent" in notes
+
     def test_reads_file(self, tmp_path):
         """A file reads like its text, with the path as given in source and notes."""
         f = tmp_path / "leaf.csv"
