@@ -822,10 +822,6 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     values = dict(zip(ev.free, (float(v) for v in x[:nf])))
     values = {k: float(np.clip(v, ev.lower[i], ev.upper[i])) for i, (k, v) in enumerate(values.items())}
     fitted = design.with_values(values)
-    ev_after = DesignEvaluator.__new__(DesignEvaluator)
-    ev_after.__dict__.update(ev.__dict__)
-    ev_after.design = fitted
-    ev_after.model = fitted.model() if False else ev.model  # same curves; values passed explicitly
     if nm:
         m = x[nf:].reshape(-1, 3, 3)
         mats = np.broadcast_to(m, (len(ev.bench.illuminant_names), 3, 3))
