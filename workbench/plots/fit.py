@@ -223,6 +223,37 @@ def _arrow_scale(lengths: np.ndarray, extent: float) -> int:
     return ARROW_SCALES[-1]
 
 
+def draw_shift_arrows(fig, ax, start, delta, de, names, *, k, corner, side, label_worst=3,
+                      what="start → end", shrink=0.9) -> str:
+    """Arrows from ``start`` (K, 2) u′v′ by ``delta`` ×``k``, coloured by ``de`` (ΔE00), on a square view.
+
+    Draws the start points, the arrows with a ΔE00 colour bar, names the
+    ``label_worst`` largest without overlapping, sets the view
+    ``corner``..``corner + side`` and the u′v′ axis labels. Returns the
+    legend text (``what``, with the lengthening said when k > 1).
+    """
+    what = what + ("" if k == 1 else f", arrows lengthened ×{k}")
+    ax.plot(start[:, 0], start[:, 1], "o", ms=3, mfc="white", mec="0.2", mew=0.7, ls="none")
+    q = ax.quiver(start[:, 0], start[:, 1], delta[:, 0], delta[:, 1], de, angles="xy", scale_units="xy",
+                  scale=1.0 / k, cmap="viridis", width=0.003, headwidth=3.5, headlength=4.5)
+    cb = fig.colorbar(q, ax=ax, shrink=shrink)
+    cb.set_label(_DE_LABEL)
+    worst = sorted(np.argsort(-de)[:max(0, label_worst)], key=lambda i: start[i, 1])
+    placed: list = []
+    for i in worst:
+        near = sum(1 for p in placed if np.linalg.norm(p - start[i]) < 0.06 * side)
+        placed.append(start[i])
+        ax.annotate(names[i], start[i], xytext=(5, -10 + 10 * near), textcoords="offset points",
+                    fontsize=7, color="0.1",
+                    bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.75})
+    ax.set_xlim(corner[0], corner[0] + side)
+    ax.set_ylim(corner[1], corner[1] + side)
+    ax.set_aspect("equal", adjustable="box")
+    ax.set_xlabel(_AXIS["uv"][0])
+    ax.set_ylabel(_AXIS["uv"][1])
+    return what
+
+
 def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observer="2",
                              label_worst: int = 3, fig=None):
     """CIE 1976 u′v′: an arrow from each sample's true colour to the camera's, under one illuminant.
@@ -309,25 +340,8 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
     full.grid(alpha=0.3)
 
     zoom.plot(closed[:, 0], closed[:, 1], color="0.2", lw=1.1)
-    zoom.plot(t[:, 0], t[:, 1], "o", ms=3, mfc="white", mec="0.2", mew=0.7, ls="none")
-    what = "true → camera" + ("" if k == 1 else f", arrows lengthened ×{k}")
-    q = zoom.quiver(t[:, 0], t[:, 1], dv[:, 0], dv[:, 1], de, angles="xy", scale_units="xy",
-                    scale=1.0 / k, cmap="viridis", width=0.003, headwidth=3.5, headlength=4.5)
-    cb = fig.colorbar(q, ax=zoom, shrink=0.9)
-    cb.set_label(_DE_LABEL)
-    worst = sorted(np.argsort(-de)[:max(0, label_worst)], key=lambda i: t[i, 1])
-    placed: list = []
-    for i in worst:
-        near = sum(1 for p in placed if np.linalg.norm(p - t[i]) < 0.06 * side)
-        placed.append(t[i])
-        zoom.annotate(names[i], t[i], xytext=(5, -10 + 10 * near), textcoords="offset points",
-                      fontsize=7, color="0.1",
-                      bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.75})
-    zoom.set_xlim(corner[0], corner[0] + side)
-    zoom.set_ylim(corner[1], corner[1] + side)
-    zoom.set_aspect("equal", adjustable="box")
-    zoom.set_xlabel(_AXIS["uv"][0])
-    zoom.set_ylabel(_AXIS["uv"][1])
+    what = draw_shift_arrows(fig, zoom, t, dv, de, names, k=k, corner=corner, side=side,
+                             label_worst=label_worst, what="true → camera")
     handles = [
         Line2D([], [], marker="o", ms=4, mfc="white", mec="0.2", ls="none",
                label="true colour (adapted to the display white)"),

@@ -34,7 +34,7 @@ _WL_LABEL = "wavelength λ (nm)"
 _SET_COLOURS = {"cie-13.3": "tab:orange", "cie-224": "tab:blue"}
 _SET_LABEL = {"cie-13.3": "CIE 13.3 TCS01-14", "cie-224": "CIE 224:2017 CES01-99"}
 #: Factors the u′v′ arrows may be lengthened by (the first that makes them visible).
-from .fit import _arrow_scale  # noqa: E402  (one rule for the arrows of every u′v′ shift plot)
+from .fit import _arrow_scale, draw_shift_arrows  # noqa: E402  (one rule for every u′v′ shift plot)
 
 
 def _figure(width: float, height: float, fig=None):
@@ -285,24 +285,8 @@ def plot_camera_shifts(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
     full.grid(alpha=0.3)
     full.legend(fontsize="x-small", loc="upper center", bbox_to_anchor=(0.5, -0.12), ncol=2)
     full.set_title("CIE 1976 u′v′ of the camera's renderings", fontsize="small")
-    zoom.plot(r[:, 0], r[:, 1], "o", ms=3, mfc="white", mec="0.2", mew=0.7, ls="none")
-    what = "reference → test light" + ("" if k == 1 else f", arrows lengthened ×{k}")
-    q = zoom.quiver(r[:, 0], r[:, 1], dv[:, 0], dv[:, 1], de, angles="xy", scale_units="xy", scale=1.0 / k,
-                    cmap="viridis", width=0.003, headwidth=3.5, headlength=4.5)
-    cb = fig.colorbar(q, ax=zoom, shrink=0.85)
-    cb.set_label(_DE_LABEL)
-    worst = sorted(np.argsort(-de)[:max(0, label_worst)], key=lambda i: r[i, 1])
-    placed: list = []
-    for i in worst:
-        near = sum(1 for p in placed if np.linalg.norm(p - r[i]) < 0.06 * side)
-        placed.append(r[i])
-        zoom.annotate(names[i], r[i], xytext=(5, -10 + 10 * near), textcoords="offset points", fontsize=7,
-                      bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.75})
-    zoom.set_xlim(corner[0], corner[0] + side)
-    zoom.set_ylim(corner[1], corner[1] + side)
-    zoom.set_aspect("equal", adjustable="box")
-    zoom.set_xlabel(_AXIS["uv"][0])
-    zoom.set_ylabel(_AXIS["uv"][1])
+    what = draw_shift_arrows(fig, zoom, r, dv, de, names, k=k, corner=corner, side=side,
+                             label_worst=label_worst, what="reference → test light", shrink=0.85)
     zoom.grid(alpha=0.3)
     handles = [
         Line2D([], [], marker="o", ms=4, mfc="white", mec="0.2", ls="none", label="rendering under the reference"),
