@@ -362,6 +362,20 @@ class TestFit:
         assert r.after.matrix_method == "delta-e00"
         assert r.after.delta_E00["d65"]["mean"] < 0.01
 
+    def test_shared_evaluator_starts_from_the_given_state(self, tmp_path):
+        """An evaluator made for another state of the same file fits from the given design's values."""
+        d = load_design(_recovery_design(tmp_path))
+        ev = DesignEvaluator(d)
+        moved = d.with_values({"edge.center_nm": 560.0, "edge.width_nm": 60.0})
+        calls = []
+        r = fit_design(moved, progress=False, evaluator=ev, callback=calls.append)
+        ref = fit_design(moved, progress=False)
+        assert [p["start"] for p in r.parameters] == [560.0, 60.0]
+        assert r.before.vora_value == pytest.approx(ref.before.vora_value, abs=1e-14)
+        assert [p["value"] for p in r.parameters] == pytest.approx([p["value"] for p in ref.parameters], abs=1e-9)
+        # the callback sees the running count of evaluations, ending at the total
+        assert calls == sorted(calls) and calls[-1] == r.evaluations
+
     def test_no_free_parameters(self, tmp_path):
         """A design with nothing free is refused with a one-line error."""
         p = _recovery_design(tmp_path)

@@ -256,17 +256,17 @@ class TestDesignPanelFit:
 
     def test_stop_keeps_the_best_point(self, panel, monkeypatch):
         """Stop during a fit ends it as 'interrupted' with the best point so far."""
-        from workbench import widgets
+        from workbench.fitting import DesignEvaluator
 
         started = threading.Event()
-        real = widgets._CountingEvaluator.residuals
+        real = DesignEvaluator.residuals
 
         def slow(self, x):
             started.set()
             time.sleep(0.05)
             return real(self, x)
 
-        monkeypatch.setattr(widgets._CountingEvaluator, "residuals", slow)
+        monkeypatch.setattr(DesignEvaluator, "residuals", slow)
         panel.fit()
         assert started.wait(30)
         assert panel.fitting and panel.sliders[EDGE].disabled

@@ -33,6 +33,7 @@ matrix (the noise gain for independent channel noise).
 
 from __future__ import annotations
 
+import copy
 import json
 import math
 import threading
@@ -56,6 +57,7 @@ __all__ = [
     "Measures",
     "FitResult",
     "fit_design",
+    "fitted_matrix",
     "luther_residual",
     "sensitivity_metamerism_index",
     "noise_report",
@@ -381,6 +383,22 @@ class DesignEvaluator:
         self.start = np.array([p.value for p in free.values()], dtype=float)
         self.notes = tuple(dict.fromkeys(notes))
 
+    def with_design(self, design: Design) -> "DesignEvaluator":
+        """This evaluator for another state of the same design file (other parameter values).
+
+        Nothing is read again: the curves, samples and illuminants are
+        shared; the parameter values (free or not) are ``design``'s.
+        """
+        ev = copy.copy(self)
+        ev.model = copy.copy(self.model)
+        ev.model.design = design
+        ev.design = design
+        params = design.parameters()
+        if tuple(k for k, p in params.items() if p.free) != self.free:
+            raise WorkbenchError("the evaluator was made for a design with other free parameters")
+        ev.start = np.array([params[k].value for k in self.free], dtype=float)
+        return ev
+
     # -- the pipeline ------------------------------------------------------------
     def sensitivities(self, values=None) -> np.ndarray:
         """R, G, B sensitivities (..., 3, n) for parameter values (dict of arrays)."""
@@ -669,8 +687,9 @@ def _jsonable(v):
 class _Tracker:
     """Counts evaluations, keeps the best point, drives the progress bar, raises FitStopped."""
 
-    def __init__(self, evaluator, budget, progress, stop):
+    def __init__(self, evaluator, budget, progress, stop, callback=None):
         self.ev = evaluator
+        self.callback = callback
         self.best_x = None
         self.best_cost = math.inf
         self.n = 0
@@ -698,6 +717,8 @@ class _Tracker:
         if self.bar is not None:
             self.bar.update(k)
             self.bar.set_postfix(cost=f"{self.best_cost:.4g}", refresh=False)
+        if self.callback is not None:
+            self.callback(self.n)
         return r
 
     def close(self):
@@ -733,7 +754,8 @@ def _local(track: _Tracker, u0, lo, hi, nf, span, base):
 
 def fit_design(design: Design, *, progress: bool = True, stop: threading.Event | None = None,
                evaluator: DesignEvaluator | None = None, global_start: str | None = None,
-               seed: int | None = None, max_evaluations: int | None = None) -> FitResult:
+               seed: int | None = None, max_evaluations: int | None = None,
+               callback=None) -> FitResult:
     """Fit the design's free parameters (and a ΔE00 matrix when asked) to its objective.
 
     Parameters
@@ -745,6 +767,13 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     stop : threading.Event, optional
         Set it from another thread (a Stop button) to end the fit; Ctrl-C
         does the same. The best point so far is kept.
+    evaluator : DesignEvaluator, optional
+        One already made for this design file, in any parameter state, to
+        skip reading the files again; the fit starts from ``design``'s
+        values (see :meth:`DesignEvaluator.with_design`).
+    callback : callable, optional
+        Called with the running number of evaluations after each batch (a
+        notebook progress bar).
     global_start, seed, max_evaluations
         Override the design's ``[fit]`` values.
 
@@ -752,7 +781,10 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     -------
     FitResult
     """
-    ev = evaluator or DesignEvaluator(design)
+    if evaluator is None:
+        ev = DesignEvaluator(design)
+    else:
+        ev = evaluator if evaluator.design == design else evaluator.with_design(design)
     fit = design.fit
     gs = global_start or fit.global_start
     seed = fit.seed if seed is None else seed
@@ -761,11 +793,12 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     if nf == 0:
         raise WorkbenchError(f"{design.source or design.name}: no free parameters to fit "
                              "(set free = true with min and max on at least one)")
+    start = ev.start
     t0 = time.perf_counter()
     before = ev.measures()
     span = ev.upper - ev.lower
     base = ev.lower
-    u_start = (ev.start - base) / span
+    u_start = (start - base) / span
     nm = ev._n_matrix_params()
     if nm:
         m0 = before.matrices
@@ -774,8 +807,8 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
         m0 = np.zeros(0)
     lo = np.concatenate([np.zeros(nf), np.full(nm, -np.inf)])
     hi = np.concatenate([np.ones(nf), np.full(nm, np.inf)])
-    x_start = np.concatenate([ev.start, m0])
-    track = _Tracker(ev, budget, progress, stop)
+    x_start = np.concatenate([start, m0])
+    track = _Tracker(ev, budget, progress, stop, callback)
     r0 = ev.residuals(x_start)[0]
     cost_before = float(r0 @ r0)
     track.best_x, track.best_cost = x_start.copy(), cost_before
@@ -829,14 +862,14 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
         after = replace(after, matrix_method="delta-e00", methods={**after.methods, "matrix": f"delta-e00, {fit.matrix_scope}"})
     else:
         after = ev.measures(values)
-    stored = _fitted_matrix(after, fit.matrix_scope)
+    stored = fitted_matrix(after)
     fitted = replace(fitted, matrix=stored)
     span_tol = 1e-6
     rows = []
     for i, k in enumerate(ev.free):
         v = values[k]
         at = "min" if v - ev.lower[i] <= span_tol * span[i] else ("max" if ev.upper[i] - v <= span_tol * span[i] else None)
-        rows.append({"name": k, "start": float(ev.start[i]), "value": v, "min": float(ev.lower[i]),
+        rows.append({"name": k, "start": float(start[i]), "value": v, "min": float(ev.lower[i]),
                      "max": float(ev.upper[i]), "at_bound": at})
     return FitResult(
         design=fitted, start_design=design, parameters=tuple(rows), before=before, after=after,
@@ -846,11 +879,12 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     )
 
 
-def _fitted_matrix(m: Measures, scope: str) -> FittedMatrix:
+def fitted_matrix(m: Measures) -> FittedMatrix:
+    """The matrix the measures used, as the ``[matrix]`` to store with a design."""
     method = m.matrix_method.replace(" (stored)", "")
     if method == "fixed":
         method = "least-squares"
-    if scope == "shared":
+    if m.matrix_scope == "shared":
         return FittedMatrix(method, "shared", tuple(tuple(float(v) for v in r) for r in m.matrices[0]))
     return FittedMatrix(method, "per-illuminant", tuple(
         (ill, tuple(tuple(float(v) for v in r) for r in m.matrices[j])) for j, ill in enumerate(m.illuminants)))

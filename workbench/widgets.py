@@ -44,10 +44,10 @@ import numpy as np
 import ipywidgets as W
 
 from . import demo_dir
-from .design import (CHANNELS, ELEMENT_TYPES, Design, FittedMatrix, load_design,
+from .design import (CHANNELS, ELEMENT_TYPES, Design, load_design,
                      save_design)
 from .errors import WorkbenchError
-from .fitting import DesignEvaluator, FitResult, Measures, fit_design
+from .fitting import DesignEvaluator, FitResult, Measures, fit_design, fitted_matrix
 
 __all__ = [
     "ErrorLine",
@@ -546,32 +546,6 @@ def _slider_specs(design: Design) -> list[dict]:
     return specs
 
 
-def _fitted_matrix_of(m: Measures) -> FittedMatrix:
-    """The matrix the measures used, to store with a saved design."""
-    method = m.matrix_method.replace(" (stored)", "")
-    if method == "fixed":
-        method = "least-squares"
-    if m.matrix_scope == "shared":
-        return FittedMatrix(method, "shared", tuple(tuple(float(v) for v in r) for r in m.matrices[0]))
-    return FittedMatrix(method, "per-illuminant", tuple(
-        (ill, tuple(tuple(float(v) for v in r) for r in m.matrices[j])) for j, ill in enumerate(m.illuminants)))
-
-
-class _CountingEvaluator(DesignEvaluator):
-    """A DesignEvaluator that reports the running count of evaluations (for the progress bar)."""
-
-    def __init__(self, design, report):
-        super().__init__(design)
-        self._report = report
-        self.count = 0
-
-    def residuals(self, x):
-        r = super().residuals(x)
-        self.count += r.shape[0]
-        self._report(self.count)
-        return r
-
-
 class DesignPanel(W.VBox):
     """The camera-design panel: live controls on a design file, the fit, saving and export.
 
@@ -921,8 +895,8 @@ class DesignPanel(W.VBox):
     def _run_fit(self, start: Design) -> None:
         try:
             with guard(self.error) as g:
-                ev = _CountingEvaluator(start, self._progress)
-                res = fit_design(start, progress=False, stop=self._stop, evaluator=ev)
+                res = fit_design(start, progress=False, stop=self._stop, evaluator=self.evaluator,
+                                 callback=self._progress)
             if g.failed:
                 self.fit_status.value = ('<span style="font-size:12px;color:#b00020">fit failed '
                                          '(see the error line)</span>')
@@ -963,7 +937,7 @@ class DesignPanel(W.VBox):
 
         values = self.values()
         d = self.design.with_values(values)
-        return replace(d, matrix=_fitted_matrix_of(self.evaluator.measures(values)))
+        return replace(d, matrix=fitted_matrix(self.evaluator.measures(values)))
 
     def save(self, path=None) -> bool:
         """Write the design with the current values (atomically) to ``path`` or the save box."""
