@@ -39,16 +39,25 @@ import math
 import threading
 import time
 from dataclasses import dataclass, field, replace
+from pathlib import Path
 
 import numpy as np
 
-from .camera import ColourBench, Camera, least_squares_matrix
+from .camera import Camera, ColourBench, bradford_matrix, least_squares_matrix
 from .cie import cmfs_on, illuminant_on, observer_label
-from .colorimetry import XYZ_to_Lab, XYZ_to_uv_prime
+from .colorimetry import Lab_to_XYZ, XYZ_to_Lab, XYZ_to_uv_prime
 from .design import CHANNELS, Design, FittedMatrix, load_design
 from .errors import WorkbenchError
 from .measures import neugebauer_q, orthonormal_basis, vora_value
-from .primaries import Primaries, primaries_from_emitters, primaries_from_xy, primaries_named
+from .primaries import (
+    Primaries,
+    primaries_from_emitters,
+    primaries_from_xy,
+    primaries_named,
+)
+from .samples import ces_cie_224, tcs_cie_13_3
+from .spectra import Spectra, grid, is_uniform
+from .spectra_csv import read_spectra_csv
 from .targets import primaries_XYZ, target_cmfs
 
 __all__ = [
@@ -200,8 +209,6 @@ def design_primaries(design: Design) -> Primaries:
     if t.kind == "chromaticities":
         return primaries_from_xy([t.red, t.green, t.blue], t.white or "D65", name="design target",
                                  observer=design.observer)
-    from .spectra_csv import read_spectra_csv
-
     s = read_spectra_csv(design.resolve(t.file), kind="emission")
     if t.columns is not None:
         s = s.select(list(t.columns))
@@ -345,16 +352,13 @@ class DesignEvaluator:
                 snames.extend(sp.names)
                 notes.extend(sp.notes)
         else:
-            from .samples import ces_cie_224
-
+        
             sp = ces_cie_224(wl)
             blocks.append(sp.flat())
             w.extend([1.0] * len(sp))
             sets.extend(["cie-224"] * len(sp))
             snames.extend(sp.names)
             notes.append("no [[samples]] in the design: the 99 CIE 224:2017 samples used")
-        from .spectra import Spectra
-
         R = np.concatenate(blocks)
         samples = Spectra(wl, R, tuple(snames), kind="reflectance")
         self.bench = ColourBench(wl, samples, ills, self.primaries, design.observer,
@@ -367,8 +371,6 @@ class DesignEvaluator:
         A_t = self.view[:, None] * self.targets.T
         self._A_t = A_t / np.linalg.norm(A_t)
         # the SMI set: CIE 13.3 TCS01-08 under D65 (parameters of the index)
-        from .samples import tcs_cie_13_3
-
         tcs = tcs_cie_13_3(wl, extrapolation="constant")
         self._smi_samples = tcs.flat()[:8]
         self._smi_illuminant = np.asarray(illuminant_on(wl, "D65")[1].values)
@@ -457,15 +459,11 @@ class DesignEvaluator:
         b = self.bench
         E = b.E[j]
         XYZw = E @ self.cmfs
-        from .camera import bradford_matrix
-
         A = bradford_matrix(XYZw / XYZw[1], b.display_white)
         targets_j = b.N_inv @ A @ (self.cmfs.T / XYZw[1])       # per unit light, (3, n)
         # per unit light: Σ curves·E = M·(1,1,1), as Σ targets·E = (1,1,1)
         curves = res.matrices[j] @ (res.gains[j][:, None] * S) * b.step  # (3, n)
         display_white = 100 * b.display_white
-        from .colorimetry import Lab_to_XYZ
-
         cam_uv = XYZ_to_uv_prime(Lab_to_XYZ(res.camera_Lab, display_white))
         true_uv = XYZ_to_uv_prime(Lab_to_XYZ(res.true_Lab, display_white))
         methods = {
@@ -914,15 +912,9 @@ def load_camera(path, *, primaries: Primaries | str = "ITU-R BT.709", observer="
     perfect diffuser first), on the file's own uniform grid (or resampled
     to 5 nm when irregular, said in the notes).
     """
-    from pathlib import Path
-
     p = Path(path)
     if p.suffix.lower() == ".toml":
         return camera_from_design(load_design(p))
-    from .samples import ces_cie_224
-    from .spectra import grid, is_uniform
-    from .spectra_csv import read_spectra_csv
-
     s = read_spectra_csv(p, kind="sensitivity")
     if len(s) != 3:
         raise WorkbenchError(f"{p}: expected three sensitivity columns R, G, B (got {len(s)}: "
