@@ -244,6 +244,7 @@ class ColourBench:
         self.white_Lab_ref = 100 * self.display_white
         self.true_Lab = XYZ_to_Lab(100 * XYZ_adapted, self.white_Lab_ref)
         self._flat_stimuli = self.stimuli.reshape(-1, wl.size)  # (J*K, n)
+        self._weights_all = np.tile(self.weights, len(self.illuminant_names))  # (J*K,), shared matrix
         self.notes = (
             f"{len(names)} samples × {len(self.illuminant_names)} illuminants "
             f"({', '.join(self.illuminant_names)}), {observer_label(self.observer)}",
@@ -285,7 +286,7 @@ class ColourBench:
         if scope == "shared":
             Cs = C.reshape(C.shape[:-3] + (J * K, 3))
             Ts = np.broadcast_to(T.reshape(J * K, 3), Cs.shape)
-            M = lin(Cs, Ts, np.tile(self.weights, J))
+            M = lin(Cs, Ts, self._weights_all)
             M = np.broadcast_to(M[..., None, :, :], C.shape[:-3] + (J, 3, 3)).copy()
         else:
             M = lin(C, np.broadcast_to(T, C.shape), self.weights)
