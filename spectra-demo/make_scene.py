@@ -59,8 +59,8 @@ def wavelengths() -> np.ndarray:
 
 def open_samples(wl):
     """(TCS01-14 (14, 81), CES01-99 (99, 81), studio (6, 81)) reflectances on the grid."""
-    from workbench.samples import ces_cie_224, tcs_cie_13_3
-    from workbench.spectra_csv import read_spectra_csv
+    from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
+    from workbench.fileio.spectra_csv import read_spectra_csv
 
     tcs = tcs_cie_13_3(wl).values
     ces = ces_cie_224(wl).values
@@ -126,7 +126,7 @@ def small_scene() -> np.ndarray:
 
 
 def write_small() -> None:
-    from workbench.files import write_text_atomically
+    from workbench.fileio.atomic import write_text_atomically
 
     img = small_scene()
     target = HERE / "scene_small.npy"

@@ -1,7 +1,7 @@
 """The notebooks in a real browser: JupyterLab on loopback with a token, Debian's chromium via Playwright.
 
 The server is started with the same command line ``workbench lab`` uses
-(:func:`workbench.commands.lab.lab_command`: 127.0.0.1, token auth on) in a
+(:func:`workbench.cli.commands.lab.lab_command`: 127.0.0.1, token auth on) in a
 temporary root holding copies of the notebooks, with its own Jupyter
 config, data, runtime and settings folders. Each test opens its notebook,
 runs all cells, works the panel as a user would and checks what the page
@@ -29,7 +29,7 @@ from pathlib import Path
 import pytest
 
 from workbench import demo_dir
-from workbench.commands.lab import lab_command
+from workbench.cli.commands.lab import lab_command
 
 pytestmark = pytest.mark.browser
 
@@ -247,8 +247,8 @@ def test_design_notebook(page, lab):
 
 
 def _design_notebook(page, lab):
-    from workbench.design import load_design
-    from workbench.fitting import DesignEvaluator
+    from workbench.model.design import load_design
+    from workbench.analysis.fitting import DesignEvaluator
 
     open_and_run(page, lab, "02-camera-design.ipynb")
     img = page.locator(".wb-design-plot img").first

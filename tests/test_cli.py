@@ -12,10 +12,10 @@ import colour
 import numpy as np
 import pytest
 
-from workbench.cli import main
-from workbench.commands.lab import lab_command
-from workbench.spectra import Spectra, grid
-from workbench.spectra_csv import write_spectra_csv
+from workbench.cli.main import main
+from workbench.cli.commands.lab import lab_command
+from workbench.model.spectra import Spectra, grid
+from workbench.fileio.spectra_csv import write_spectra_csv
 
 
 @pytest.fixture
@@ -110,7 +110,7 @@ class TestTristimulusCommand:
     def test_measured_illuminant_file(self, samples, tmp_path, capsys):
         """An SPD file as illuminant gives the same numbers as the same SPD by name."""
         path, wl, _ = samples
-        from workbench.cie import illuminant_on
+        from workbench.colorimetry.cie import illuminant_on
 
         spd = tmp_path / "d65.csv"
         write_spectra_csv(Spectra(wl, illuminant_on(wl, "D65")[1].values, names=("d65",),

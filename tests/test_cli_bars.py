@@ -2,7 +2,7 @@
 
 import json
 
-from workbench.cli import main
+from workbench.cli.main import main
 
 
 class TestBarsCommand:

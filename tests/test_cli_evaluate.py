@@ -1,4 +1,4 @@
-"""Tests of ``workbench evaluate`` through workbench.cli.main."""
+"""Tests of ``workbench evaluate`` through workbench.cli.main.main."""
 
 from __future__ import annotations
 
@@ -7,11 +7,11 @@ from pathlib import Path
 
 import numpy as np
 
-from workbench.cie import cmfs_on
-from workbench.cli import main
-from workbench.design import load_design
-from workbench.measures import vora_value
-from workbench.spectra_csv import read_spectra_csv
+from workbench.colorimetry.cie import cmfs_on
+from workbench.cli.main import main
+from workbench.model.design import load_design
+from workbench.analysis.measures import vora_value
+from workbench.fileio.spectra_csv import read_spectra_csv
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"
 
@@ -41,7 +41,7 @@ def test_json_contract(capsys):
 
 def test_half_max_of_a_known_curve():
     """The 50 % points of a triangle 500-600 nm peaking at 550 are 525 and 575 nm."""
-    from workbench.commands.evaluate import curve_summary
+    from workbench.cli.commands.evaluate import curve_summary
 
     wl = np.arange(480.0, 621.0, 10.0)
     s = np.clip(1 - np.abs(wl - 550.0) / 50.0, 0, None)

@@ -9,10 +9,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from workbench.cli import main
-from workbench.design import load_design
-from workbench.fitting import DesignEvaluator
-from workbench.spectra_csv import read_spectra_csv
+from workbench.cli.main import main
+from workbench.model.design import load_design
+from workbench.analysis.fitting import DesignEvaluator
+from workbench.fileio.spectra_csv import read_spectra_csv
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"
 

@@ -1,4 +1,4 @@
-"""Tests of ``workbench light`` through workbench.cli.main."""
+"""Tests of ``workbench light`` through workbench.cli.main.main."""
 
 from __future__ import annotations
 
@@ -8,10 +8,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from workbench.cli import main
-from workbench.light import CAUTION, light_indices, read_light
-from workbench.spectra import Spectra, grid
-from workbench.spectra_csv import write_spectra_csv
+from workbench.cli.main import main
+from workbench.analysis.light import CAUTION, light_indices, read_light
+from workbench.model.spectra import Spectra, grid
+from workbench.fileio.spectra_csv import write_spectra_csv
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra-demo"
 LED = str(DEMO / "luminaire_led_export.csv")

@@ -6,12 +6,12 @@ import colour
 import numpy as np
 import pytest
 
-from workbench.cli import main
-from workbench.emitters import Band, Emitter, emitter_spectra
-from workbench.primaries import PRIMARIES
-from workbench.spectra import Spectra, grid
-from workbench.spectra_csv import read_spectra_csv, write_spectra_csv
-from workbench.targets import target_cmfs
+from workbench.cli.main import main
+from workbench.colorimetry.emitters import Band, Emitter, emitter_spectra
+from workbench.colorimetry.primaries import PRIMARIES
+from workbench.model.spectra import Spectra, grid
+from workbench.fileio.spectra_csv import read_spectra_csv, write_spectra_csv
+from workbench.colorimetry.targets import target_cmfs
 
 
 def _json(capsys, argv):

@@ -1,4 +1,4 @@
-"""Tests of ``workbench render`` through workbench.cli.main."""
+"""Tests of ``workbench render`` through workbench.cli.main.main."""
 
 from __future__ import annotations
 
@@ -8,11 +8,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from workbench.cie import illuminant_on
-from workbench.cli import main
-from workbench.scale import BatchPipeline, open_cube, render_in_memory, sidecar_path, write_sidecar
-from workbench.spectra import Spectra, grid
-from workbench.spectra_csv import write_spectra_csv
+from workbench.colorimetry.cie import illuminant_on
+from workbench.cli.main import main
+from workbench.analysis.render import BatchPipeline, open_cube, render_in_memory, sidecar_path, write_sidecar
+from workbench.model.spectra import Spectra, grid
+from workbench.fileio.spectra_csv import write_spectra_csv
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra-demo"
 DESIGN = DEMO / "tern3_design.toml"
@@ -40,8 +40,8 @@ def gaussian_csv(tmp_path_factory):
 @pytest.fixture(scope="module")
 def demo_expected():
     """The demo scene under the design's stage LED, through the public functions in memory."""
-    from workbench.design import load_design
-    from workbench.fitting import load_camera
+    from workbench.model.design import load_design
+    from workbench.analysis.fitting import load_camera
 
     camera = load_camera(DESIGN)
     E = load_design(DESIGN).illuminant_values("stage-led")[1]
@@ -63,7 +63,7 @@ def _cube(tmp_path, a, name="c", sidecar=True):
 
 
 def _mixtures(shape, seed=0):
-    from workbench.samples import ces_cie_224
+    from workbench.colorimetry.samples import ces_cie_224
 
     rng = np.random.default_rng(seed)
     pool = ces_cie_224(WL).values
@@ -109,7 +109,7 @@ class TestRenderCommand:
         assert s["wavelengths_from"] == "--wavelengths 380:780:5"
         assert s["chunking"]["rule"] == "--chunk-mb"
         assert s["chunking"]["rows_per_chunk"] == 4 and s["chunking"]["chunks"] == 6
-        from workbench.fitting import load_camera
+        from workbench.analysis.fitting import load_camera
 
         cam = load_camera(gaussian_csv)
         ref = render_in_memory(BatchPipeline(cam, np.asarray(illuminant_on(WL, "A")[1].values), illuminant_name="A"), a)
@@ -161,7 +161,7 @@ class TestRenderCommand:
 
     def test_interrupt_exits_130_and_writes_nothing(self, tmp_path, capsys, gaussian_csv, monkeypatch):
         """Ctrl-C during the render ends with status 130 and leaves no output files."""
-        import workbench.scale as scale
+        import workbench.analysis.render as scale
 
         def interrupted(pipeline, block, images):
             raise KeyboardInterrupt

@@ -1,4 +1,4 @@
-"""Tests of ``workbench tolerance`` through workbench.cli.main."""
+"""Tests of ``workbench tolerance`` through workbench.cli.main.main."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from workbench.cli import main
+from workbench.cli.main import main
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"
 SMALL = """\
@@ -138,7 +138,7 @@ def test_bad_design_exits_2(tmp_path, capsys):
 
 def test_interrupted_run_reports_and_exits_1(small, capsys, monkeypatch):
     """Ctrl-C after the first chunk: the finished trials are printed, the output says so, status 1."""
-    from workbench import tolerance as T
+    from workbench.analysis import tolerance as T
 
     real = T._evaluate
     calls = {"n": 0}

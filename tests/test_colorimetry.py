@@ -6,7 +6,7 @@ import colour
 import numpy as np
 import pytest
 
-from workbench.colorimetry import (
+from workbench.colorimetry.coordinates import (
     Lab_to_LCh,
     Lab_to_XYZ,
     XYZ_to_Lab,

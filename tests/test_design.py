@@ -1,4 +1,4 @@
-"""Tests of workbench.design: the design file, its validation, saving and the chain model."""
+"""Tests of workbench.model.design: the design file, its validation, saving and the chain model."""
 
 from __future__ import annotations
 
@@ -11,9 +11,9 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from workbench.design import CHANNELS, DesignError, load_design, save_design
+from workbench.model.design import CHANNELS, DesignError, load_design, save_design
 from workbench.errors import InputFileError, WorkbenchError
-from workbench.spectra_csv import read_spectra_csv
+from workbench.fileio.spectra_csv import read_spectra_csv
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "spectra-demo" / "tern3_design.toml"

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from workbench.colorimetry import XYZ_to_xy
-from workbench.emitters import (
+from workbench.colorimetry.coordinates import XYZ_to_xy
+from workbench.colorimetry.emitters import (
     Band,
     Emitter,
     EmitterFit,
@@ -17,9 +17,9 @@ from workbench.emitters import (
     fit_emitter_set,
 )
 from workbench.errors import WorkbenchError
-from workbench.primaries import PRIMARIES, Primaries
-from workbench.spectra import Spectra, grid
-from workbench.tristimulus import emission_weights
+from workbench.colorimetry.primaries import PRIMARIES, Primaries
+from workbench.model.spectra import Spectra, grid
+from workbench.colorimetry.tristimulus import emission_weights
 
 WL = grid(380, 780, 1)
 

@@ -10,17 +10,17 @@ import numpy as np
 import pytest
 
 from colour_reference import evaluate_with_colour, gaussian_camera
-from workbench.camera import (ColourBench, bradford_matrix, least_squares_matrix,
+from workbench.analysis.camera import (ColourBench, bradford_matrix, least_squares_matrix,
                               white_preserving_matrix)
-from workbench.cie import cmfs_on, illuminant_on
-from workbench.design import load_design
+from workbench.colorimetry.cie import cmfs_on, illuminant_on
+from workbench.model.design import load_design
 from workbench.errors import WorkbenchError
-from workbench.fitting import (DesignEvaluator, fit_design, load_camera, luther_residual,
+from workbench.analysis.fitting import (DesignEvaluator, fit_design, load_camera, luther_residual,
                                noise_report, sensitivity_metamerism_index)
-from workbench.measures import neugebauer_q, vora_value
-from workbench.primaries import primaries_named
-from workbench.samples import ces_cie_224, tcs_cie_13_3
-from workbench.spectra import grid
+from workbench.analysis.measures import neugebauer_q, vora_value
+from workbench.colorimetry.primaries import primaries_named
+from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
+from workbench.model.spectra import grid
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"
 BT709 = primaries_named("ITU-R BT.709")
@@ -233,7 +233,7 @@ class TestLutherCamera:
 class TestNoise:
     def test_identity_matrix_shot_noise(self):
         """With M = I, no read noise and equal channels, σ_out = √(grey·e_w)/e_w per channel."""
-        from workbench.design import NoiseModel
+        from workbench.model.design import NoiseModel
 
         nm = NoiseModel(full_well_e=10000, read_noise_e=0, exposure=1.0, grey=0.25)
         r = noise_report(np.eye(3), np.ones(3), nm)
@@ -244,7 +244,7 @@ class TestNoise:
 
     def test_matrix_propagation(self):
         """σ_out² = Σ_j M_ij² σ_j² for independent channel noise (Σ_out = M Σ Mᵀ)."""
-        from workbench.design import NoiseModel
+        from workbench.model.design import NoiseModel
 
         nm = NoiseModel(full_well_e=20000, read_noise_e=10, exposure=0.5, grey=0.18)
         M = np.array([[1.6, -0.5, -0.1], [-0.2, 1.3, -0.1], [0.0, -0.2, 1.2]])
@@ -262,7 +262,7 @@ class TestNoise:
 
 def _recovery_design(tmp_path, c0=530.0, w0=40.0):
     """A design that is a Luther camera exactly when its long-pass edge sits at (c0, w0)."""
-    from workbench import optics
+    from workbench.optics import elements as optics
 
     wl = grid(380, 780, 5)
     X = cmfs_on(wl).values

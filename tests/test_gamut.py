@@ -7,7 +7,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from workbench.errors import WorkbenchError
-from workbench.gamut import (
+from workbench.colorimetry.gamut import (
     clip_polygon_sutherland_hodgman,
     coverage_of_named_sets,
     gamut_area,
@@ -15,7 +15,7 @@ from workbench.gamut import (
     gamut_vertices,
     polygon_area,
 )
-from workbench.primaries import PRIMARIES
+from workbench.colorimetry.primaries import PRIMARIES
 
 
 def _inside_fraction(tri_a, tri_b, n=400):

@@ -1,4 +1,4 @@
-"""Tests of workbench.light: published indices, the camera fidelity index, two fixtures compared."""
+"""Tests of workbench.analysis.light: published indices, the camera fidelity index, two fixtures compared."""
 
 from __future__ import annotations
 
@@ -9,11 +9,11 @@ import colour
 import numpy as np
 import pytest
 
-from workbench.camera import Camera, ColourBench
-from workbench.cie import cmfs_on, illuminant_on
-from workbench.commands._output import to_json
+from workbench.analysis.camera import Camera, ColourBench
+from workbench.colorimetry.cie import cmfs_on, illuminant_on
+from workbench.cli.commands._output import to_json
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
-from workbench.light import (
+from workbench.analysis.light import (
     CAUTION,
     _verdict,
     absolute_scale,
@@ -29,9 +29,9 @@ from workbench.light import (
     reference_illuminant,
     working_spd,
 )
-from workbench.primaries import primaries_from_xy, primaries_named
-from workbench.samples import ces_cie_224, tcs_cie_13_3
-from workbench.spectra import Spectra, grid
+from workbench.colorimetry.primaries import primaries_from_xy, primaries_named
+from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
+from workbench.model.spectra import Spectra, grid
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra-demo"
 LED = DEMO / "luminaire_led_export.csv"
@@ -67,7 +67,7 @@ def luther_camera(wl=WL5, primaries=BT709) -> Camera:
 
 @pytest.fixture(scope="module")
 def design_camera():
-    from workbench.fitting import load_camera
+    from workbench.analysis.fitting import load_camera
 
     return load_camera(DEMO / "tern3_design.toml")
 
@@ -509,8 +509,8 @@ class TestLightReport:
 class TestLightPanel:
     def test_opens_on_demo_data(self):
         """The panel evaluates the demo LED on a camera with the halogen as light B and shows every figure."""
-        from workbench.widgets import output_png
-        from workbench.widgets_light import LightPanel
+        from workbench.widgets.design import output_png
+        from workbench.widgets.light import LightPanel
 
         p = LightPanel(camera=gaussian_camera())
         assert p.status.text.startswith("evaluated luminaire_led_export on gaussian") and not p.status.is_error
@@ -521,7 +521,7 @@ class TestLightPanel:
 
     def test_errors_are_one_line(self, tmp_path):
         """A bad path or file shows the CLI's one-line error; the last good report stays."""
-        from workbench.widgets_light import LightPanel
+        from workbench.widgets.light import LightPanel
 
         p = LightPanel(compare="", camera="", evaluate=False)
         p.light_path.value = str(tmp_path / "missing.csv")
@@ -533,8 +533,8 @@ class TestLightPanel:
 
     def test_upload(self):
         """An uploaded SPD is evaluated at once and named by its file name."""
-        from workbench.widgets import upload_entry
-        from workbench.widgets_light import LightPanel
+        from workbench.widgets.design import upload_entry
+        from workbench.widgets.light import LightPanel
 
         p = LightPanel(compare="", camera="", evaluate=False)
         p.light_upload.value = (upload_entry("fixture.csv", LED.read_bytes()),)

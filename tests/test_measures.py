@@ -1,4 +1,4 @@
-"""Tests of workbench.measures against methods.md § 1 (the synthetic "Gaussian camera")."""
+"""Tests of workbench.analysis.measures against methods.md § 1 (the synthetic "Gaussian camera")."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import pytest
 from scipy.linalg import subspace_angles
 
 from workbench.errors import WorkbenchError
-from workbench.measures import neugebauer_q, vora_value
+from workbench.analysis.measures import neugebauer_q, vora_value
 
 WL = np.arange(400.0, 701.0, 10.0)
 

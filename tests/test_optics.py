@@ -1,11 +1,11 @@
-"""Tests of workbench.optics: angle shift, absorbing glass, edges, the dichroic splitter."""
+"""Tests of workbench.optics.elements: angle shift, absorbing glass, edges, the dichroic splitter."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from workbench import optics
+from workbench.optics import elements as optics
 from workbench.errors import WorkbenchError
 
 WL = np.arange(380.0, 781.0, 1.0)

@@ -4,10 +4,10 @@ import colour
 import numpy as np
 import pytest
 
-from workbench.colorimetry import XYZ_to_xy, xy_to_XYZ
-from workbench.emitters import Band, Emitter, emitter_spectra
+from workbench.colorimetry.coordinates import XYZ_to_xy, xy_to_XYZ
+from workbench.colorimetry.emitters import Band, Emitter, emitter_spectra
 from workbench.errors import WorkbenchError
-from workbench.primaries import (
+from workbench.colorimetry.primaries import (
     PRIMARIES,
     drive_levels_for_white,
     luminance_coefficients,
@@ -18,7 +18,7 @@ from workbench.primaries import (
     primaries_named,
     white_chromaticity,
 )
-from workbench.spectra import Spectra, grid
+from workbench.model.spectra import Spectra, grid
 
 # colour-science's entry for each named set (the reference library).
 

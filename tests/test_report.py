@@ -1,4 +1,4 @@
-"""Tests of workbench.report and workbench.plots.fit: the fit report and its four figures.
+"""Tests of workbench.report.fit_report and workbench.plots.fit: the fit report and its four figures.
 
 One small design (a two-edge splitter and a short-pass edge on a 10 nm
 grid, CIE 13.3 and CIE 224 samples under D65 and A) is fitted once per
@@ -19,12 +19,12 @@ import numpy as np
 import pytest
 from scipy.linalg import subspace_angles
 
-from workbench.design import load_design
+from workbench.model.design import load_design
 from workbench.errors import InputFileError, WorkbenchError
-from workbench.fitting import DesignEvaluator, fit_design
+from workbench.analysis.fitting import DesignEvaluator, fit_design
 from workbench.plots.fit import (ARROW_SCALES, plot_chromaticity_shifts, plot_delta_e_bars,
                                  plot_noise_vs_accuracy, plot_sensitivities_vs_targets)
-from workbench.report import fit_report_figures, fit_report_html, noise_accuracy_points, write_fit_report
+from workbench.report.fit_report import fit_report_figures, fit_report_html, noise_accuracy_points, write_fit_report
 
 SMALL_DESIGN = """\
 schema = 1

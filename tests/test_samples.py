@@ -1,4 +1,4 @@
-"""Tests of workbench.samples: the CIE sample sets and user CSV on a grid."""
+"""Tests of workbench.colorimetry.samples: the CIE sample sets and user CSV on a grid."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import pytest
 from colour.quality.cfi2017 import load_TCS_CIE2017
 
 from workbench.errors import RangeCoverageError, WorkbenchError
-from workbench.samples import ces_cie_224, open_sample_set, tcs_cie_13_3
+from workbench.colorimetry.samples import ces_cie_224, open_sample_set, tcs_cie_13_3
 
 
 class TestTCS:

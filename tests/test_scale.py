@@ -1,4 +1,4 @@
-"""Tests of workbench.scale: the batch pipeline in memory and out of core on Dask."""
+"""Tests of workbench.analysis.render: the batch pipeline in memory and out of core on Dask."""
 
 from __future__ import annotations
 
@@ -10,12 +10,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from workbench.camera import Camera, ColourBench, least_squares_matrix, white_preserving_matrix
-from workbench.cie import cmfs_on, illuminant_on
+from workbench.analysis.camera import Camera, ColourBench, least_squares_matrix, white_preserving_matrix
+from workbench.colorimetry.cie import cmfs_on, illuminant_on
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
-from workbench.primaries import primaries_named
-from workbench.samples import ces_cie_224, tcs_cie_13_3
-from workbench.scale import (
+from workbench.colorimetry.primaries import primaries_named
+from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
+from workbench.analysis.render import (
     MAX_AUTO_CHUNK,
     MIN_AUTO_CHUNK,
     SUB_BLOCK,
@@ -33,7 +33,7 @@ from workbench.scale import (
     to_srgb8,
     write_sidecar,
 )
-from workbench.spectra import Spectra, grid
+from workbench.model.spectra import Spectra, grid
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra-demo"
 WL = grid(380, 780, 5)
@@ -351,7 +351,7 @@ class TestRenderDask:
 
     def test_interrupt_propagates(self, tmp_path, gaussian_camera, image, monkeypatch):
         """Ctrl-C inside a chunk stops the render with KeyboardInterrupt (nothing returned)."""
-        import workbench.scale as scale
+        import workbench.analysis.render as scale
 
         calls = []
 
@@ -490,7 +490,7 @@ class TestCubeFiles:
         """Chunks read from .npy are memory-mapped views of the asked rows; the reader pickles as its path."""
         import pickle
 
-        from workbench.scale import _NpyChunks
+        from workbench.analysis.render import _NpyChunks
 
         a = np.arange(2 * 3 * 81, dtype=float).reshape(2, 3, 81)
         np.save(tmp_path / "c.npy", a)

@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 
 from workbench.errors import WorkbenchError
-from workbench.primaries import PRIMARIES
-from workbench.signals import (
+from workbench.colorimetry.primaries import PRIMARIES
+from workbench.colorimetry.signals import (
     BAR_ORDER,
     UV_PAL,
     YCbCr,

@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 
 from workbench.errors import RangeCoverageError, WorkbenchError
-from workbench.spectra import Spectra, grid, is_uniform, resample_values, resampling_matrix
+from workbench.model.spectra import Spectra, grid, is_uniform, resample_values, resampling_matrix
 
 
 def smooth(wl, seed=0, count=1):

@@ -1,4 +1,4 @@
-"""Tests of workbench.spectra_csv: layouts, delimiters, assumptions and their notes, every
+"""Tests of workbench.fileio.spectra_csv: layouts, delimiters, assumptions and their notes, every
 rejection rule with its exact message, exact round trip and atomic writing."""
 
 import os
@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 
 from workbench.errors import InputFileError, WorkbenchError
-from workbench.spectra import Spectra, grid
-from workbench.spectra_csv import parse_spectra_text, read_spectra_csv, write_spectra_csv
+from workbench.model.spectra import Spectra, grid
+from workbench.fileio.spectra_csv import parse_spectra_text, read_spectra_csv, write_spectra_csv
 
 BAD = Path(__file__).parent / "data" / "bad"
 

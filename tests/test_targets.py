@@ -4,11 +4,11 @@ import colour
 import numpy as np
 import pytest
 
-from workbench.emitters import Band, Emitter, emitter_spectra
+from workbench.colorimetry.emitters import Band, Emitter, emitter_spectra
 from workbench.errors import WorkbenchError
-from workbench.primaries import PRIMARIES, drive_levels_for_white, primaries_from_emitters
-from workbench.spectra import grid
-from workbench.targets import RGB_of_emission, primaries_XYZ, target_cmfs
+from workbench.colorimetry.primaries import PRIMARIES, drive_levels_for_white, primaries_from_emitters
+from workbench.model.spectra import grid
+from workbench.colorimetry.targets import RGB_of_emission, primaries_XYZ, target_cmfs
 
 CMFS = {"2": "CIE 1931 2 Degree Standard Observer", "10": "CIE 1964 10 Degree Standard Observer"}
 

@@ -1,4 +1,4 @@
-"""Tests of workbench.tolerance: sampling, statistics, the Monte Carlo run, the field shift, outputs, plots, panel."""
+"""Tests of workbench.analysis.tolerance: sampling, statistics, the Monte Carlo run, the field shift, outputs, plots, panel."""
 
 from __future__ import annotations
 
@@ -13,10 +13,10 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from workbench.design import FieldPosition, Tolerance, load_design
+from workbench.model.design import FieldPosition, Tolerance, load_design
 from workbench.errors import InputFileError, WorkbenchError
-from workbench.fitting import DesignEvaluator
-from workbench import tolerance as T
+from workbench.analysis.fitting import DesignEvaluator
+from workbench.analysis import tolerance as T
 
 DESIGN = """\
 schema = 1
@@ -488,7 +488,7 @@ class TestPlots:
 class TestTolerancePanel:
     def test_run_and_error_line(self, design, tmp_path):
         """The panel runs with its controls' values; a bad tolerance shows one error line."""
-        from workbench.widgets_tolerance import TolerancePanel
+        from workbench.widgets.tolerance import TolerancePanel
 
         p = TolerancePanel(design, trials=30, seed=2, matrix="fixed")
         r = p.run()

@@ -4,11 +4,11 @@ import colour
 import numpy as np
 import pytest
 
-from workbench.cie import cmfs_on, illuminant_A, illuminant_names, illuminant_on
-from workbench.colorimetry import XYZ_to_xy
+from workbench.colorimetry.cie import cmfs_on, illuminant_A, illuminant_names, illuminant_on
+from workbench.colorimetry.coordinates import XYZ_to_xy
 from workbench.errors import RangeCoverageError, WorkbenchError
-from workbench.spectra import Spectra, grid
-from workbench.tristimulus import emission_weights, object_weights, tristimulus
+from workbench.model.spectra import Spectra, grid
+from workbench.colorimetry.tristimulus import emission_weights, object_weights, tristimulus
 
 from test_spectra import smooth
 

@@ -20,11 +20,11 @@ import pytest
 from PIL import Image
 
 from workbench import demo_dir
-from workbench.cli import main as cli_main
-from workbench.design import load_design
+from workbench.cli.main import main as cli_main
+from workbench.model.design import load_design
 from workbench.errors import WorkbenchError
-from workbench.fitting import DesignEvaluator, FitResult, fit_design
-from workbench.widgets import (
+from workbench.analysis.fitting import DesignEvaluator, FitResult, fit_design
+from workbench.widgets.design import (
     DesignPanel,
     ErrorLine,
     PrimariesPanel,
@@ -256,7 +256,7 @@ class TestDesignPanelFit:
 
     def test_stop_keeps_the_best_point(self, panel, monkeypatch):
         """Stop during a fit ends it as 'interrupted' with the best point so far."""
-        from workbench.fitting import DesignEvaluator
+        from workbench.analysis.fitting import DesignEvaluator
 
         started = threading.Event()
         real = DesignEvaluator.residuals
@@ -352,7 +352,7 @@ class TestDesignPanelFiles:
 
     def test_export_curves(self, panel, tmp_path):
         """Export writes the sensitivities and the matrixed responses with the targets, read back exactly."""
-        from workbench.spectra_csv import read_spectra_csv
+        from workbench.fileio.spectra_csv import read_spectra_csv
 
         out = tmp_path / "curves.csv"
         assert panel.export(out), panel.error.text
@@ -423,8 +423,8 @@ class TestPrimariesPanel:
 
     def test_emitters_from_path_and_upload_agree(self, pp):
         """The demo emitters by path and by upload give the same set and drive levels."""
-        from workbench.primaries import primaries_from_emitters
-        from workbench.spectra_csv import read_spectra_csv
+        from workbench.colorimetry.primaries import primaries_from_emitters
+        from workbench.fileio.spectra_csv import read_spectra_csv
 
         f = demo_dir() / "emitters_phosphor.csv"
         pp.mode.value = "emitter spectra"
@@ -460,7 +460,7 @@ class TestPrimariesPanel:
 
     def test_emitter_fit_reaches_bt709(self, pp):
         """The emitter-set fit reaches the BT.709 primaries and white within its tolerance."""
-        from workbench.colorimetry import xy_to_uv_prime
+        from workbench.colorimetry.coordinates import xy_to_uv_prime
 
         assert pp.fit_emitters(), pp.error.text
         res = pp.emitter_fit

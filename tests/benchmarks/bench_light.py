@@ -42,8 +42,8 @@ def main() -> None:
     import colour
 
     from workbench import demo_dir
-    from workbench.fitting import load_camera
-    from workbench.light import (_cct_duv, _emission_XYZ, _sd, camera_fidelity, light_report, read_light,
+    from workbench.analysis.fitting import load_camera
+    from workbench.analysis.light import (_cct_duv, _emission_XYZ, _sd, camera_fidelity, light_report, read_light,
                                  working_spd)
 
     camera = load_camera(demo_dir() / "tern3_design.toml")

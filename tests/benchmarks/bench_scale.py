@@ -80,16 +80,16 @@ def _rss() -> int:
 
 
 def _pipeline():
-    from workbench.cie import illuminant_on
-    from workbench.fitting import load_camera
-    from workbench.scale import BatchPipeline
+    from workbench.colorimetry.cie import illuminant_on
+    from workbench.analysis.fitting import load_camera
+    from workbench.analysis.render import BatchPipeline
 
     cam = load_camera(DESIGN)
     return BatchPipeline(cam, np.asarray(illuminant_on(cam.wavelengths, "D65")[1].values))
 
 
 def child_memory(args) -> dict:
-    from workbench.scale import render_in_memory
+    from workbench.analysis.render import render_in_memory
 
     p = _pipeline()
     t0 = time.perf_counter()
@@ -97,7 +97,7 @@ def child_memory(args) -> dict:
     t_load = time.perf_counter() - t0
     base = _rss()
     workers = os.cpu_count() or 1
-    from workbench.scale import auto_chunk_bytes, open_cube, render_dask
+    from workbench.analysis.render import auto_chunk_bytes, open_cube, render_dask
 
     cube = open_cube(args.path)
     chunk = int(args.chunk_mb * 2 ** 20) if args.chunk_mb else auto_chunk_bytes(total=cube.nbytes)
@@ -120,7 +120,7 @@ def child_memory(args) -> dict:
 
 
 def child_dask(args) -> dict:
-    from workbench.scale import auto_chunk_bytes, open_cube, render_dask
+    from workbench.analysis.render import auto_chunk_bytes, open_cube, render_dask
 
     p = _pipeline()
     cube = open_cube(args.path)

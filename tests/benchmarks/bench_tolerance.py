@@ -42,9 +42,9 @@ def main() -> None:
     import os
 
     from workbench import demo_dir
-    from workbench.design import load_design
-    from workbench.fitting import DesignEvaluator
-    from workbench.tolerance import run_tolerance, sample_parameters
+    from workbench.model.design import load_design
+    from workbench.analysis.fitting import DesignEvaluator
+    from workbench.analysis.tolerance import run_tolerance, sample_parameters
 
     design = load_design(demo_dir() / "tern3_design.toml")
     t0 = time.perf_counter()

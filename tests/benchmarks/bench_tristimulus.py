@@ -36,8 +36,8 @@ def main() -> None:
 
     import colour
 
-    from workbench.spectra import grid
-    from workbench.tristimulus import object_weights
+    from workbench.model.spectra import grid
+    from workbench.colorimetry.tristimulus import object_weights
 
     warnings.simplefilter("ignore")
     wl = grid(380, 780, 5)

@@ -76,7 +76,7 @@ def main() -> None:
     ap.add_argument("--repeats", type=int, default=40)
     args = ap.parse_args()
 
-    from workbench.widgets import DesignPanel
+    from workbench.widgets.design import DesignPanel
 
     t0 = time.perf_counter()
     panel = DesignPanel(DEMO)

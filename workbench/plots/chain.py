@@ -16,7 +16,7 @@ def plot_chain(wavelengths, curves, *, ax=None):
     ----------
     wavelengths : (n,) array_like, nm
     curves : sequence of ElementCurve
-        From :meth:`workbench.design.Design.element_curves` (one set of
+        From :meth:`workbench.model.design.Design.element_curves` (one set of
         values: each ``values`` is (3, n)).
     ax : sequence of three matplotlib Axes, optional
         One per channel R, G, B; created in a new figure when None.

@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..cie import cmfs_on, cmfs_table, observer_key, observer_label
-from ..colorimetry import XYZ_to_uv_prime, XYZ_to_xy, xy_to_uv_prime
-from ..gamut import gamut_vertices
-from ..primaries import Primaries
-from ..spectra import Spectra
+from workbench.colorimetry.cie import cmfs_on, cmfs_table, observer_key, observer_label
+from workbench.colorimetry.coordinates import XYZ_to_uv_prime, XYZ_to_xy, xy_to_uv_prime
+from workbench.colorimetry.gamut import gamut_vertices
+from workbench.colorimetry.primaries import Primaries
+from workbench.model.spectra import Spectra
 
 __all__ = ["plot_chromaticity_diagram", "plot_target_cmfs"]
 
@@ -79,7 +79,7 @@ def plot_target_cmfs(targets: Spectra, *, observer="2", ax=None, title: str | No
     Parameters
     ----------
     targets : Spectra
-        From :func:`workbench.targets.target_cmfs` (3 curves).
+        From :func:`workbench.colorimetry.targets.target_cmfs` (3 curves).
     observer : {'2', '10'}
         Observer the targets were made with (for the CIE curves drawn).
     ax : matplotlib Axes, optional

@@ -5,9 +5,9 @@ pyplot state, so it works under any backend, Agg included), returns it and
 never shows it. Axes carry quantity, unit and method; titles name the
 matrix rule and the illuminant.
 
-The inputs are :class:`workbench.fitting.Measures` values (one design
+The inputs are :class:`workbench.analysis.fitting.Measures` values (one design
 state each) and, for :func:`plot_noise_vs_accuracy`, plain mappings
-(see :func:`workbench.report.noise_accuracy_points`).
+(see :func:`workbench.report.fit_report.noise_accuracy_points`).
 """
 
 from __future__ import annotations
@@ -17,8 +17,8 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from ..cie import observer_key, observer_label
-from .chromaticity import _AXIS, _spectral_locus
+from workbench.colorimetry.cie import observer_key, observer_label
+from workbench.plots.chromaticity import _AXIS, _spectral_locus
 
 __all__ = [
     "plot_sensitivities_vs_targets",
@@ -293,7 +293,7 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
 
     ill = illuminant or measures.curve_illuminant
     if ill not in measures.illuminants:
-        from ..errors import WorkbenchError
+        from workbench.errors import WorkbenchError
 
         raise WorkbenchError(f"illuminant must be one of {', '.join(measures.illuminants)} (got {ill!r})")
     j = measures.illuminants.index(ill)
@@ -387,7 +387,7 @@ def plot_noise_vs_accuracy(points: Sequence[Mapping], *, noise: str = "row-norm"
     -------
     matplotlib.figure.Figure
     """
-    from ..errors import WorkbenchError
+    from workbench.errors import WorkbenchError
 
     if noise not in _NOISE_KEY:
         raise WorkbenchError(f"noise must be one of {', '.join(_NOISE_KEY)} (got {noise!r})")

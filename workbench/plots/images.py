@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..files import write_atomically
+from workbench.fileio.atomic import write_atomically
 
 __all__ = ["plot_delta_e_map", "save_rgb8_png", "save_figure"]
 

@@ -2,13 +2,13 @@
 
 Every function builds its own :class:`matplotlib.figure.Figure` (no pyplot
 state), returns it and never shows it. Axes carry quantity, unit and
-method; every figure carries the caution of :data:`workbench.light.CAUTION`
+method; every figure carries the caution of :data:`workbench.analysis.light.CAUTION`
 along its bottom edge.
 
-The inputs are the results of :mod:`workbench.light`:
-:class:`~workbench.light.LightIndices`,
-:class:`~workbench.light.CameraFidelity` and
-:class:`~workbench.light.LightComparison`.
+The inputs are the results of :mod:`workbench.analysis.light`:
+:class:`~workbench.analysis.light.LightIndices`,
+:class:`~workbench.analysis.light.CameraFidelity` and
+:class:`~workbench.analysis.light.LightComparison`.
 """
 
 from __future__ import annotations
@@ -17,9 +17,9 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from ..cie import cmfs_on, observer_label
-from ..light import CAUTION, CameraFidelity, LightComparison, LightIndices, reference_illuminant
-from .chromaticity import _AXIS, _spectral_locus
+from workbench.colorimetry.cie import cmfs_on, observer_label
+from workbench.analysis.light import CAUTION, CameraFidelity, LightComparison, LightIndices, reference_illuminant
+from workbench.plots.chromaticity import _AXIS, _spectral_locus
 
 __all__ = [
     "plot_light_spd",
@@ -34,7 +34,7 @@ _WL_LABEL = "wavelength λ (nm)"
 _SET_COLOURS = {"cie-13.3": "tab:orange", "cie-224": "tab:blue"}
 _SET_LABEL = {"cie-13.3": "CIE 13.3 TCS01-14", "cie-224": "CIE 224:2017 CES01-99"}
 #: Factors the u′v′ arrows may be lengthened by (the first that makes them visible).
-from .fit import _arrow_scale, draw_shift_arrows  # noqa: E402  (one rule for every u′v′ shift plot)
+from workbench.plots.fit import _arrow_scale, draw_shift_arrows  # noqa: E402  (one rule for every u′v′ shift plot)
 
 
 def _figure(width: float, height: float, fig=None):
@@ -70,7 +70,7 @@ def plot_light_spd(lights, *, reference: bool = True, fig=None):
     Parameters
     ----------
     lights : LightIndices or sequence of LightIndices
-        From :func:`workbench.light.light_indices` (each holds its SPD on
+        From :func:`workbench.analysis.light.light_indices` (each holds its SPD on
         the working grid, its CCT and Duv).
     reference : bool
         With one light, also draw the reference illuminant at its CCT
@@ -127,9 +127,9 @@ def plot_light_spd(lights, *, reference: bool = True, fig=None):
 
 def _tcs_display_colours() -> np.ndarray:
     """sRGB-like display colours (14, 3) of TCS01-14 under D65, for the bars (BT.709 primaries, 2.2 power)."""
-    from ..cie import illuminant_on
-    from ..primaries import primaries_named
-    from ..samples import tcs_cie_13_3
+    from workbench.colorimetry.cie import illuminant_on
+    from workbench.colorimetry.primaries import primaries_named
+    from workbench.colorimetry.samples import tcs_cie_13_3
 
     wl = np.arange(380.0, 781.0, 5.0)
     R = tcs_cie_13_3(wl).flat()
@@ -310,7 +310,7 @@ def plot_comparison(cmp: LightComparison, *, mode: str = "side-by-side", label_w
     ----------
     cmp : LightComparison
     mode : {'side-by-side', 'each-adapted'}
-        Which comparison (see :func:`workbench.light.compare_lights`).
+        Which comparison (see :func:`workbench.analysis.light.compare_lights`).
     label_worst : int
         Name the samples farthest from the diagonal.
     fig : matplotlib.figure.Figure, optional
@@ -323,7 +323,7 @@ def plot_comparison(cmp: LightComparison, *, mode: str = "side-by-side", label_w
         the reverse (lower right); the means as a star. Without a camera,
         bars of the eye's ΔE00.
     """
-    from ..errors import WorkbenchError
+    from workbench.errors import WorkbenchError
 
     if mode not in cmp.modes:
         raise WorkbenchError(f"mode must be one of {', '.join(cmp.modes)} (got {mode!r})")

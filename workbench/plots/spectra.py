@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..spectra import Spectra
+from workbench.model.spectra import Spectra
 
 _YLABEL = {
     "reflectance": "reflectance (0-1)",

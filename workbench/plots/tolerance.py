@@ -3,8 +3,8 @@
 Every function builds its own :class:`matplotlib.figure.Figure` (no pyplot
 state, any backend), returns it and never shows it. Axes carry quantity,
 unit and method; titles name the matrix case. Inputs are
-:class:`workbench.tolerance.ToleranceResult` and
-:class:`workbench.tolerance.FieldShift` values.
+:class:`workbench.analysis.tolerance.ToleranceResult` and
+:class:`workbench.analysis.tolerance.FieldShift` values.
 """
 
 from __future__ import annotations

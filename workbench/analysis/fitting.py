@@ -1,0 +1,934 @@
+"""Judging and fitting a camera design: measures, matrices and the filter-parameter fit.
+
+:class:`DesignEvaluator` reads a design once (chain curves, samples,
+illuminants, target functions) and then evaluates any parameter values —
+one set or a batch — to :class:`Measures`: the Vora value, Neugebauer's q,
+the Luther residual, ΔE00 statistics over the design's samples ×
+illuminants after white balance and the colour-correction matrix, the
+ISO 17321-1-style sensitivity metamerism index and the noise of the matrix.
+
+:func:`fit_design` moves the design's free parameters (bounded nonlinear
+least squares, ``scipy.optimize.least_squares``, with the Jacobian from one
+batched evaluation of all forward differences), optionally after a global
+start (multi-start from a seeded Latin hypercube, or differential evolution
+with a seed), with a tqdm progress bar, stoppable (Ctrl-C or a
+``threading.Event``) with the best point so far kept. It returns a frozen
+:class:`FitResult` that renders in a notebook and serialises to JSON.
+
+Objectives (the design's ``[fit] objective``), each a residual vector r
+whose sum of squares is minimised:
+
+- ``vora``: r = (I − P_M) Q_A / √3 with M = diag(l_rec)·S, A = diag(l_view)·X̄;
+  Σ r² = 1 − ν exactly, so the fit maximises ν;
+- ``luther-residual``: r = (I − P_M)·diag(l_view)·T / ‖diag(l_view)·T‖_F,
+  T the target colour-matching functions (the weighted distance to the
+  targets after the best matrix);
+- ``mean-delta-e00``: r_jk = √(w_k / (J Σw))·ΔE00_jk over samples k ×
+  illuminants j (a weighted RMS of ΔE00); with the ``delta-e00`` matrix its
+  nine (or 9·J) entries are fitted jointly with the filters.
+
+``[fit] noise_weight`` appends noise_weight·‖m_i‖ for each row i of the
+matrix (the noise gain for independent channel noise).
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import math
+import threading
+import time
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+import numpy as np
+
+from workbench.analysis.camera import Camera, ColourBench, bradford_matrix, least_squares_matrix
+from workbench.colorimetry.cie import cmfs_on, illuminant_on, observer_label
+from workbench.colorimetry.coordinates import Lab_to_XYZ, XYZ_to_Lab, XYZ_to_uv_prime
+from workbench.model.design import CHANNELS, Design, FittedMatrix, load_design
+from workbench.errors import WorkbenchError
+from workbench.analysis.measures import neugebauer_q, orthonormal_basis, vora_value
+from workbench.colorimetry.primaries import (
+    Primaries,
+    primaries_from_emitters,
+    primaries_from_xy,
+    primaries_named,
+)
+from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
+from workbench.model.spectra import Spectra, grid, is_uniform
+from workbench.fileio.spectra_csv import read_spectra_csv
+from workbench.colorimetry.targets import primaries_XYZ, target_cmfs
+
+__all__ = [
+    "design_primaries",
+    "DesignEvaluator",
+    "Measures",
+    "FitResult",
+    "fit_design",
+    "fitted_matrix",
+    "luther_residual",
+    "sensitivity_metamerism_index",
+    "noise_report",
+    "load_camera",
+    "FitStopped",
+]
+
+SMI_SLOPE = 5.5
+
+
+class FitStopped(Exception):
+    """Raised inside the objective to stop a fit (Ctrl-C or the stop event)."""
+
+
+# --------------------------------------------------------------------------
+# Measures that are plain functions of arrays
+# --------------------------------------------------------------------------
+
+
+def luther_residual(S, T, illuminant_rec=None, illuminant_view=None):
+    """‖A − M·B‖_F / ‖A‖_F after the best 3×3 B: the distance of the targets from the camera's span.
+
+    Parameters
+    ----------
+    S : (..., n, 3) sensitivities; T : (..., n, 3) targets (colour-matching functions);
+    illuminant_rec, illuminant_view : (n,) optional, weighting S and T.
+
+    Notes
+    -----
+    M = diag(l_rec)S, A = diag(l_view)T; the best B is least squares, so the
+    residual is (I − P_M)A with P_M = Q_M Q_Mᵀ from QR. 0 for a Luther camera.
+    """
+    S = np.asarray(S, dtype=float)
+    T = np.asarray(T, dtype=float)
+    M = S if illuminant_rec is None else np.asarray(illuminant_rec)[:, None] * S
+    A = T if illuminant_view is None else np.asarray(illuminant_view)[:, None] * T
+    q = orthonormal_basis(M, what="S")
+    R = A - q @ (np.swapaxes(q, -1, -2) @ A)
+    return np.sqrt(np.sum(R * R, axis=(-2, -1)) / np.sum(A * A, axis=(-2, -1)))
+
+
+def sensitivity_metamerism_index(S, wavelengths, samples, illuminant, *, observer="2",
+                                 slope: float = SMI_SLOPE) -> dict:
+    """An ISO 17321-1-style sensitivity metamerism index: 100 − slope × mean ΔE*ab.
+
+    Parameters
+    ----------
+    S : (3, n) camera sensitivities on ``wavelengths`` (uniform, nm).
+    samples : (K, n) reflectances 0-1 (use open CIE samples; the standard's
+        own target data are brand data).
+    illuminant : (n,) relative SPD.
+    slope : the factor on mean ΔE*ab (5.5, from memory of the standard).
+
+    Returns
+    -------
+    dict with ``smi``, ``mean_delta_E_ab``, ``matrix`` (raw → XYZ), method text.
+
+    Notes
+    -----
+    Raw RGB and XYZ (white Y = 100) by summation; the matrix is least
+    squares from raw RGB to XYZ over the samples; ΔE*ab in CIELAB against
+    the illuminant's white (CIE 15:2004 § 8.2.1). "-style": the sample set,
+    illuminant and slope are parameters, not the standard's data.
+    """
+    wl = np.asarray(wavelengths, dtype=float)
+    R = np.atleast_2d(np.asarray(samples, dtype=float))
+    E = np.asarray(illuminant, dtype=float)
+    x = cmfs_on(wl, observer).values
+    stim = R * E
+    k = 100.0 / (E @ x[:, 1])
+    XYZ = stim @ x * k
+    white = E @ x * k
+    raw = stim @ np.asarray(S, dtype=float).T
+    M = least_squares_matrix(raw, XYZ)
+    lab_c = XYZ_to_Lab(raw @ M.T, white)
+    lab_t = XYZ_to_Lab(XYZ, white)
+    de = np.linalg.norm(lab_c - lab_t, axis=-1)
+    mean = float(de.mean())
+    return {
+        "smi": 100.0 - slope * mean,
+        "mean_delta_E_ab": mean,
+        "matrix": M,
+        "method": (f"ISO 17321-1-style SMI = 100 − {slope:g} × mean ΔE*ab over {R.shape[0]} samples, "
+                   "least-squares raw RGB → XYZ matrix"),
+    }
+
+
+def noise_report(M, raw_white, noise) -> dict:
+    """Noise of the colour-correction matrix for the sensor noise model ``noise``.
+
+    Parameters
+    ----------
+    M : (..., 3, 3) the matrix applied to white-balanced RGB.
+    raw_white : (..., 3) raw RGB of the perfect diffuser under the light.
+    noise : NoiseModel (full well, read noise, exposure, grey).
+
+    Returns
+    -------
+    dict of arrays: ``row_norms`` (..., 3), ``condition`` (...),
+    ``signal_e`` (..., 3) electrons of the grey patch per channel,
+    ``sigma_out`` (..., 3) output noise of the grey patch in display RGB
+    (display white = 1), ``snr_db`` (..., 3) = 20 log10(grey / σ_out).
+
+    Notes
+    -----
+    The channel collecting most of the white gets ``exposure``·full well;
+    the others in proportion to their raw white. Per channel the grey gives
+    e = grey·e_white electrons with variance e + read² (shot plus read
+    noise); after white balance σ_in = √(e + read²)/e_white; after the
+    matrix Σ_out = M diag(σ_in²) Mᵀ (independent channels), σ_out = √diag.
+    """
+    M = np.asarray(M, dtype=float)
+    w = np.asarray(raw_white, dtype=float)
+    e_white = noise.exposure * noise.full_well_e * w / np.max(w, axis=-1, keepdims=True)
+    e = noise.grey * e_white
+    sigma_in = np.sqrt(e + noise.read_noise_e ** 2) / e_white
+    var_out = np.einsum("...ij,...j->...i", M * M, sigma_in ** 2)
+    sigma_out = np.sqrt(var_out)
+    return {
+        "row_norms": np.linalg.norm(M, axis=-1),
+        "condition": np.linalg.cond(M),
+        "signal_e": e,
+        "sigma_out": sigma_out,
+        "snr_db": 20 * np.log10(noise.grey / sigma_out),
+    }
+
+
+# --------------------------------------------------------------------------
+# The design's target and its bench
+# --------------------------------------------------------------------------
+
+
+def design_primaries(design: Design) -> Primaries:
+    """The display primaries the design's ``[target]`` names (CIE XYZ for ``kind = 'observer'``)."""
+    t = design.target
+    if t.kind == "observer":
+        return primaries_XYZ()
+    if t.kind == "primaries":
+        return primaries_named(t.name)
+    if t.kind == "chromaticities":
+        return primaries_from_xy([t.red, t.green, t.blue], t.white or "D65", name="design target",
+                                 observer=design.observer)
+    s = read_spectra_csv(design.resolve(t.file), kind="emission")
+    if t.columns is not None:
+        s = s.select(list(t.columns))
+    return primaries_from_emitters(s, design.observer, white=t.white or "D65", name=f"emitters of {t.file}")
+
+
+@dataclass(frozen=True, eq=False)
+class Measures:
+    """The measures of one design state (all numbers carry their method in :attr:`methods`).
+
+    ``delta_E00[illuminant] = {mean, median, p95, max}``; ``per_sample``
+    (J, K) ΔE00; ``camera_Lab``/``true_Lab`` (J, K, 3); ``matrices`` (J, 3, 3);
+    ``curves`` (3, n) the camera after white balance and matrix under the
+    curve illuminant against ``targets`` (3, n) on the same scale.
+    """
+
+    vora_value: float
+    neugebauer_q: tuple[float, float, float]
+    luther_residual: float
+    delta_E00: dict
+    smi: dict
+    noise: dict
+    matrices: np.ndarray
+    matrix_method: str
+    matrix_scope: str
+    gains: np.ndarray
+    per_sample: np.ndarray
+    camera_Lab: np.ndarray
+    true_Lab: np.ndarray
+    camera_uv: np.ndarray
+    true_uv: np.ndarray
+    sensitivities: np.ndarray
+    curves: np.ndarray
+    targets: np.ndarray
+    curve_illuminant: str
+    wavelengths: np.ndarray
+    illuminants: tuple[str, ...]
+    sample_names: tuple[str, ...]
+    sample_sets: tuple[str, ...]
+    weighted_mean_delta_E00: float
+    methods: dict
+
+    def summary(self) -> dict:
+        """The headline numbers as plain JSON-ready data."""
+        return {
+            "vora_value": self.vora_value,
+            "neugebauer_q": list(self.neugebauer_q),
+            "luther_residual": self.luther_residual,
+            "delta_E00": self.delta_E00,
+            "weighted_mean_delta_E00": self.weighted_mean_delta_E00,
+            "smi": {k: v for k, v in self.smi.items() if k != "matrix"},
+            "noise": {
+                ill: {k: np.asarray(v).tolist() for k, v in d.items()} for ill, d in self.noise.items()
+            },
+            "matrix": {
+                "method": self.matrix_method,
+                "scope": self.matrix_scope,
+                "values": {ill: self.matrices[j].tolist() for j, ill in enumerate(self.illuminants)},
+            },
+            "white_balance_gains": {ill: self.gains[j].tolist() for j, ill in enumerate(self.illuminants)},
+        }
+
+    def per_sample_table(self) -> list[dict]:
+        """One row per sample × illuminant: names, ΔE00, true and camera L*a*b*."""
+        rows = []
+        for j, ill in enumerate(self.illuminants):
+            for k, name in enumerate(self.sample_names):
+                rows.append({
+                    "illuminant": ill, "sample_set": self.sample_sets[k], "sample": name,
+                    "delta_E00": float(self.per_sample[j, k]),
+                    "true_L": float(self.true_Lab[j, k, 0]), "true_a": float(self.true_Lab[j, k, 1]),
+                    "true_b": float(self.true_Lab[j, k, 2]),
+                    "camera_L": float(self.camera_Lab[j, k, 0]), "camera_a": float(self.camera_Lab[j, k, 1]),
+                    "camera_b": float(self.camera_Lab[j, k, 2]),
+                })
+        return rows
+
+    def _repr_html_(self) -> str:
+        rows = "".join(
+            f"<tr><td>{ill}</td><td>{d['mean']:.3f}</td><td>{d['median']:.3f}</td>"
+            f"<td>{d['p95']:.3f}</td><td>{d['max']:.3f}</td></tr>"
+            for ill, d in self.delta_E00.items())
+        q = " / ".join(f"{v:.4f}" for v in self.neugebauer_q)
+        return (f"<p>Vora value ν = {self.vora_value:.4f}; Neugebauer q (R/G/B) = {q}; "
+                f"Luther residual {self.luther_residual:.4f}; "
+                f"{self.smi['method'].split(' =')[0]} {self.smi['smi']:.1f}</p>"
+                f"<table><tr><th>illuminant</th><th>mean ΔE00</th><th>median</th><th>p95</th>"
+                f"<th>max</th></tr>{rows}</table>")
+
+
+class DesignEvaluator:
+    """A design read once, ready to evaluate any parameter values (one set or a batch).
+
+    Parameters
+    ----------
+    design : Design
+
+    Attributes
+    ----------
+    model : ChainModel; bench : ColourBench; primaries : Primaries;
+    targets : (3, n) target colour-matching functions; free : tuple of free
+    parameter keys with ``lower``, ``upper`` (n_free,) bounds and ``start``.
+    """
+
+    def __init__(self, design: Design):
+        self.design = design
+        self.model = design.model()
+        wl = self.model.wavelengths
+        self.wavelengths = wl
+        self.step = float(wl[1] - wl[0])
+        self.primaries = design_primaries(design)
+        tg = target_cmfs(self.primaries, wl, design.observer)
+        self.targets = tg.values                                   # (3, n)
+        self.cmfs = cmfs_on(wl, design.observer).values            # (n, 3)
+        notes = list(self.model.notes) + list(tg.notes)
+        # illuminants
+        names = list(design.fit.illuminants) or [i.name for i in design.illuminants]
+        ills = {}
+        self.illuminant_labels = {}
+        if names:
+            for n in names:
+                label, values, nn = design.illuminant_values(n)
+                ills[n] = values
+                self.illuminant_labels[n] = label
+                notes.extend(nn)
+        else:
+            label, tab = illuminant_on(wl, "D65")
+            ills["D65"] = np.asarray(tab.values)
+            self.illuminant_labels["D65"] = label
+            notes.append("no [[illuminants]] in the design: CIE D65 used")
+        # samples
+        weights = dict(design.fit.weights)
+        blocks, w, sets, snames = [], [], [], []
+        specs = design.samples
+        if specs:
+            for s in specs:
+                sp = design.sample_set(s.name)
+                blocks.append(sp.flat())
+                w.extend([weights.get(s.name, 1.0)] * len(sp))
+                sets.extend([s.name] * len(sp))
+                snames.extend(sp.names)
+                notes.extend(sp.notes)
+        else:
+        
+            sp = ces_cie_224(wl)
+            blocks.append(sp.flat())
+            w.extend([1.0] * len(sp))
+            sets.extend(["cie-224"] * len(sp))
+            snames.extend(sp.names)
+            notes.append("no [[samples]] in the design: the 99 CIE 224:2017 samples used")
+        R = np.concatenate(blocks)
+        samples = Spectra(wl, R, tuple(snames), kind="reflectance")
+        self.bench = ColourBench(wl, samples, ills, self.primaries, design.observer,
+                                 weights=np.asarray(w), sample_sets=sets)
+        notes.extend(self.bench.notes)
+        # recording / viewing illuminants for ν
+        _, self.rec, _ = design.illuminant_values(design.fit.recording_illuminant)
+        _, self.view, _ = design.illuminant_values(design.fit.viewing_illuminant)
+        self._QA = orthonormal_basis(self.view[:, None] * self.cmfs, what="X")
+        A_t = self.view[:, None] * self.targets.T
+        self._A_t = A_t / np.linalg.norm(A_t)
+        # the SMI set: CIE 13.3 TCS01-08 under D65 (parameters of the index)
+        tcs = tcs_cie_13_3(wl, extrapolation="constant")
+        self._smi_samples = tcs.flat()[:8]
+        self._smi_illuminant = np.asarray(illuminant_on(wl, "D65")[1].values)
+        # the curve illuminant: the viewing illuminant when the bench has it, else the first
+        view = design.fit.viewing_illuminant
+        self.curve_illuminant = view if view in self.bench.illuminant_names else self.bench.illuminant_names[0]
+        # free parameters
+        free = design.free_parameters()
+        self.free = tuple(free)
+        self.lower = np.array([p.min for p in free.values()], dtype=float)
+        self.upper = np.array([p.max for p in free.values()], dtype=float)
+        self.start = np.array([p.value for p in free.values()], dtype=float)
+        self.notes = tuple(dict.fromkeys(notes))
+
+    def with_design(self, design: Design) -> "DesignEvaluator":
+        """This evaluator for another state of the same design file (other parameter values).
+
+        Nothing is read again: the curves, samples and illuminants are
+        shared; the parameter values (free or not) are ``design``'s.
+        """
+        ev = copy.copy(self)
+        ev.model = copy.copy(self.model)
+        ev.model.design = design
+        ev.design = design
+        params = design.parameters()
+        if tuple(k for k, p in params.items() if p.free) != self.free:
+            raise WorkbenchError("the evaluator was made for a design with other free parameters")
+        ev.start = np.array([params[k].value for k in self.free], dtype=float)
+        return ev
+
+    # -- the pipeline ------------------------------------------------------------
+    def sensitivities(self, values=None) -> np.ndarray:
+        """R, G, B sensitivities (..., 3, n) for parameter values (dict of arrays)."""
+        return self.model.sensitivities(values)
+
+    def values_of(self, x) -> dict:
+        """Free-parameter vector(s) (..., n_free) as the dict the chain takes."""
+        x = np.asarray(x, dtype=float)
+        return {k: x[..., i] for i, k in enumerate(self.free)}
+
+    def _stored_matrices(self):
+        m = self.design.matrix
+        if m is None:
+            return None
+        J = len(self.bench.illuminant_names)
+        if m.scope == "shared":
+            return np.broadcast_to(np.array(m.values), (J, 3, 3))
+        per = dict(m.per_illuminant)
+        missing = [n for n in self.bench.illuminant_names if n not in per]
+        if missing:
+            return None
+        return np.stack([np.array(per[n]) for n in self.bench.illuminant_names])
+
+    def measures(self, values=None, *, matrices=None, method=None, scope=None,
+                 use_stored_matrix=False) -> Measures:
+        """Every measure of one design state.
+
+        ``matrices`` (3, 3) or (J, 3, 3) fixes the matrix; otherwise it is
+        fitted by ``method``/``scope`` (default: the design's ``[fit]``), or
+        taken from the design's ``[matrix]`` when ``use_stored_matrix``.
+        """
+        fit = self.design.fit
+        method = method or fit.matrix
+        scope = scope or fit.matrix_scope
+        if matrices is None and use_stored_matrix:
+            matrices = self._stored_matrices()
+        S = self.sensitivities(values)
+        if S.ndim != 2:
+            raise WorkbenchError("measures() takes one set of values; use batch() for many")
+        res = self.bench.evaluate(S, method, scope, matrices)
+        if matrices is not None:
+            method = (self.design.matrix.method + " (stored)") if use_stored_matrix and self.design.matrix else "fixed"
+        St = S.T
+        nu = float(vora_value(St, self.cmfs, self.rec, self.view))
+        q = tuple(float(v) for v in neugebauer_q(St, self.cmfs, self.rec, self.view))
+        lr = float(luther_residual(St, self.targets.T, self.rec, self.view))
+        stats = {ill: {k: float(v) for k, v in d.items()} for ill, d in res.stats.items()}
+        smi = sensitivity_metamerism_index(S, self.wavelengths, self._smi_samples, self._smi_illuminant,
+                                           observer=self.design.observer)
+        smi["samples"] = "CIE 13.3 TCS01-TCS08"
+        smi["illuminant"] = "CIE D65"
+        smi["slope"] = SMI_SLOPE
+        noise = {ill: noise_report(res.matrices[j], res.raw_white[j], self.design.noise)
+                 for j, ill in enumerate(res.illuminants)}
+        j = res.illuminants.index(self.curve_illuminant)
+        b = self.bench
+        E = b.E[j]
+        XYZw = E @ self.cmfs
+        A = bradford_matrix(XYZw / XYZw[1], b.display_white)
+        targets_j = b.N_inv @ A @ (self.cmfs.T / XYZw[1])       # per unit light, (3, n)
+        # per unit light: Σ curves·E = M·(1,1,1), as Σ targets·E = (1,1,1)
+        curves = res.matrices[j] @ (res.gains[j][:, None] * S) * b.step  # (3, n)
+        display_white = 100 * b.display_white
+        cam_uv = XYZ_to_uv_prime(Lab_to_XYZ(res.camera_Lab, display_white))
+        true_uv = XYZ_to_uv_prime(Lab_to_XYZ(res.true_Lab, display_white))
+        methods = {
+            "vora_value": "Tr(P_A P_M)/3, QR projectors, A = diag(l_view)·x̄ȳz̄, M = diag(l_rec)·S "
+                          "(Vora & Trussell 1993), 0-1",
+            "neugebauer_q": "‖P_A m‖²/‖m‖² per channel (Neugebauer 1956), 0-1",
+            "luther_residual": "‖(I − P_M)·diag(l_view)·T‖_F / ‖diag(l_view)·T‖_F, T the target "
+                               "colour-matching functions, 0 = Luther",
+            "delta_E00": "CIEDE2000 (CIE 142-2001) between the camera (white balance on the perfect "
+                         "diffuser, then the matrix) and the truth adapted to the display white "
+                         "(linear Bradford), CIELAB against the display white; over the samples of "
+                         "each illuminant",
+            "matrix": f"{method}, {scope}",
+            "smi": smi["method"] + ", CIE 13.3 TCS01-08 under D65",
+            "noise": (f"shot + read noise: full well {self.design.noise.full_well_e:g} e⁻, read "
+                      f"{self.design.noise.read_noise_e:g} e⁻ rms, white at "
+                      f"{self.design.noise.exposure:g} of full well in the strongest channel, grey "
+                      f"{self.design.noise.grey:g}; σ_out in display RGB (white = 1); row norms = "
+                      "noise gain for independent channel noise"),
+            "recording_illuminant": self.design.fit.recording_illuminant or "equal energy",
+            "viewing_illuminant": self.design.fit.viewing_illuminant or "equal energy",
+            "observer": observer_label(self.design.observer),
+            "target": self.primaries.name,
+        }
+        return Measures(
+            vora_value=nu, neugebauer_q=q, luther_residual=lr, delta_E00=stats, smi=smi,
+            noise=noise, matrices=res.matrices, matrix_method=method, matrix_scope=scope,
+            gains=res.gains, per_sample=res.delta_E00, camera_Lab=res.camera_Lab,
+            true_Lab=res.true_Lab, camera_uv=cam_uv, true_uv=true_uv, sensitivities=S,
+            curves=curves, targets=targets_j, curve_illuminant=self.curve_illuminant,
+            wavelengths=self.wavelengths, illuminants=res.illuminants,
+            sample_names=res.sample_names, sample_sets=res.sample_sets,
+            weighted_mean_delta_E00=float(res.weighted_mean(self.bench.weights)), methods=methods,
+        )
+
+    def batch(self, values: dict, *, matrices=None, method=None, scope=None) -> dict:
+        """Headline measures for a batch of parameter values (dict of (B,) arrays), as arrays.
+
+        Returns ``vora_value`` (B,), ``delta_E00`` {illuminant: {mean, median,
+        p95, max: (B,)}}, ``gains`` (B, J, 3), ``row_norms`` (B, J, 3),
+        ``condition`` (B, J), ``matrices`` (B, J, 3, 3). ``matrices`` given
+        (3, 3) / (J, 3, 3) fixes the matrix for every unit; otherwise each
+        unit gets its own (the least-squares or white-preserving rule of the
+        design; a ΔE00 matrix is not fitted per unit — least squares is used
+        and said in ``method``).
+        """
+        fit = self.design.fit
+        method = method or fit.matrix
+        scope = scope or fit.matrix_scope
+        S = self.sensitivities(values)
+        if S.ndim == 2:
+            S = S[None]
+        if matrices is None and method == "delta-e00":
+            method = "least-squares"
+        res = self.bench.evaluate(S, method, scope, matrices)
+        St = np.swapaxes(S, -1, -2)
+        nu = vora_value(St, self.cmfs, self.rec, self.view)
+        return {
+            "vora_value": np.atleast_1d(nu),
+            "delta_E00": res.stats,
+            "weighted_mean_delta_E00": res.weighted_mean(self.bench.weights),
+            "gains": res.gains,
+            "row_norms": np.linalg.norm(res.matrices, axis=-1),
+            "condition": np.linalg.cond(res.matrices),
+            "matrices": res.matrices,
+            "method": res.method if matrices is None else "fixed",
+            "illuminants": res.illuminants,
+        }
+
+    # -- residuals for the fit ------------------------------------------------------
+    def _n_matrix_params(self) -> int:
+        fit = self.design.fit
+        if fit.objective != "mean-delta-e00" or fit.matrix != "delta-e00":
+            return 0
+        return 9 if fit.matrix_scope == "shared" else 9 * len(self.bench.illuminant_names)
+
+    def residuals(self, x) -> np.ndarray:
+        """Residual vectors (..., m) for free-parameter vectors x (..., n_free [+ matrix entries])."""
+        x = np.atleast_2d(np.asarray(x, dtype=float))
+        nf = len(self.free)
+        S = self.sensitivities(self.values_of(x[:, :nf]))
+        if S.ndim == 2:
+            S = np.broadcast_to(S, (x.shape[0],) + S.shape)
+        fit = self.design.fit
+        obj = fit.objective
+        St = np.swapaxes(S, -1, -2) * self.rec[:, None]            # M = diag(l_rec) S, (B, n, 3)
+        need_matrix = obj == "mean-delta-e00" or fit.noise_weight > 0
+        parts = []
+        if obj in ("vora", "luther-residual"):
+            q = orthonormal_basis(St, what="S")
+            A = self._QA / math.sqrt(3) if obj == "vora" else self._A_t
+            R = A - q @ (np.swapaxes(q, -1, -2) @ A)
+            parts.append(R.reshape(R.shape[0], -1))
+        M = None
+        if need_matrix:
+            C, white = self.bench.balanced(S)
+            nm = self._n_matrix_params()
+            J = len(self.bench.illuminant_names)
+            if nm:
+                m = x[:, nf:nf + nm].reshape(x.shape[0], -1, 3, 3)
+                M = np.broadcast_to(m, (x.shape[0], J, 3, 3)) if m.shape[1] == 1 else m
+            else:
+                method = "least-squares" if fit.matrix == "delta-e00" else fit.matrix
+                M = self.bench.fit_matrices(C, method, fit.matrix_scope)
+            if obj == "mean-delta-e00":
+                d = self.bench.delta_e(C, M)                          # (B, J, K)
+                w = self.bench.weights
+                scale = np.sqrt(w / (w.sum() * J))
+                parts.append((d * scale).reshape(d.shape[0], -1))
+            if fit.noise_weight > 0:
+                rn = np.linalg.norm(M, axis=-1) / math.sqrt(M.shape[-3] * 3)
+                parts.append(fit.noise_weight * rn.reshape(rn.shape[0], -1))
+        return np.concatenate(parts, axis=-1)
+
+
+# --------------------------------------------------------------------------
+# The fit
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class FitResult:
+    """The outcome of :func:`fit_design`: a frozen value that renders and serialises.
+
+    ``parameters`` rows: name, start, value, min, max, at_bound ('min',
+    'max' or None). ``status``: 'converged', 'not converged' or
+    'interrupted'; ``message`` the optimiser's words.
+    """
+
+    design: Design
+    start_design: Design
+    parameters: tuple[dict, ...]
+    before: Measures
+    after: Measures
+    objective: str
+    cost_before: float
+    cost_after: float
+    status: str
+    message: str
+    evaluations: int
+    seconds: float
+    global_start: str
+    seed: int
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def converged(self) -> bool:
+        return self.status == "converged"
+
+    @property
+    def residual_per_wavelength(self) -> np.ndarray:
+        """(3, n): camera after balance and matrix minus the target, under the curve illuminant."""
+        return self.after.curves - self.after.targets
+
+    def to_dict(self) -> dict:
+        return {
+            "design": self.design.name,
+            "objective": self.objective,
+            "status": self.status,
+            "message": self.message,
+            "evaluations": self.evaluations,
+            "seconds": self.seconds,
+            "global_start": self.global_start,
+            "seed": self.seed,
+            "cost_before": self.cost_before,
+            "cost_after": self.cost_after,
+            "parameters": list(self.parameters),
+            "parameters_at_bounds": [p["name"] for p in self.parameters if p["at_bound"]],
+            "before": self.before.summary(),
+            "after": self.after.summary(),
+            "residual_per_wavelength": {
+                "wavelength_nm": self.after.wavelengths.tolist(),
+                **{ch: self.residual_per_wavelength[i].tolist() for i, ch in enumerate(CHANNELS)},
+                "illuminant": self.after.curve_illuminant,
+            },
+            "per_sample": self.after.per_sample_table(),
+            "methods": self.after.methods,
+            "notes": list(self.notes),
+        }
+
+    def to_json(self) -> str:
+        return json.dumps(_jsonable(self.to_dict()), indent=2, ensure_ascii=False, allow_nan=False)
+
+    def _repr_html_(self) -> str:
+        rows = "".join(
+            f"<tr><td>{p['name']}</td><td>{p['start']:.4g}</td><td>{p['value']:.4g}</td>"
+            f"<td>[{p['min']:.4g}, {p['max']:.4g}]</td><td>{p['at_bound'] or ''}</td></tr>"
+            for p in self.parameters)
+        b, a = self.before, self.after
+        stats = "".join(
+            f"<tr><td>{ill}</td><td>{b.delta_E00[ill]['mean']:.3f}</td><td>{a.delta_E00[ill]['mean']:.3f}</td>"
+            f"<td>{a.delta_E00[ill]['p95']:.3f}</td><td>{a.delta_E00[ill]['max']:.3f}</td></tr>"
+            for ill in a.illuminants)
+        return (
+            f"<p><b>Fit of {self.design.name}</b>: {self.status} ({self.message}); objective "
+            f"{self.objective}; {self.evaluations} evaluations in {self.seconds:.2f} s.</p>"
+            f"<p>Vora value ν {b.vora_value:.4f} → {a.vora_value:.4f}; matrix {a.matrix_method}, "
+            f"{a.matrix_scope}.</p>"
+            f"<table><tr><th>parameter</th><th>start</th><th>fitted</th><th>bounds</th><th>at bound</th></tr>"
+            f"{rows}</table><table><tr><th>illuminant</th><th>mean ΔE00 before</th><th>mean ΔE00 after</th>"
+            f"<th>p95 after</th><th>max after</th></tr>{stats}</table>")
+
+
+def _jsonable(v):
+    if isinstance(v, dict):
+        return {str(k): _jsonable(x) for k, x in v.items()}
+    if isinstance(v, (list, tuple)):
+        return [_jsonable(x) for x in v]
+    if isinstance(v, np.ndarray):
+        return _jsonable(v.tolist())
+    if isinstance(v, (np.floating, float)):
+        f = float(v)
+        return f if math.isfinite(f) else None
+    if isinstance(v, np.integer):
+        return int(v)
+    return v
+
+
+class _Tracker:
+    """Counts evaluations, keeps the best point, drives the progress bar, raises FitStopped."""
+
+    def __init__(self, evaluator, budget, progress, stop, callback=None):
+        self.ev = evaluator
+        self.callback = callback
+        self.best_x = None
+        self.best_cost = math.inf
+        self.n = 0
+        self.budget = budget
+        self.stop = stop
+        self.bar = None
+        if progress:
+            from tqdm.auto import tqdm
+
+            self.bar = tqdm(total=budget, desc="fit", unit="eval", leave=False)
+
+    def __call__(self, X) -> np.ndarray:
+        if self.stop is not None and self.stop.is_set():
+            raise FitStopped("stopped")
+        if self.n >= self.budget:
+            raise FitStopped("evaluation budget reached")
+        r = self.ev.residuals(X)
+        cost = np.sum(r * r, axis=-1)
+        i = int(np.argmin(cost))
+        if cost[i] < self.best_cost:
+            self.best_cost = float(cost[i])
+            self.best_x = np.array(np.atleast_2d(X)[i])
+        k = r.shape[0]
+        self.n += k
+        if self.bar is not None:
+            self.bar.update(k)
+            self.bar.set_postfix(cost=f"{self.best_cost:.4g}", refresh=False)
+        if self.callback is not None:
+            self.callback(self.n)
+        return r
+
+    def close(self):
+        if self.bar is not None:
+            self.bar.close()
+
+
+def _local(track: _Tracker, u0, lo, hi, nf, span, base):
+    """One bounded least-squares run in normalised coordinates u ∈ [0, 1] (filters) + raw matrix entries."""
+    from scipy.optimize import least_squares
+
+    def x_of(u):
+        u = np.atleast_2d(u)
+        return np.concatenate([base[:nf] + u[:, :nf] * span, u[:, nf:]], axis=1)
+
+    def fun(u):
+        return track(x_of(u))[0]
+
+    def jac(u):
+        h = np.where(np.arange(u.size) < nf, 1e-6, 1e-7)
+        U = np.repeat(u[None], u.size, axis=0)
+        # step away from the upper bound when it would cross it
+        sign = np.where(u + h > hi, -1.0, 1.0)
+        U[np.arange(u.size), np.arange(u.size)] += sign * h
+        r0 = track(x_of(u))[0]
+        R = track(x_of(U))
+        return ((R - r0) / (sign * h)[:, None]).T
+
+    r = least_squares(fun, u0, jac=jac, bounds=(lo, hi), method="trf", x_scale=1.0,
+                      xtol=1e-10, ftol=1e-12, gtol=1e-10, max_nfev=200)
+    return r, x_of(r.x)[0]
+
+
+def fit_design(design: Design, *, progress: bool = True, stop: threading.Event | None = None,
+               evaluator: DesignEvaluator | None = None, global_start: str | None = None,
+               seed: int | None = None, max_evaluations: int | None = None,
+               callback=None) -> FitResult:
+    """Fit the design's free parameters (and a ΔE00 matrix when asked) to its objective.
+
+    Parameters
+    ----------
+    design : Design
+        With at least one ``free = true`` parameter.
+    progress : bool
+        Show a tqdm progress bar (terminal or notebook).
+    stop : threading.Event, optional
+        Set it from another thread (a Stop button) to end the fit; Ctrl-C
+        does the same. The best point so far is kept.
+    evaluator : DesignEvaluator, optional
+        One already made for this design file, in any parameter state, to
+        skip reading the files again; the fit starts from ``design``'s
+        values (see :meth:`DesignEvaluator.with_design`).
+    callback : callable, optional
+        Called with the running number of evaluations after each batch (a
+        notebook progress bar).
+    global_start, seed, max_evaluations
+        Override the design's ``[fit]`` values.
+
+    Returns
+    -------
+    FitResult
+    """
+    if evaluator is None:
+        ev = DesignEvaluator(design)
+    else:
+        ev = evaluator if evaluator.design == design else evaluator.with_design(design)
+    fit = design.fit
+    gs = global_start or fit.global_start
+    seed = fit.seed if seed is None else seed
+    budget = max_evaluations or fit.max_evaluations
+    nf = len(ev.free)
+    if nf == 0:
+        raise WorkbenchError(f"{design.source or design.name}: no free parameters to fit "
+                             "(set free = true with min and max on at least one)")
+    start = ev.start
+    t0 = time.perf_counter()
+    before = ev.measures()
+    span = ev.upper - ev.lower
+    base = ev.lower
+    u_start = (start - base) / span
+    nm = ev._n_matrix_params()
+    if nm:
+        m0 = before.matrices
+        m0 = m0[0].ravel() if fit.matrix_scope == "shared" else m0.ravel()
+    else:
+        m0 = np.zeros(0)
+    lo = np.concatenate([np.zeros(nf), np.full(nm, -np.inf)])
+    hi = np.concatenate([np.ones(nf), np.full(nm, np.inf)])
+    x_start = np.concatenate([start, m0])
+    track = _Tracker(ev, budget, progress, stop, callback)
+    r0 = ev.residuals(x_start)[0]
+    cost_before = float(r0 @ r0)
+    track.best_x, track.best_cost = x_start.copy(), cost_before
+    status, message = "not converged", ""
+    starts = [np.concatenate([u_start, m0])]
+    try:
+        if gs == "multi-start":
+            from scipy.stats import qmc
+
+            pts = qmc.LatinHypercube(d=nf, seed=seed).random(max(1, fit.starts))
+            X = np.concatenate([base + pts * span, np.broadcast_to(m0, (len(pts), nm))], axis=1)
+            r = track(X)
+            order = np.argsort(np.sum(r * r, axis=-1))[:3]
+            starts += [np.concatenate([pts[i], m0]) for i in order]
+        elif gs == "differential-evolution":
+            from scipy.optimize import differential_evolution
+
+            def de_cost(U):
+                U = np.atleast_2d(U.T)
+                X = np.concatenate([base + U * span, np.broadcast_to(m0, (len(U), nm))], axis=1)
+                r = track(X)
+                return np.sum(r * r, axis=-1)
+
+            d = differential_evolution(de_cost, [(0, 1)] * nf, seed=seed, vectorized=True,
+                                       maxiter=30, popsize=10, polish=False, tol=1e-8,
+                                       updating="deferred", x0=np.clip(u_start, 0, 1))
+            starts = [np.concatenate([d.x, m0])]
+        best = None
+        for u0 in starts:
+            r, x = _local(track, np.clip(u0, lo, hi), lo, hi, nf, span, base)
+            c = float(2 * r.cost)
+            if best is None or c < best[0]:
+                best = (c, r, x)
+        _, r, _ = best
+        status = "converged" if r.success and r.status > 0 else "not converged"
+        message = str(r.message).rstrip(".")
+    except FitStopped as e:
+        status, message = "interrupted", f"{e}; best point so far kept"
+    except KeyboardInterrupt:
+        status, message = "interrupted", "interrupted (Ctrl-C); best point so far kept"
+    finally:
+        track.close()
+    x = track.best_x
+    values = dict(zip(ev.free, (float(v) for v in x[:nf])))
+    values = {k: float(np.clip(v, ev.lower[i], ev.upper[i])) for i, (k, v) in enumerate(values.items())}
+    fitted = design.with_values(values)
+    if nm:
+        m = x[nf:].reshape(-1, 3, 3)
+        mats = np.broadcast_to(m, (len(ev.bench.illuminant_names), 3, 3))
+        after = ev.measures(values, matrices=mats)
+        after = replace(after, matrix_method="delta-e00", methods={**after.methods, "matrix": f"delta-e00, {fit.matrix_scope}"})
+    else:
+        after = ev.measures(values)
+    stored = fitted_matrix(after)
+    fitted = replace(fitted, matrix=stored)
+    span_tol = 1e-6
+    rows = []
+    for i, k in enumerate(ev.free):
+        v = values[k]
+        at = "min" if v - ev.lower[i] <= span_tol * span[i] else ("max" if ev.upper[i] - v <= span_tol * span[i] else None)
+        rows.append({"name": k, "start": float(start[i]), "value": v, "min": float(ev.lower[i]),
+                     "max": float(ev.upper[i]), "at_bound": at})
+    return FitResult(
+        design=fitted, start_design=design, parameters=tuple(rows), before=before, after=after,
+        objective=fit.objective, cost_before=cost_before, cost_after=float(track.best_cost),
+        status=status, message=str(message), evaluations=track.n, seconds=time.perf_counter() - t0,
+        global_start=gs, seed=seed, notes=ev.notes,
+    )
+
+
+def fitted_matrix(m: Measures) -> FittedMatrix:
+    """The matrix the measures used, as the ``[matrix]`` to store with a design."""
+    method = m.matrix_method.replace(" (stored)", "")
+    if method == "fixed":
+        method = "least-squares"
+    if m.matrix_scope == "shared":
+        return FittedMatrix(method, "shared", tuple(tuple(float(v) for v in r) for r in m.matrices[0]))
+    return FittedMatrix(method, "per-illuminant", tuple(
+        (ill, tuple(tuple(float(v) for v in r) for r in m.matrices[j])) for j, ill in enumerate(m.illuminants)))
+
+
+# --------------------------------------------------------------------------
+# A camera from a file
+# --------------------------------------------------------------------------
+
+
+def camera_from_design(design: Design, evaluator: DesignEvaluator | None = None) -> Camera:
+    """The design as a :class:`Camera`: its sensitivities and matrix (stored, else fitted by its rule)."""
+    ev = evaluator or DesignEvaluator(design)
+    m = ev.measures(use_stored_matrix=design.matrix is not None)
+    per = ()
+    if m.matrix_scope == "per-illuminant":
+        per = tuple((ill, m.matrices[j]) for j, ill in enumerate(m.illuminants))
+    return Camera(design.name, ev.wavelengths, m.sensitivities, m.matrices[0], ev.primaries,
+                  design.observer, m.matrix_method, per, ev.notes)
+
+
+def load_camera(path, *, primaries: Primaries | str = "ITU-R BT.709", observer="2") -> Camera:
+    """A camera from a design file (``.toml``) or a CSV of three sensitivities R, G, B.
+
+    For a CSV the matrix is least squares over the 99 CIE 224:2017 samples
+    under D65 to the linear RGB of ``primaries`` (white balance on the
+    perfect diffuser first), on the file's own uniform grid (or resampled
+    to 5 nm when irregular, said in the notes).
+    """
+    p = Path(path)
+    if p.suffix.lower() == ".toml":
+        return camera_from_design(load_design(p))
+    s = read_spectra_csv(p, kind="sensitivity")
+    if len(s) != 3:
+        raise WorkbenchError(f"{p}: expected three sensitivity columns R, G, B (got {len(s)}: "
+                             f"{', '.join(s.names[:6])})")
+    notes = list(s.notes)
+    if not is_uniform(s.wavelengths):
+        wl = grid(math.ceil(s.wavelengths[0] / 5) * 5, math.floor(s.wavelengths[-1] / 5) * 5, 5)
+        s = s.resample(wl)
+        notes.append(f"{p}: irregular grid resampled to 5 nm")
+    wl = s.wavelengths
+    prim = primaries_named(primaries) if isinstance(primaries, str) else primaries
+    samples = ces_cie_224(wl, extrapolation="constant")
+    _, tab = illuminant_on(wl, "D65")
+    bench = ColourBench(wl, samples, {"D65": np.asarray(tab.values)}, prim, observer)
+    res = bench.evaluate(s.flat(), "least-squares", "shared")
+    notes.append(f"{p}: matrix least squares over the 99 CIE 224:2017 samples under D65 to {prim.name}")
+    return Camera(p.stem, wl, s.flat(), res.matrices[0], prim, observer, "least-squares", (), tuple(notes))

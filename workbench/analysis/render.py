@@ -1,0 +1,893 @@
+"""A camera judged over spectral images and large spectral sets, in memory or out of core on Dask.
+
+Inputs are reflectance (radiance factor) 0-1 with the spectrum on the last
+axis: a spectral image ``(height, width, bands)`` or a spectral set
+``(N, bands)``. For every pixel or spectrum R(λ) under the scene light E(λ)
+the pipeline of :mod:`workbench.analysis.camera` is evaluated with the same
+definitions as :class:`workbench.analysis.camera.ColourBench`:
+
+1. raw camera RGB = Σ S(λ) R(λ) E(λ) Δλ;
+2. white balance on the perfect diffuser under E, then the camera's 3×3
+   matrix: display-linear RGB of the camera's primaries, white (1, 1, 1);
+3. truth: the CIE XYZ of R under E (perfect diffuser Y = 1) adapted to the
+   display white by the linear Bradford transform
+   (:func:`workbench.analysis.camera.bradford_matrix`);
+4. both to CIELAB against the display white (Y = 100) and their CIEDE2000
+   difference ΔE00 (:func:`workbench.colorimetry.coordinates.delta_E_CIE2000`).
+
+Everything linear is folded into one weight matrix W (bands, 6) built once
+per camera, light and wavelength grid: its first three columns give raw
+RGB, its last three the adapted truth XYZ (white Y = 100). A block of
+spectra is then one matrix product plus the colour maths on (rows, 3)
+arrays; blocks of :data:`SUB_BLOCK` rows keep the temporaries in cache. The
+in-memory path and the Dask path run the same block function, so their
+results agree to rounding (bit for bit when the blocks coincide).
+
+Out of core, a cube is read from ``.npy`` (memory-mapped a chunk at a time;
+each chunk's map is dropped once it is evaluated, so only the chunks in
+flight are resident) or from Zarr
+(``dask.array.from_zarr``), chunked along its first axis only (each chunk
+holds whole spectra and, for images, whole image rows), and evaluated one
+task per chunk on the local threaded scheduler or on a
+``dask.distributed`` cluster; the per-chunk results (ΔE00 float64 and, for
+images, two 8-bit sRGB images) are gathered in order. Memory in use is
+about the chunks in flight plus the results (8 bytes per pixel for ΔE00,
+6 more for the two images).
+
+The cube's wavelengths come from ``START:STOP:STEP`` (nm) or from a sidecar
+JSON file beside it (``scene.npy`` → ``scene.json``; ``scene.zarr`` →
+``scene.json``) holding ``"wavelengths_nm"``: a list of numbers, or
+``{"start": …, "stop": …, "step": …}``. A cube on another grid than the
+camera's is resampled to the camera grid by the CIE 167:2005 rules
+(:func:`workbench.model.spectra.resampling_matrix`), folded into W and said in
+the notes; extrapolation only when asked.
+
+Display-ready images encode display-linear ITU-R BT.709 RGB (white = 1;
+other display primaries are taken through XYZ with a Bradford adaptation
+to D65) with the sRGB transfer function of IEC 61966-2-1:1999, clipped to
+0-1 first and rounded to 8 bits.
+
+References
+----------
+CIE 15:2004 § 7 (summation). CIE 142-2001 (ΔE00). CIE 167:2005
+(resampling). IEC 61966-2-1:1999 (sRGB transfer). ITU-R BT.709-6.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from workbench.analysis.camera import Camera, bradford_matrix
+from workbench.colorimetry.cie import cmfs_on, observer_label
+from workbench.colorimetry.coordinates import XYZ_to_Lab, delta_E_CIE2000
+from workbench.errors import InputFileError, WorkbenchError
+from workbench.colorimetry.primaries import primaries_named
+from workbench.model.spectra import check_wavelengths, grid, is_uniform, resampling_matrix
+
+__all__ = [
+    "SUB_BLOCK",
+    "BatchPipeline",
+    "SpectraEvaluation",
+    "RenderResult",
+    "SpectralCube",
+    "open_cube",
+    "parse_wavelengths",
+    "sidecar_path",
+    "read_sidecar",
+    "write_sidecar",
+    "auto_chunk_bytes",
+    "rows_per_chunk",
+    "srgb_encode",
+    "to_srgb8",
+    "render_in_memory",
+    "render_dask",
+    "delta_e00_dask",
+]
+
+#: Rows (spectra) per block inside a chunk: keeps the colour maths in cache.
+SUB_BLOCK = 8192
+#: Rows per matrix product inside a block (the skinny product is fastest in cache).
+MATMUL_ROWS = 2048
+
+#: Largest chunk the automatic rule picks, bytes.
+MAX_AUTO_CHUNK = 128 * 2 ** 20
+#: Smallest chunk the automatic rule picks, bytes.
+MIN_AUTO_CHUNK = 4 * 2 ** 20
+
+
+# --------------------------------------------------------------------------
+# sRGB encoding
+# --------------------------------------------------------------------------
+
+
+def srgb_encode(linear) -> np.ndarray:
+    """sRGB transfer function (IEC 61966-2-1:1999) of linear values (...) in 0-1 → 0-1.
+
+    V = 12.92 L for L ≤ 0.0031308, else 1.055 L^(1/2.4) − 0.055. Values
+    outside 0-1 are not clipped here (see :func:`to_srgb8`).
+
+    >>> srgb_encode([0.0, 0.18, 1.0]).round(4).tolist()
+    [0.0, 0.4614, 1.0]
+    """
+    L = np.asarray(linear, dtype=float)
+    with np.errstate(invalid="ignore"):
+        hi = 1.055 * np.power(np.maximum(L, 0.0031308), 1 / 2.4) - 0.055
+    return np.where(L <= 0.0031308, 12.92 * L, hi)
+
+
+def to_srgb8(linear) -> np.ndarray:
+    """8-bit sRGB codes (uint8) of display-linear BT.709 RGB (..., 3), white = 1.
+
+    Clipped to 0-1, encoded by :func:`srgb_encode`, × 255 and rounded to the
+    nearest code; NaN becomes 0.
+    """
+    L = np.clip(np.nan_to_num(np.asarray(linear, dtype=float), nan=0.0), 0.0, 1.0)
+    return np.rint(srgb_encode(L) * 255.0).astype(np.uint8)
+
+
+# --------------------------------------------------------------------------
+# The pipeline: weights once, then blocks
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class SpectraEvaluation:
+    """Every quantity of the pipeline for a batch of spectra (leading shape ``...``).
+
+    ``raw_RGB`` (..., 3) Σ S R E Δλ; ``camera_RGB`` (..., 3) after white
+    balance (the white is 1, 1, 1); ``display_RGB`` (..., 3) display-linear
+    RGB of the camera's primaries after the matrix; ``camera_Lab`` and
+    ``true_Lab`` (..., 3) against the display white; ``true_XYZ`` (..., 3)
+    the adapted truth with the display white at Y = 100; ``delta_E00``
+    (...) CIEDE2000.
+    """
+
+    raw_RGB: np.ndarray
+    camera_RGB: np.ndarray
+    display_RGB: np.ndarray
+    camera_Lab: np.ndarray
+    true_XYZ: np.ndarray
+    true_Lab: np.ndarray
+    delta_E00: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
+class RenderBlock:
+    """What one block of spectra gives for a render (see :meth:`BatchPipeline.render_block`)."""
+
+    delta_E00: np.ndarray                 # (...) float64
+    truth_sRGB8: np.ndarray | None        # (..., 3) uint8
+    camera_sRGB8: np.ndarray | None       # (..., 3) uint8
+    clipped_truth: int
+    clipped_camera: int
+    nonfinite: int
+    first_nonfinite: int                  # flat index in the block, -1 if none
+    max_Y: float                          # largest truth Y / Y of the perfect diffuser
+
+
+class BatchPipeline:
+    """One camera under one light, ready to evaluate any number of reflectance spectra.
+
+    Parameters
+    ----------
+    camera : Camera
+        Sensitivities (3, n) on a uniform grid, matrix and display primaries.
+    illuminant : (n,) array_like
+        The scene light's relative SPD on the camera's grid (any scale: the
+        white balance and the truth normalise it).
+    illuminant_name : str, optional
+        Picks the camera's per-illuminant matrix when it has one by that name,
+        and labels the notes.
+    wavelengths : (m,) array_like, optional
+        The grid of the spectra to be evaluated (nm); default the camera's.
+        Another grid is resampled to the camera's (CIE 167:2005), folded
+        into the weights.
+    extrapolation : {'none', 'constant'}
+        For a data grid that does not cover the camera's.
+
+    Notes
+    -----
+    W = [Wᵀ_raw; Wᵀ_truth]ᵀ (m, 6) with, on the camera grid,
+    W_raw = diag(E) Sᵀ Δλ and W_truth = 100 diag(E) X̄ Aᵀ / (Eᵀȳ), A the
+    Bradford matrix from the light's white to the display white N·(1,1,1)
+    (then the resampling matrix Pᵀ on the left for another grid). The
+    camera's XYZ (display white Y = 100) is raw·Kᵀ with
+    K = 100 N M diag(1/raw_white).
+    """
+
+    def __init__(self, camera: Camera, illuminant, *, illuminant_name: str | None = None,
+                 wavelengths=None, extrapolation: str = "none"):
+        wl_c = check_wavelengths(camera.wavelengths, what="camera wavelengths")
+        if not is_uniform(wl_c):
+            raise WorkbenchError("the camera's wavelengths must be a uniform grid (summation)")
+        S = np.asarray(camera.sensitivities, dtype=float)
+        if S.shape != (3, wl_c.size):
+            raise WorkbenchError(f"camera sensitivities must be shaped (3, {wl_c.size}) (got {S.shape})")
+        E = np.asarray(illuminant, dtype=float)
+        if E.shape != (wl_c.size,):
+            raise WorkbenchError(f"illuminant must have {wl_c.size} values on the camera grid "
+                                 f"(got shape {E.shape})")
+        if not np.all(np.isfinite(E)) or np.any(E < 0) or not np.any(E > 0):
+            raise WorkbenchError("illuminant must be finite, ≥ 0 and not all zero")
+        step = float(wl_c[1] - wl_c[0])
+        cmfs = cmfs_on(wl_c, camera.observer).values                  # (n, 3)
+        N = camera.primaries.matrix_RGB_to_XYZ
+        display_white = N.sum(axis=1)                                   # Y = 1
+        M = np.asarray(camera.matrix_for(illuminant_name), dtype=float)
+        white_raw = E @ (S.T * step)                                    # (3,)
+        if np.any(white_raw <= 0):
+            raise WorkbenchError("a channel records nothing of the white under this light; "
+                                 "cannot white-balance")
+        XYZ_white = E @ cmfs
+        A = bradford_matrix(XYZ_white / XYZ_white[1], display_white)
+        W_raw = E[:, None] * (S.T * step)                               # (n, 3)
+        W_truth = (E[:, None] * cmfs / XYZ_white[1]) @ A.T * 100.0      # (n, 3)
+        notes = [
+            f"camera {camera.name}: summation at {step:g} nm over {wl_c[0]:g}-{wl_c[-1]:g} nm, "
+            f"{observer_label(camera.observer)}",
+            "white balance on the perfect diffuser under the scene light; matrix "
+            f"{camera.matrix_method}" + (f" for {illuminant_name}" if illuminant_name and
+                                         illuminant_name in dict(camera.per_illuminant) else ""),
+            f"truth adapted to the display white ({camera.primaries.white_name}) by the linear "
+            "Bradford transform; CIELAB against the display white; ΔE00 CIEDE2000 (CIE 142-2001)",
+        ]
+        if wavelengths is None:
+            wl = wl_c
+            P = None
+        else:
+            wl = check_wavelengths(wavelengths, what="data wavelengths")
+            if wl.size == wl_c.size and np.allclose(wl, wl_c, rtol=0, atol=1e-9):
+                wl = wl_c
+                P = None
+            else:
+                if extrapolation not in ("none", "constant"):
+                    raise WorkbenchError(f"extrapolation must be none or constant (got {extrapolation!r})")
+                P, used = resampling_matrix(wl, wl_c, extrapolation=extrapolation)  # (n_c, m)
+                notes.append(
+                    f"data on {_describe(wl)} resampled to the camera grid {_describe(wl_c)} by "
+                    + {"sprague": "Sprague interpolation", "cubic-spline": "not-a-knot cubic spline",
+                       "linear": "linear interpolation"}[used]
+                    + " (CIE 167:2005)"
+                    + (", extended with the end values" if extrapolation == "constant"
+                       and (wl[0] > wl_c[0] or wl[-1] < wl_c[-1]) else "")
+                )
+        W = np.concatenate([W_raw, W_truth], axis=1)
+        if P is not None:
+            W = P.T @ W
+        self.camera = camera
+        self.illuminant_name = illuminant_name
+        self.wavelengths = wl
+        self.camera_wavelengths = wl_c
+        self.illuminant = E
+        self.weights = np.ascontiguousarray(W)                          # (m, 6)
+        self.white_raw = white_raw
+        self.matrix = M
+        self.adaptation = A
+        self.matrix_RGB_to_XYZ = N
+        self.white_Lab = 100.0 * display_white
+        self.K = 100.0 * N @ M @ np.diag(1.0 / white_raw)               # raw → camera XYZ (Y_w = 100)
+        bt709 = primaries_named("ITU-R BT.709")
+        to_d65 = bradford_matrix(display_white, bt709.matrix_RGB_to_XYZ.sum(axis=1))
+        #: XYZ (display white Y = 100) → linear BT.709 for the images
+        self.XYZ_to_image = bt709.matrix_XYZ_to_RGB @ to_d65 / 100.0
+        self.notes = tuple(notes)
+
+    @property
+    def bands(self) -> int:
+        return int(self.wavelengths.size)
+
+    def _check(self, R) -> np.ndarray:
+        R = np.asarray(R)
+        if R.ndim == 0 or R.shape[-1] != self.bands:
+            raise WorkbenchError(f"spectra must have {self.bands} values on the last axis "
+                                 f"(got shape {R.shape})")
+        if R.dtype.kind != "f":
+            raise WorkbenchError(f"spectra must be float32 or float64 reflectance 0-1 (got {R.dtype})")
+        return R
+
+    # -- every quantity, in memory -------------------------------------------------
+    def evaluate(self, R) -> SpectraEvaluation:
+        """Every quantity of the pipeline for reflectances ``R`` (..., m), 0-1.
+
+        Returns
+        -------
+        SpectraEvaluation
+            Arrays with the leading shape of ``R``.
+        """
+        R = self._check(R)
+        X = np.asarray(R, dtype=float) @ self.weights
+        raw = X[..., :3]
+        C = raw / self.white_raw
+        display = C @ self.matrix.T
+        lab_c = XYZ_to_Lab(100.0 * display @ self.matrix_RGB_to_XYZ.T, self.white_Lab)
+        XYZ_t = X[..., 3:]
+        lab_t = XYZ_to_Lab(XYZ_t, self.white_Lab)
+        return SpectraEvaluation(raw, C, display, lab_c, XYZ_t, lab_t, delta_E_CIE2000(lab_c, lab_t))
+
+    # -- what a render needs, block by block ---------------------------------------
+    def render_block(self, R, *, images: bool = True, workers: int = 1) -> RenderBlock:
+        """ΔE00 (and 8-bit sRGB images) of reflectances ``R`` (..., m), 0-1.
+
+        Works through :data:`SUB_BLOCK` spectra at a time — one product with
+        :attr:`weights`, then CIELAB and ΔE00 — on ``workers`` threads
+        (numpy releases the GIL). Spectra with a non-finite value come out
+        as NaN and are counted.
+        """
+        R = self._check(R)
+        lead = R.shape[:-1]
+        flat = R.reshape(-1, self.bands)
+        m = flat.shape[0]
+        de = np.empty(m)
+        t8 = np.empty((m, 3), np.uint8) if images else None
+        c8 = np.empty((m, 3), np.uint8) if images else None
+        starts = range(0, m, SUB_BLOCK)
+        if workers > 1 and len(starts) > 1:
+            from concurrent.futures import ThreadPoolExecutor
+
+            per = -(-len(starts) // (4 * workers))          # a few tasks per worker
+            groups = [starts[i:i + per] for i in range(0, len(starts), per)]
+            with ThreadPoolExecutor(workers) as pool:
+                counts = list(pool.map(lambda g: [self._rows(flat, s, de, t8, c8) for s in g], groups))
+            counts = [c for g in counts for c in g]
+        else:
+            counts = [self._rows(flat, s, de, t8, c8) for s in starts]
+        first_bad = next((s + c[3] for s, c in zip(starts, counts) if c[3] >= 0), -1)
+        return RenderBlock(
+            de.reshape(lead),
+            None if t8 is None else t8.reshape(lead + (3,)),
+            None if c8 is None else c8.reshape(lead + (3,)),
+            sum(c[0] for c in counts), sum(c[1] for c in counts), sum(c[2] for c in counts),
+            first_bad, max((c[4] for c in counts), default=-math.inf),
+        )
+
+    def _rows(self, flat, s, de, t8, c8):
+        """Evaluate rows s … s + SUB_BLOCK of ``flat`` into the outputs; returns the counts."""
+        e = min(flat.shape[0], s + SUB_BLOCK)
+        clip = [0, 0]
+        X = np.empty((e - s, 6))
+        with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+            for q in range(s, e, MATMUL_ROWS):           # float32 rows are taken to float64
+                X[q - s:q - s + MATMUL_ROWS] = flat[q:min(e, q + MATMUL_ROWS)] @ self.weights
+            XYZ_t = X[:, 3:]
+            XYZ_c = X[:, :3] @ self.K.T
+            d = delta_E_CIE2000(XYZ_to_Lab(XYZ_c, self.white_Lab), XYZ_to_Lab(XYZ_t, self.white_Lab))
+            de[s:e] = d
+            # a NaN or ±inf anywhere in a spectrum reaches its ΔE00 as NaN (finite data give finite ΔE00)
+            finite = np.isfinite(d)
+            nb = int(finite.size - np.count_nonzero(finite))
+            first = int(np.argmin(finite)) if nb else -1
+            Y = XYZ_t[finite, 1] if nb else XYZ_t[:, 1]
+            max_Y = float(np.max(Y)) / 100.0 if Y.size else -math.inf
+            if t8 is not None:
+                for k, (XYZ, out) in enumerate(((XYZ_t, t8), (XYZ_c, c8))):
+                    lin = XYZ @ self.XYZ_to_image.T
+                    outside = ((lin < 0) | (lin > 1)).any(axis=1)
+                    clip[k] = int(np.count_nonzero(outside & finite if nb else outside))
+                    out[s:e] = to_srgb8(lin)
+        return clip[0], clip[1], nb, first, max_Y
+
+
+def _describe(wl: np.ndarray) -> str:
+    if is_uniform(wl):
+        return f"{wl[0]:g}-{wl[-1]:g} nm at {wl[1] - wl[0]:g} nm"
+    return f"{wl[0]:g}-{wl[-1]:g} nm ({wl.size} points, non-uniform)"
+
+
+# --------------------------------------------------------------------------
+# Results of a render
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class RenderResult:
+    """ΔE00 per pixel or spectrum and the display images of a whole cube.
+
+    ``delta_E00`` has the cube's leading shape (NaN where a spectrum had a
+    non-finite value); ``truth_sRGB8`` and ``camera_sRGB8`` (..., 3) uint8,
+    or None for a spectral set; ``clipped_*`` count pixels with a linear
+    BT.709 component outside 0-1 before clipping; ``max_Y`` the largest
+    truth Y relative to the perfect diffuser; ``chunks`` how many chunks
+    were evaluated.
+    """
+
+    delta_E00: np.ndarray
+    truth_sRGB8: np.ndarray | None
+    camera_sRGB8: np.ndarray | None
+    clipped_truth: int
+    clipped_camera: int
+    nonfinite: int
+    first_nonfinite: int
+    max_Y: float
+    chunks: int
+    seconds: float
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def count(self) -> int:
+        return int(self.delta_E00.size)
+
+    def stats(self) -> dict[str, float]:
+        """ΔE00 mean, p95 and max over the finite pixels (p95: linear interpolation, numpy default)."""
+        d = self.delta_E00.ravel()
+        if self.nonfinite:
+            d = d[np.isfinite(d)]
+        if d.size == 0:
+            return {"mean": math.nan, "p95": math.nan, "max": math.nan}
+        return {"mean": float(np.mean(d)), "p95": float(np.percentile(d, 95)), "max": float(np.max(d))}
+
+    def first_nonfinite_index(self) -> tuple[int, ...] | None:
+        """Index (in the cube's leading shape) of the first spectrum with a non-finite value."""
+        if self.first_nonfinite < 0:
+            return None
+        return tuple(int(i) for i in np.unravel_index(self.first_nonfinite, self.delta_E00.shape))
+
+
+def _combine(blocks: list[RenderBlock], offsets: list[int], images: bool, seconds: float,
+             notes) -> RenderResult:
+    first = -1
+    for b, off in zip(blocks, offsets):
+        if b.first_nonfinite >= 0:
+            first = off + b.first_nonfinite
+            break
+    cat = (lambda xs: xs[0] if len(xs) == 1 else np.concatenate(xs, axis=0))
+    return RenderResult(
+        cat([b.delta_E00 for b in blocks]),
+        cat([b.truth_sRGB8 for b in blocks]) if images else None,
+        cat([b.camera_sRGB8 for b in blocks]) if images else None,
+        sum(b.clipped_truth for b in blocks),
+        sum(b.clipped_camera for b in blocks),
+        sum(b.nonfinite for b in blocks),
+        first,
+        max((b.max_Y for b in blocks), default=-math.inf),
+        len(blocks),
+        seconds,
+        tuple(notes),
+    )
+
+
+def render_in_memory(pipeline: BatchPipeline, R, *, images: bool | None = None,
+                     workers: int | None = None) -> RenderResult:
+    """The render of a cube held in memory: ``R`` (h, w, m) image or (N, m) set, reflectance 0-1.
+
+    ``images`` defaults to True for a 3-D cube. One call of
+    :meth:`BatchPipeline.render_block` over the whole array on ``workers``
+    threads (default: every CPU).
+    """
+    R = pipeline._check(R)
+    images = (R.ndim == 3) if images is None else images
+    workers = workers or os.cpu_count() or 1
+    t0 = time.perf_counter()
+    b = pipeline.render_block(R, images=images, workers=workers)
+    return _combine([b], [0], images, time.perf_counter() - t0, pipeline.notes)
+
+
+# --------------------------------------------------------------------------
+# Out of core on Dask
+# --------------------------------------------------------------------------
+
+
+def _render_chunk(pipeline: BatchPipeline, block, images: bool) -> RenderBlock:
+    return pipeline.render_block(block, images=images)
+
+
+class _TaskBar:
+    """A dask local-scheduler callback that moves a tqdm bar on each finished chunk."""
+
+    def __init__(self, bar, prefix: str):
+        from dask.callbacks import Callback
+
+        outer = self
+
+        class _CB(Callback):
+            def _posttask(self, key, result, dsk, state, worker_id):
+                name = key[0] if isinstance(key, tuple) else key
+                if isinstance(name, str) and name.startswith(outer.prefix):
+                    outer.bar.update(1)
+
+        self.bar = bar
+        self.prefix = prefix
+        self.callback = _CB()
+
+
+def _progress_bar(total: int, enabled: bool, desc: str):
+    from tqdm.auto import tqdm
+    import sys
+
+    return tqdm(total=total, desc=desc, unit="chunk", disable=not enabled, file=sys.stderr,
+                leave=True, dynamic_ncols=True)
+
+
+def render_dask(pipeline: BatchPipeline, cube, *, images: bool | None = None, scheduler="threads",
+                progress: bool = True, desc: str = "rendering") -> RenderResult:
+    """The render of a dask array ``cube`` (h, w, m) or (N, m), one task per chunk.
+
+    Parameters
+    ----------
+    pipeline : BatchPipeline
+    cube : dask.array.Array
+        Chunked along the first axis only (every chunk holds whole spectra;
+        other axes are rechunked to one chunk when they are not).
+    images : bool, optional
+        Default True for a 3-D cube.
+    scheduler : 'threads', 'sync', a ``distributed.Client`` or a scheduler address
+        ``'threads'`` is dask's local threaded scheduler; a Client or an
+        address (``tcp://host:8786``) runs the same tasks on that cluster
+        (the cube's files must be readable by its workers).
+    progress : bool
+        A tqdm bar on stderr counting finished chunks.
+
+    Returns
+    -------
+    RenderResult
+        Equal to :func:`render_in_memory` on the same numbers (to rounding;
+        bit for bit in practice, the block function being the same).
+
+    Ctrl-C (KeyboardInterrupt) stops the work: futures on a cluster are
+    cancelled and the interrupt propagates; nothing is returned.
+    """
+    import dask
+    import dask.array as da
+
+    if not isinstance(cube, da.Array):
+        raise WorkbenchError("render_dask needs a dask.array (see SpectralCube.to_dask)")
+    if cube.ndim not in (2, 3) or cube.shape[-1] != pipeline.bands:
+        raise WorkbenchError(f"the cube must be (N, {pipeline.bands}) or (h, w, {pipeline.bands}) "
+                             f"(got shape {cube.shape})")
+    images = (cube.ndim == 3) if images is None else images
+    if any(len(c) > 1 for c in cube.chunks[1:]):
+        cube = cube.rechunk({i: -1 for i in range(1, cube.ndim)})
+    blocks = cube.to_delayed().ravel()
+    offsets = list(np.cumsum([0] + [c * int(np.prod(cube.shape[1:-1], dtype=int))
+                                    for c in cube.chunks[0]])[:-1])
+    prefix = f"render-chunk-{dask.base.tokenize(cube.name, images, id(pipeline))}"
+    p = dask.delayed(pipeline, name=f"pipeline-{prefix}", traverse=False)
+    tasks = [dask.delayed(_render_chunk, pure=True)(p, b, images, dask_key_name=f"{prefix}-{i}")
+             for i, b in enumerate(blocks)]
+    t0 = time.perf_counter()
+    bar = _progress_bar(len(tasks), progress, desc)
+    try:
+        client = _client_for(scheduler)
+        if client is None:
+            tb = _TaskBar(bar, prefix)
+            with tb.callback:
+                results = list(dask.compute(*tasks, scheduler=scheduler, optimize_graph=True))
+        else:
+            from distributed import as_completed
+
+            futures = client.compute(tasks)
+            try:
+                with client.as_current():
+                    for _ in as_completed(futures):
+                        bar.update(1)
+                results = client.gather(futures)
+            except BaseException:
+                client.cancel(futures)
+                raise
+            finally:
+                if client is not scheduler:
+                    client.close()
+    finally:
+        bar.close()
+    return _combine(results, offsets, images, time.perf_counter() - t0, pipeline.notes)
+
+
+def _client_for(scheduler):
+    """None for a local scheduler name, else a distributed Client (made from an address)."""
+    if scheduler in ("threads", "sync", "synchronous", "single-threaded"):
+        return None
+    try:
+        from distributed import Client
+    except ImportError:  # pragma: no cover
+        raise WorkbenchError("a cluster scheduler needs the 'distributed' package") from None
+    if isinstance(scheduler, Client):
+        return scheduler
+    if isinstance(scheduler, str):
+        try:
+            return Client(scheduler, timeout=10, set_as_default=False)
+        except (OSError, TimeoutError) as err:
+            raise WorkbenchError(f"--scheduler: cannot reach the dask scheduler at {scheduler!r} "
+                                 f"({err})") from None
+    raise WorkbenchError(f"scheduler must be 'threads', a distributed Client or an address "
+                         f"(got {scheduler!r})")
+
+
+def delta_e00_dask(pipeline: BatchPipeline, cube):
+    """ΔE00 of every spectrum of a dask array ``cube`` (..., m) as a lazy dask array (...).
+
+    The same block function as the render, chunk by chunk
+    (``dask.array.map_blocks``); compute it on any scheduler.
+    """
+    import dask.array as da
+
+    if cube.shape[-1] != pipeline.bands:
+        raise WorkbenchError(f"the cube must have {pipeline.bands} bands on the last axis "
+                             f"(got shape {cube.shape})")
+    if len(cube.chunks[-1]) > 1:
+        cube = cube.rechunk({cube.ndim - 1: -1})
+    return da.map_blocks(lambda b: pipeline.render_block(b, images=False).delta_E00, cube,
+                         drop_axis=cube.ndim - 1, dtype=float)
+
+
+# --------------------------------------------------------------------------
+# Chunk sizes
+# --------------------------------------------------------------------------
+
+
+def auto_chunk_bytes(workers: int | None = None, *, available: int | None = None,
+                     total: int | None = None) -> int:
+    """A chunk size (bytes) from the memory available now (psutil) and the cube's size.
+
+    available / (8 · workers), within 4-128 MiB: each worker holds its chunk
+    plus float64 blocks and results, and the scheduler may read one chunk
+    ahead per worker; the rest is headroom. With the cube's size ``total``
+    (bytes) the chunk is also kept to total / (4 · workers) (but not below
+    4 MiB), so that every worker gets several chunks.
+    """
+    if available is None:
+        import psutil
+
+        available = int(psutil.virtual_memory().available)
+    workers = workers or os.cpu_count() or 1
+    size = min(MAX_AUTO_CHUNK, available // (8 * workers))
+    if total is not None:
+        size = min(size, -(-int(total) // (4 * workers)))
+    return int(max(MIN_AUTO_CHUNK, size))
+
+
+def rows_per_chunk(shape, itemsize: int, chunk_bytes: int) -> int:
+    """Rows of the first axis per chunk so that a chunk is at most ``chunk_bytes`` (at least 1 row).
+
+    For spectral sets larger than a :data:`SUB_BLOCK`, the row count is
+    rounded down to a whole number of blocks, so that the chunks' blocks
+    fall where the in-memory path's do.
+    """
+    row = int(np.prod(shape[1:], dtype=np.int64)) * int(itemsize)
+    rows = max(1, int(chunk_bytes) // max(row, 1))
+    if len(shape) == 2 and rows > SUB_BLOCK:
+        rows -= rows % SUB_BLOCK
+    return int(min(rows, shape[0])) if shape[0] else 1
+
+
+# --------------------------------------------------------------------------
+# Cubes on disk: .npy and Zarr, wavelengths from the option or a sidecar
+# --------------------------------------------------------------------------
+
+
+def parse_wavelengths(text: str, *, option: str = "--wavelengths") -> np.ndarray:
+    """The grid ``START:STOP:STEP`` (nm, STOP included), e.g. ``380:780:5`` → 81 points."""
+    parts = str(text).split(":")
+    try:
+        if len(parts) != 3:
+            raise ValueError
+        start, stop, step = (float(p) for p in parts)
+        if not all(math.isfinite(v) for v in (start, stop, step)):
+            raise ValueError
+    except ValueError:
+        raise WorkbenchError(f"{option} must be START:STOP:STEP in nm, e.g. 380:780:5 (got {text!r})") from None
+    try:
+        return grid(start, stop, step)
+    except WorkbenchError as err:
+        raise WorkbenchError(f"{option} {text!r}: {err}") from None
+
+
+def sidecar_path(cube) -> Path:
+    """The sidecar JSON of a cube: the same name with ``.json`` (``scene.npy`` → ``scene.json``)."""
+    p = Path(cube)
+    return p.with_name(p.name[: -len(p.suffix)] + ".json") if p.suffix else p.with_name(p.name + ".json")
+
+
+def read_sidecar(path) -> tuple[np.ndarray, dict]:
+    """Wavelengths (nm) and the whole JSON object of a sidecar file.
+
+    The file holds an object with ``"wavelengths_nm"``: a list of numbers
+    (strictly increasing) or ``{"start": …, "stop": …, "step": …}``. Other
+    keys (``"quantity"``, ``"description"`` …) are kept for the report.
+    """
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputFileError("no such sidecar file; give the wavelengths with "
+                             "--wavelengths START:STOP:STEP or write this JSON file", str(p)) from None
+    except OSError as err:
+        raise InputFileError(f"cannot read: {err.strerror or err}", str(p)) from None
+    try:
+        data = json.loads(text)
+    except json.JSONDecodeError as err:
+        raise InputFileError(f"not valid JSON ({err.msg})", str(p), line=err.lineno) from None
+    if not isinstance(data, dict) or "wavelengths_nm" not in data:
+        raise InputFileError("expected a JSON object with the key 'wavelengths_nm'", str(p))
+    v = data["wavelengths_nm"]
+    try:
+        if isinstance(v, dict):
+            missing = [k for k in ("start", "stop", "step") if k not in v]
+            if missing:
+                raise WorkbenchError(f"'wavelengths_nm' needs start, stop and step (missing {', '.join(missing)})")
+            nums = [v[k] for k in ("start", "stop", "step")]
+            if not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in nums):
+                raise WorkbenchError("'wavelengths_nm' start, stop and step must be numbers in nm")
+            wl = grid(*(float(x) for x in nums))
+        elif isinstance(v, list):
+            if not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in v):
+                raise WorkbenchError("'wavelengths_nm' must be a list of numbers in nm")
+            wl = check_wavelengths(np.array(v, dtype=float), what="'wavelengths_nm'")
+        else:
+            raise WorkbenchError("'wavelengths_nm' must be a list of numbers or {start, stop, step} in nm")
+    except WorkbenchError as err:
+        raise InputFileError(str(err), str(p)) from None
+    return wl, data
+
+
+def write_sidecar(path, wavelengths, **extra) -> None:
+    """Write a sidecar JSON (atomically) with ``wavelengths_nm`` as a list and any extra keys."""
+    from workbench.fileio.atomic import write_text_atomically
+
+    wl = check_wavelengths(wavelengths)
+    data = {"wavelengths_nm": [float(x) if x != int(x) else int(x) for x in wl], **extra}
+    write_text_atomically(path, json.dumps(data, indent=1, ensure_ascii=False) + "\n")
+
+
+class _NpyChunks:
+    """Array-like view of a C-ordered ``.npy`` file for ``dask.array.from_array``.
+
+    Each ``__getitem__`` memory-maps the file (``np.load(mmap_mode='r')``)
+    and returns the asked block as a view of that map, which is dropped
+    with the block once its chunk is evaluated: only the chunks in flight
+    are resident (as file pages, no copy). It pickles as its path, so
+    cluster workers open the file themselves.
+    """
+
+    def __init__(self, path: str, shape, dtype):
+        self.path = path
+        self.shape = tuple(shape)
+        self.dtype = np.dtype(dtype)
+        self.ndim = len(self.shape)
+
+    def __getitem__(self, key):
+        return np.load(self.path, mmap_mode="r")[key]
+
+
+@dataclass(frozen=True, eq=False)
+class SpectralCube:
+    """A spectral image (h, w, bands) or set (N, bands) on disk, reflectance 0-1.
+
+    ``format`` is ``'npy'`` or ``'zarr'``; ``wavelengths`` (bands,) in nm
+    and ``wavelengths_from`` say where they came from.
+    """
+
+    path: str
+    format: str
+    shape: tuple[int, ...]
+    dtype: np.dtype
+    wavelengths: np.ndarray
+    wavelengths_from: str
+    sidecar: dict = field(default_factory=dict)
+
+    @property
+    def layout(self) -> str:
+        return "image" if len(self.shape) == 3 else "set"
+
+    @property
+    def pixels(self) -> int:
+        return int(np.prod(self.shape[:-1], dtype=np.int64))
+
+    @property
+    def nbytes(self) -> int:
+        return self.pixels * self.shape[-1] * self.dtype.itemsize
+
+    def to_numpy(self) -> np.ndarray:
+        """The whole cube in memory."""
+        if self.format == "npy":
+            return np.load(self.path)
+        import zarr
+
+        return np.asarray(zarr.open_array(self.path, mode="r")[...])
+
+    def to_dask(self, chunk_bytes: int):
+        """The cube as a dask array chunked along its first axis; returns ``(array, rows per chunk)``.
+
+        Rows per chunk by :func:`rows_per_chunk`; for Zarr, rounded down to
+        whole Zarr chunks along the first axis when a chunk holds more than one.
+        """
+        import dask.array as da
+
+        rows = rows_per_chunk(self.shape, self.dtype.itemsize, chunk_bytes)
+        chunks = (rows,) + self.shape[1:]
+        if self.format == "npy":
+            st = os.stat(self.path)
+            name = "cube-" + _token(self.path, st.st_size, st.st_mtime_ns, rows)
+            arr = da.from_array(_NpyChunks(self.path, self.shape, self.dtype), chunks=chunks,
+                                name=name, asarray=False, fancy=False, meta=np.empty((0,) * len(self.shape), self.dtype))
+        else:
+            import zarr
+
+            zc = int(zarr.open_array(self.path, mode="r").chunks[0])
+            if rows > zc:                       # whole Zarr chunks per dask chunk
+                rows -= rows % zc
+            chunks = (rows,) + self.shape[1:]
+            arr = da.from_zarr(self.path, chunks=chunks)
+        return arr, rows
+
+
+def _token(*parts) -> str:
+    import hashlib
+
+    return hashlib.sha1(repr(parts).encode()).hexdigest()[:16]
+
+
+def open_cube(path, *, wavelengths=None, option: str = "--wavelengths") -> SpectralCube:
+    """Open a cube (``.npy`` file or Zarr array directory) and find its wavelengths.
+
+    Parameters
+    ----------
+    path : path-like
+        A ``.npy`` file (C order, float32 or float64) or a Zarr array
+        (``.zarr`` directory); spectra on the last axis; 2-D (N, bands) or
+        3-D (h, w, bands).
+    wavelengths : str or (bands,) array_like, optional
+        ``START:STOP:STEP`` in nm or an array; otherwise the sidecar JSON
+        (:func:`sidecar_path`) is read.
+
+    Raises
+    ------
+    InputFileError
+        Naming the file (or the option) and what was expected.
+    """
+    p = Path(path)
+    if not p.exists():
+        raise InputFileError("no such file or directory", str(p))
+    if p.is_dir() or p.suffix.lower() == ".zarr":
+        fmt = "zarr"
+        try:
+            import zarr
+
+            z = zarr.open_array(str(p), mode="r")
+        except Exception as err:  # zarr raises several kinds for a non-array folder
+            raise InputFileError(f"expected a Zarr array (got {type(err).__name__}: {err})", str(p)) from None
+        shape, dtype = tuple(z.shape), np.dtype(z.dtype)
+    elif p.suffix.lower() == ".npy":
+        fmt = "npy"
+        try:
+            mm = np.load(p, mmap_mode="r")
+        except (ValueError, OSError, EOFError) as err:
+            raise InputFileError(f"expected a NumPy .npy array ({err})", str(p)) from None
+        if not isinstance(mm, np.ndarray):
+            raise InputFileError("expected a NumPy .npy array", str(p))
+        shape, dtype = tuple(mm.shape), mm.dtype
+        fortran = bool(mm.flags.f_contiguous and not mm.flags.c_contiguous)
+        del mm
+        if fortran:
+            raise InputFileError("expected a C-ordered array (got Fortran order); save it with "
+                                 "np.save(path, np.ascontiguousarray(a))", str(p))
+    else:
+        raise InputFileError("expected a .npy file or a .zarr array directory", str(p))
+    if dtype.kind != "f" or dtype.itemsize not in (4, 8):
+        raise InputFileError(f"expected float32 or float64 reflectance 0-1 (got {dtype})", str(p))
+    if len(shape) not in (2, 3):
+        raise InputFileError(f"expected a spectral set (N, bands) or image (height, width, bands) "
+                             f"(got shape {shape})", str(p))
+    if 0 in shape:
+        raise InputFileError(f"the cube is empty (shape {shape})", str(p))
+    sidecar: dict = {}
+    if wavelengths is None:
+        sc = sidecar_path(p)
+        wl, sidecar = read_sidecar(sc)
+        source = f"sidecar {sc}"
+    elif isinstance(wavelengths, str):
+        wl = parse_wavelengths(wavelengths, option=option)
+        source = f"{option} {wavelengths}"
+    else:
+        wl = check_wavelengths(wavelengths)
+        source = "given"
+    if wl.size != shape[-1]:
+        where = source.split(" ", 1)[1] if source.startswith("sidecar") else option
+        raise InputFileError(f"{shape[-1]} bands on the last axis but {where} gives {wl.size} "
+                             f"wavelengths ({_describe(wl)})", str(p))
+    return SpectralCube(str(p), fmt, shape, dtype, wl, source, sidecar)

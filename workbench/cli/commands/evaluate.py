@@ -1,0 +1,144 @@
+"""``workbench evaluate DESIGN.toml``: the channel sensitivities and measures of a design as it stands.
+
+Prints, per channel, the peak wavelength, the 50 % points and the area of
+the sensitivity curve, and the Vora value of the three channels against the
+design's observer (recording and viewing illuminants from the design's
+``[fit]``, equal energy when not given). ``--sensitivities OUT.csv`` writes
+the three curves.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from workbench.colorimetry.cie import cmfs_on, observer_label
+from workbench.model.design import CHANNELS, load_design
+from workbench.analysis.measures import neugebauer_q, vora_value
+from workbench.cli.commands._output import notice, render_rows, to_json
+
+NAME = "evaluate"
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        NAME,
+        help="channel sensitivities and Vora value of a design file",
+        description=__doc__.splitlines()[0],
+    )
+    p.add_argument("design", metavar="DESIGN.toml", help="design file (docs/design-file.md)")
+    p.add_argument("--format", choices=("json", "table"), default="table",
+                   help="output format on stdout (default table)")
+    p.add_argument("--sensitivities", metavar="OUT.csv",
+                   help="also write the R, G, B sensitivities as a wide CSV")
+    p.set_defaults(run=run)
+
+
+def curve_summary(wl: np.ndarray, s: np.ndarray) -> dict:
+    """Peak, 50 % points and area of one sensitivity curve ``s`` (n,) on ``wl`` (nm).
+
+    The peak is the grid point of the maximum; the 50 % points are where the
+    curve first rises to and last falls from half its maximum, by linear
+    interpolation between grid points (None when the curve starts or ends
+    above half); the area is the trapezoidal integral ∫ s dλ.
+    """
+    i = int(np.argmax(s))
+    half = 0.5 * s[i]
+    above = s >= half
+    lo = hi = None
+    first = int(np.argmax(above))
+    last = int(s.size - 1 - np.argmax(above[::-1]))
+    if first > 0:
+        a, b = s[first - 1], s[first]
+        lo = float(wl[first - 1] + (half - a) / (b - a) * (wl[first] - wl[first - 1]))
+    if last < s.size - 1:
+        a, b = s[last], s[last + 1]
+        hi = float(wl[last] + (a - half) / (a - b) * (wl[last + 1] - wl[last]))
+    return {
+        "peak_nm": float(wl[i]),
+        "peak_value": float(s[i]),
+        "half_max_low_nm": lo,
+        "half_max_high_nm": hi,
+        "area": float(np.trapezoid(s, wl)),
+    }
+
+
+def evaluate(design) -> dict:
+    """The summary that ``workbench evaluate`` prints, as a dict."""
+    from workbench.analysis.fitting import DesignEvaluator
+
+    ev = DesignEvaluator(design)
+    m = ev.measures(use_stored_matrix=design.matrix is not None)
+    model = ev.model
+    sens = model.channel_sensitivities()
+    wl = sens.wavelengths
+    S = sens.values.T
+    X = cmfs_on(wl, design.observer)
+    rec_label, rec, rec_notes = design.illuminant_values(design.fit.recording_illuminant)
+    view_label, view, view_notes = design.illuminant_values(design.fit.viewing_illuminant)
+    nu = vora_value(S, X.values, rec, view)
+    q = neugebauer_q(S, X.values, rec, view)
+    return {
+        "design": design.name,
+        "file": design.source,
+        "grid": sens.describe_grid(),
+        "observer": observer_label(design.observer),
+        "sensitivity_units": sens.units,
+        "channels": {
+            ch: {**curve_summary(wl, sens[ch]), "neugebauer_q": float(q[k])}
+            for k, ch in enumerate(CHANNELS)
+        },
+        "vora_value": float(nu),
+        **{k: v for k, v in m.summary().items() if k not in ("vora_value", "neugebauer_q")},
+        "method": {
+            "sensitivities": "product of the element curves along each path of the chain",
+            "peak_nm": "grid point of the maximum, nm",
+            "half_max_nm": "50 % of the peak, linear interpolation between grid points, nm",
+            "area": f"trapezoidal integral of the sensitivity over the grid, {sens.units}·nm",
+            "vora_value": "Tr(P_A P_M)/3 with QR projectors (Vora & Trussell 1993), 0-1",
+            "neugebauer_q": "|P_A m|^2/|m|^2 per channel (Neugebauer 1956), 0-1",
+            "recording_illuminant": rec_label,
+            "viewing_illuminant": view_label,
+            **{k: v for k, v in m.methods.items()
+               if k not in ("vora_value", "neugebauer_q", "recording_illuminant", "viewing_illuminant")},
+        },
+        "notes": list(dict.fromkeys(list(sens.notes) + list(rec_notes) + list(view_notes) + list(ev.notes))),
+    }
+
+
+def run(args) -> int:
+    design = load_design(args.design)
+    result = evaluate(design)
+    for n in result["notes"]:
+        notice(n)
+    if args.sensitivities:
+        from workbench.fileio.spectra_csv import write_spectra_csv
+
+        write_spectra_csv(design.channel_sensitivities(), args.sensitivities)
+        notice(f"wrote the R, G, B sensitivities to {args.sensitivities}")
+    if args.format == "json":
+        out = dict(result)
+        out.pop("notes")
+        print(to_json(out))
+        return 0
+    rows = [
+        {"channel": ch, **{k: v for k, v in c.items() if k != "peak_value"}}
+        for ch, c in result["channels"].items()
+    ]
+    m = result["method"]
+    header = [
+        f"design: {result['design']} ({result['file']})",
+        f"grid {result['grid']}; observer {result['observer']}",
+        f"Vora value {result['vora_value']:.4f} ({m['vora_value']}; recording "
+        f"{m['recording_illuminant']}, viewing {m['viewing_illuminant']})",
+        f"peak, half_max_low, half_max_high in nm; area in {result['sensitivity_units']}·nm",
+    ]
+    print(render_rows(rows, ["channel", "peak_nm", "half_max_low_nm", "half_max_high_nm", "area",
+                             "neugebauer_q"], "table", header_lines=header))
+    print()
+    de = [{"illuminant": ill, **s} for ill, s in result["delta_E00"].items()]
+    print(render_rows(de, ["illuminant", "mean", "median", "p95", "max"], "table", header_lines=[
+        f"ΔE00 over the design's samples: {m['delta_E00']}",
+        f"matrix: {m['matrix']}; Luther residual {result['luther_residual']:.4f}; "
+        f"{m['smi']}: {result['smi']['smi']:.1f}",
+    ]))
+    return 0

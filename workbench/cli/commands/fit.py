@@ -1,0 +1,142 @@
+"""``workbench fit DESIGN.toml --out DIR``: fit a design's free parameters and its matrix.
+
+Writes into DIR (created if needed; each file replaced atomically):
+
+- ``design.toml`` — the fitted design with its colour-correction matrix in
+  ``[matrix]``, loadable by every command;
+- ``sensitivities.csv`` — the fitted R, G, B channel sensitivities;
+- ``matrix.csv`` — the matrix (rows: display R, G, B; columns: balanced
+  camera R, G, B), one block per illuminant for a per-illuminant matrix;
+- ``metrics.json`` — ``vora_value``, ``neugebauer_q`` (R, G, B),
+  ``delta_E00`` {illuminant: {mean, median, p95, max}}, the other measures,
+  before and after, the parameters with their bounds, status and methods;
+- ``report.html`` — a self-contained report with the figures.
+
+Exit status: 0 when the fit converged, 1 when it did not converge or was
+interrupted (the best point found is still written and the report says
+so), 2 for bad input.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+from pathlib import Path
+
+from workbench.model.design import CHANNELS, GLOBAL_STARTS, load_design
+from workbench.errors import WorkbenchError
+from workbench.cli.commands._output import atomic_write_text, notice, render_rows, to_json
+
+NAME = "fit"
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        NAME,
+        help="fit a design's free parameters and colour-correction matrix; write the results",
+        description=__doc__.splitlines()[0],
+    )
+    p.add_argument("design", metavar="DESIGN.toml", help="design file (docs/design-file.md)")
+    p.add_argument("--out", metavar="DIR", required=True, type=Path,
+                   help="folder for design.toml, sensitivities.csv, matrix.csv, metrics.json, report.html")
+    p.add_argument("--global-start", choices=GLOBAL_STARTS, default=None,
+                   help="global search before the local fit (default: the design's [fit] global_start)")
+    p.add_argument("--seed", type=int, default=None, help="seed of the global search (default: the design's)")
+    p.add_argument("--max-evaluations", type=int, default=None, metavar="N",
+                   help="evaluation budget (default: the design's [fit] max_evaluations)")
+    p.add_argument("--no-report", action="store_true", help="skip report.html")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(run=run)
+
+
+def matrix_csv(measures) -> str:
+    """The matrix as CSV: illuminant, output channel, then the three coefficients."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["illuminant", "display_channel", "camera_R", "camera_G", "camera_B"])
+    blocks = ([("all", 0)] if measures.matrix_scope == "shared"
+              else [(ill, j) for j, ill in enumerate(measures.illuminants)])
+    for ill, j in blocks:
+        for i, ch in enumerate(CHANNELS):
+            w.writerow([ill, ch] + [repr(float(v)) for v in measures.matrices[j, i]])
+    return buf.getvalue()
+
+
+def metrics(result) -> dict:
+    """The metrics.json object."""
+    d = result.to_dict()
+    a = d["after"]
+    out = {
+        "design": d["design"],
+        "status": d["status"],
+        "message": d["message"],
+        "vora_value": a["vora_value"],
+        "neugebauer_q": a["neugebauer_q"],
+        "luther_residual": a["luther_residual"],
+        "delta_E00": {ill: {k: v for k, v in s.items()} for ill, s in a["delta_E00"].items()},
+        "smi": a["smi"],
+        "noise": a["noise"],
+        "matrix": a["matrix"],
+        "white_balance_gains": a["white_balance_gains"],
+        "before": d["before"],
+        "objective": d["objective"],
+        "cost_before": d["cost_before"],
+        "cost_after": d["cost_after"],
+        "evaluations": d["evaluations"],
+        "seconds": d["seconds"],
+        "global_start": d["global_start"],
+        "seed": d["seed"],
+        "parameters": d["parameters"],
+        "parameters_at_bounds": d["parameters_at_bounds"],
+        "methods": d["methods"],
+    }
+    return out
+
+
+def run(args) -> int:
+    from workbench.analysis.fitting import fit_design
+    from workbench.fileio.spectra_csv import write_spectra_csv
+
+    design = load_design(args.design)
+    if args.max_evaluations is not None and args.max_evaluations < 10:
+        raise WorkbenchError(f"--max-evaluations: expected a whole number >= 10 (got {args.max_evaluations})")
+    out: Path = args.out
+    if out.exists() and not out.is_dir():
+        raise WorkbenchError(f"--out {out}: expected a folder, found a file")
+    result = fit_design(design, progress=not args.quiet, global_start=args.global_start,
+                        seed=args.seed, max_evaluations=args.max_evaluations)
+    for n in result.notes:
+        notice(n)
+    out.mkdir(parents=True, exist_ok=True)
+    result.design.save(out / "design.toml")
+    sens = result.design.channel_sensitivities()
+    write_spectra_csv(sens, out / "sensitivities.csv")
+    atomic_write_text(out / "matrix.csv", matrix_csv(result.after))
+    atomic_write_text(out / "metrics.json", to_json(metrics(result)) + "\n")
+    if not args.no_report:
+        from workbench.report.fit_report import write_fit_report
+
+        write_fit_report(result, out / "report.html")
+    b, a = result.before, result.after
+    header = [
+        f"design: {design.name} ({design.source})",
+        f"fit: {result.status} — {result.message}; objective {result.objective}; "
+        f"{result.evaluations} evaluations, {result.seconds:.2f} s",
+        f"Vora value {b.vora_value:.4f} → {a.vora_value:.4f} ({a.methods['vora_value']})",
+        "Neugebauer q R/G/B " + " / ".join(f"{v:.4f}" for v in a.neugebauer_q),
+        f"matrix: {a.matrix_method}, {a.matrix_scope}; ΔE00 = CIEDE2000 after white balance and matrix",
+    ]
+    rows = [{"illuminant": ill, "mean_before": b.delta_E00[ill]["mean"], "mean": a.delta_E00[ill]["mean"],
+             "median": a.delta_E00[ill]["median"], "p95": a.delta_E00[ill]["p95"], "max": a.delta_E00[ill]["max"]}
+            for ill in a.illuminants]
+    print(render_rows(rows, ["illuminant", "mean_before", "mean", "median", "p95", "max"], "table",
+                      header_lines=header))
+    at = [p["name"] for p in result.parameters if p["at_bound"]]
+    if at:
+        notice("parameters at a bound: " + ", ".join(at))
+    notice(f"wrote design.toml, sensitivities.csv, matrix.csv, metrics.json"
+           f"{'' if args.no_report else ', report.html'} to {out}")
+    if not result.converged:
+        notice(f"the fit did not converge ({result.status}: {result.message}); exit status 1")
+        return 1
+    return 0

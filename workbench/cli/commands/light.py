@@ -1,0 +1,202 @@
+"""``workbench light SPD.csv``: the published indices of a light, its camera fidelity index, two fixtures compared.
+
+Prints CCT and Duv (Ohno 2013), CIE 13.3 Ra and R1-R14, CIE 224:2017 Rf,
+ANSI/IES TM-30-18 Rg, the Academy SSI and, for absolute SPDs, the
+illuminance, each with its method. ``--camera DESIGN.toml|SENS.csv`` adds
+the camera fidelity index (the camera's renderings under the light and
+under the reference illuminant at the same CCT, ΔE00 per sample, scored
+with the EBU Tech 3355 formula on open samples) and the ΔE00 of every
+sample; ``--compare SPD2.csv`` compares a second fixture to the eye and on
+that camera. Not a photobiological safety assessment (IEC 62471).
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from workbench.errors import InputFileError, WorkbenchError
+from workbench.cli.commands._output import notice, to_json
+
+NAME = "light"
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        NAME,
+        help="indices of a light source, its camera fidelity index, two fixtures compared",
+        description=__doc__.splitlines()[0],
+    )
+    p.add_argument("spd", metavar="SPD.csv", help="the light's spectral power distribution (CSV, one spectrum)")
+    p.add_argument("--format", choices=("table", "json"), default="table",
+                   help="output format on stdout (default table)")
+    p.add_argument("--spectrum", metavar="NAME", help="which spectrum, when the file holds several")
+    p.add_argument("--camera", metavar="DESIGN.toml|SENS.csv",
+                   help="a camera: a design file, or a CSV of three sensitivities R, G, B")
+    p.add_argument("--primaries", metavar="NAME", default="ITU-R BT.709",
+                   help="display primaries the matrix of a sensitivity CSV is fitted to (default ITU-R BT.709; "
+                        "a design file brings its own)")
+    p.add_argument("--compare", metavar="SPD2.csv", help="a second light to compare with (light B)")
+    p.add_argument("--compare-spectrum", metavar="NAME", help="which spectrum of SPD2.csv")
+    p.add_argument("--ssi-reference", metavar="auto|NAME|FILE.csv", default="auto",
+                   help="reference of the Academy SSI: auto (Planckian below 4000 K, CIE daylight above, at "
+                        "the light's CCT), a CIE illuminant name (D65, D50, A, ...) or an SPD file")
+    p.add_argument("--extrapolate", choices=("none", "constant"), default="none",
+                   help="extend SPDs not covering 380-780 nm with their end values (CIE 167); "
+                        "by default they are refused")
+    p.add_argument("--match", type=float, default=None, metavar="ΔE00",
+                   help="mean ΔE00 at or below which two fixtures match (default 1.0)")
+    p.add_argument("--differ", type=float, default=None, metavar="ΔE00",
+                   help="mean ΔE00 at or above which two fixtures differ (default 2.0)")
+    p.add_argument("--figures", metavar="DIR", help="also write the figures as PNG files into DIR")
+    p.set_defaults(run=run)
+
+
+def _ssi_reference(text: str):
+    from workbench.analysis.light import read_light
+
+    t = text.strip()
+    if t.lower() == "auto":
+        return "auto"
+    if t.lower().endswith((".csv", ".txt", ".tsv")) or os.sep in t or Path(t).exists():
+        return read_light(t)
+    return t
+
+
+def _load_camera(path: str, primaries: str):
+    from workbench.analysis.fitting import load_camera
+
+    p = Path(path)
+    if not p.exists():
+        raise InputFileError("cannot read: No such file or directory", str(path))
+    if p.suffix.lower() == ".toml":
+        if primaries != "ITU-R BT.709":
+            notice(f"--primaries {primaries} ignored: the design file {path} gives its own display primaries")
+        return load_camera(p)
+    return load_camera(p, primaries=primaries)
+
+
+def _write_png(fig, path: Path) -> None:
+    """Save a figure as PNG through a temporary file and a rename (atomic)."""
+    from workbench.fileio.atomic import write_atomically
+
+    write_atomically(path, lambda fh: fig.savefig(fh, format="png", dpi=110))
+
+
+def write_figures(report, directory) -> list[Path]:
+    """Write the report's figures as PNG files into ``directory`` (created if missing); returns the paths."""
+    from workbench.plots import light as lp
+
+    d = Path(directory)
+    try:
+        d.mkdir(parents=True, exist_ok=True)
+    except OSError as err:
+        raise InputFileError(f"cannot create the folder: {err.strerror or err}", str(d)) from None
+    figs = {"light-spd.png": lp.plot_light_spd(report.indices)}
+    if report.indices.R is not None:
+        figs["light-special-indices.png"] = lp.plot_special_indices(report.indices)
+    if report.camera is not None:
+        figs["camera-delta-e00.png"] = lp.plot_camera_delta_e(report.camera)
+        figs["camera-shifts-uv.png"] = lp.plot_camera_shifts(report.camera)
+    if report.comparison is not None:
+        for mode in report.comparison.modes:
+            figs[f"compare-{mode}.png"] = lp.plot_comparison(report.comparison, mode=mode)
+    out = []
+    for name, fig in figs.items():
+        _write_png(fig, d / name)
+        out.append(d / name)
+    return out
+
+
+def _cell(v) -> str:
+    from workbench.analysis.light import _fmt
+
+    return _fmt(v)
+
+
+def _aligned(rows: list[dict], columns: list[str], right=("value",), header_lines=()) -> str:
+    """Rows as text columns: numbers right-aligned, words left-aligned, the last column unpadded."""
+    table = [columns] + [[str(r.get(c, "")) for c in columns] for r in rows]
+    widths = [max(len(row[i]) for row in table) for i in range(len(columns))]
+    lines = list(header_lines)
+    for row in table:
+        cells = [c.rjust(w) if columns[i] in right else c.ljust(w)
+                 for i, (c, w) in enumerate(zip(row, widths))]
+        cells[-1] = row[-1]
+        lines.append("  ".join(cells).rstrip())
+    return "\n".join(lines)
+
+
+def _table(report) -> str:
+    ind = report.indices
+    lines = [
+        f"caution: {report.caution}",
+        f"light: {ind.name} ({ind.source or 'in memory'}); grid {ind.spd.describe_grid()}; "
+        f"units {ind.spd.units}",
+    ]
+    lines += [f"warning: {w}" for w in ind.warnings]
+    from workbench.analysis.light import report_rows
+
+    rows = [{**r, "value": _cell(r["value"])} for r in report_rows(report)]
+    out = [_aligned(rows, ["quantity", "value", "unit", "method"], header_lines=lines)]
+    if report.camera is not None:
+        c = report.camera
+        worst = sorted(zip(c.sample_names, c.delta_E00, c.sample_sets), key=lambda t: -t[1])[:10]
+        out.append("")
+        out.append(_aligned(
+            [{"sample": n, "set": s, "delta_E00": f"{d:.2f}"} for n, d, s in worst],
+            ["sample", "set", "delta_E00"], right=("delta_E00",),
+            header_lines=[f"camera {c.camera}: the 10 largest ΔE00 (CIEDE2000) of 113, "
+                          f"{c.light} vs {c.reference} (all in --format json)"]))
+    if report.comparison is not None:
+        k = report.comparison
+        rows = []
+        for mode, m in k.modes.items():
+            rows.append({"mode": mode, "eye_mean": f"{m.eye_mean:.2f}",
+                         "camera_mean": "n/a" if m.camera is None else f"{m.camera_mean:.2f}",
+                         "verdict": m.verdict})
+        out.append("")
+        out.append(_aligned(rows, ["mode", "eye_mean", "camera_mean", "verdict"],
+                            right=("eye_mean", "camera_mean"), header_lines=[
+                                   f"A = {k.light_a} ({k.CCT_a:.0f} K) vs B = {k.light_b} ({k.CCT_b:.0f} K): "
+                                   f"Δu′v′ {k.delta_u_prime_v_prime:.4f} (CIE 1976 UCS, 2°)",
+                                   f"mean ΔE00 over 113 samples; match ≤ {k.match:g}, differ ≥ {k.differ:g} "
+                                   "(common practice); side-by-side = adapted to / balanced on A, "
+                                   "each-adapted = each light on its own white (definitions in --format json)"]))
+        for mode, m in k.modes.items():
+            if m.eye_not_camera:
+                out.append(f"{mode}: samples matching to the eye but not on camera: {', '.join(m.eye_not_camera)}")
+            if m.camera_not_eye:
+                out.append(f"{mode}: samples matching on camera but not to the eye: {', '.join(m.camera_not_eye)}")
+    return "\n".join(out)
+
+
+def run(args) -> int:
+    from workbench.analysis.light import DIFFER_DELTA_E00, MATCH_DELTA_E00, light_report, read_light
+
+    match = MATCH_DELTA_E00 if args.match is None else args.match
+    differ = DIFFER_DELTA_E00 if args.differ is None else args.differ
+    if not (0 <= match < differ):
+        raise WorkbenchError(f"--match and --differ must satisfy 0 <= match < differ (got {match:g} and {differ:g})")
+    spd = read_light(args.spd, spectrum=args.spectrum)
+    other = read_light(args.compare, spectrum=args.compare_spectrum) if args.compare else None
+    camera = _load_camera(args.camera, args.primaries) if args.camera else None
+    ref = _ssi_reference(args.ssi_reference)
+    report = light_report(spd, camera=camera, compare=other, ssi_reference=ref,
+                          extrapolation=args.extrapolate, match=match, differ=differ)
+    notes = list(report.notes)
+    if camera is not None:
+        notes = list(dict.fromkeys(list(camera.notes) + notes))
+    for n in notes:
+        notice(n)
+    for w in report.indices.warnings:
+        notice(f"warning: {w}")
+    notice(f"caution: {report.caution}")
+    if args.figures:
+        for p in write_figures(report, args.figures):
+            notice(f"wrote {p}")
+    if args.format == "json":
+        print(to_json(report.to_dict()))
+    else:
+        print(_table(report))
+    return 0

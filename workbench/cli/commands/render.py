@@ -1,0 +1,256 @@
+"""``workbench render DESIGN.toml CUBE --out DIR``: a camera design over a spectral image or set.
+
+CUBE is a reflectance cube (0-1, spectrum on the last axis): a ``.npy``
+file or a Zarr array, shaped (height, width, bands) for an image or
+(N, bands) for a spectral set. Its wavelengths come from
+``--wavelengths START:STOP:STEP`` (nm) or from the sidecar JSON beside it
+(``scene.npy`` → ``scene.json``, key ``wavelengths_nm``: a list, or
+``{"start", "stop", "step"}``). The cube is read out of core with
+dask.array in chunks sized from the memory available (``--chunk-mb`` to
+choose), on the local threaded scheduler or, with ``--scheduler ADDRESS``,
+on a dask.distributed cluster.
+
+Writes into DIR (each file atomically): ``truth.png`` and ``camera.png``
+(images only: display-linear BT.709 RGB, white = 1, clipped to 0-1, sRGB
+transfer of IEC 61966-2-1, 8 bits), ``delta_e00.png`` (images only: the
+ΔE00 map with its colour bar), ``delta_e00.npy`` (ΔE00 per pixel or
+spectrum, float64) and, last, ``summary.json`` (ΔE00 mean, p95, max; grid,
+illuminant, chunking, method). Ctrl-C stops cleanly (status 130) and
+writes nothing.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from pathlib import Path
+
+import numpy as np
+
+from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
+from workbench.cli.commands._output import notice, to_json
+
+NAME = "render"
+
+IMAGE_ENCODING = ("display-linear ITU-R BT.709 RGB (display white = 1; other display primaries "
+                  "through XYZ with a Bradford adaptation to D65), clipped to 0-1, sRGB transfer "
+                  "function (IEC 61966-2-1:1999), rounded to 8 bits")
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        NAME,
+        help="render a spectral image or set through a camera design: images, ΔE00 map and summary",
+        description=__doc__.splitlines()[0],
+    )
+    p.add_argument("design", metavar="DESIGN.toml",
+                   help="design file (docs/design-file.md) or a CSV of three sensitivities R, G, B")
+    p.add_argument("cube", metavar="CUBE", help="reflectance cube: .npy file or .zarr array")
+    p.add_argument("--out", metavar="DIR", required=True, help="folder for the images and summary.json")
+    p.add_argument("--wavelengths", metavar="START:STOP:STEP",
+                   help="the cube's wavelengths in nm, e.g. 380:780:5 (default: the sidecar JSON)")
+    p.add_argument("--illuminant", metavar="NAME", default="D65",
+                   help="scene light: an [[illuminants]] name of the design or a CIE name (default D65)")
+    p.add_argument("--extrapolate", choices=("none", "constant"), default="none",
+                   help="extend a cube that does not cover the camera's grid with its end values "
+                        "(CIE 167; default none: refuse)")
+    p.add_argument("--chunk-mb", metavar="N", type=str, default=None,
+                   help="chunk size in MiB (default: from the memory available, 4-128 MiB)")
+    p.add_argument("--scheduler", metavar="threads|ADDRESS", default="threads",
+                   help="dask's local threaded scheduler (default) or a dask.distributed scheduler "
+                        "address such as tcp://10.0.0.5:8786")
+    p.set_defaults(run=run)
+
+
+def _chunk_mb(text: str | None) -> float | None:
+    if text is None:
+        return None
+    try:
+        v = float(text)
+    except ValueError:
+        v = math.nan
+    if not (math.isfinite(v) and v > 0):
+        raise WorkbenchError(f"--chunk-mb must be a number of MiB > 0 (got {text!r})")
+    return v
+
+
+def _illuminant(design_path: Path, camera, name: str):
+    """(label, values on the camera grid, matrix key or None, notes) of ``--illuminant``."""
+    from workbench.colorimetry.cie import illuminant_on
+
+    names: list[str] = []
+    if design_path.suffix.lower() == ".toml":
+        from workbench.model.design import load_design
+
+        design = load_design(design_path)
+        names = [i.name for i in design.illuminants]
+        if name in names:
+            label, values, notes = design.illuminant_values(name)
+            values = np.asarray(values, dtype=float)
+            if values.shape != camera.wavelengths.shape:
+                raise WorkbenchError(f"--illuminant {name}: not on the camera's grid")
+            return label, values, name, tuple(notes)
+    try:
+        label, tab = illuminant_on(camera.wavelengths, name)
+    except WorkbenchError:
+        have = f"one of the design's illuminants ({', '.join(names)}) or " if names else ""
+        raise WorkbenchError(f"--illuminant: unknown {name!r}; expected {have}a CIE name such as "
+                             "A, D50, D65, FL2") from None
+    return f"CIE {label}", np.asarray(tab.values, dtype=float), label, (tab.note,)
+
+
+def _save_npy(path: Path, a: np.ndarray) -> None:
+    from workbench.fileio.atomic import write_atomically
+
+    write_atomically(path, lambda fh: np.save(fh, a, allow_pickle=False))
+
+
+def _scheduler(text: str):
+    """(scheduler for render_dask, description, worker threads, client to close or None)."""
+    if text == "threads":
+        n = os.cpu_count() or 1
+        return "threads", f"dask local threaded scheduler ({n} threads)", n, None
+    if "://" not in text and ":" not in text:
+        raise WorkbenchError(f"--scheduler must be 'threads' or a dask scheduler address such as "
+                             f"tcp://host:8786 (got {text!r})")
+    from workbench.analysis.render import _client_for
+
+    client = _client_for(text)
+    threads = sum(client.nthreads().values()) or 1
+    return client, f"dask.distributed at {text} ({len(client.nthreads())} workers, {threads} threads)", \
+        threads, client
+
+
+def run(args) -> int:
+    from workbench.analysis.render import BatchPipeline, auto_chunk_bytes, open_cube, render_dask
+
+    chunk_mb = _chunk_mb(args.chunk_mb)
+    cube = open_cube(args.cube, wavelengths=args.wavelengths)
+    design_path = Path(args.design)
+    if not design_path.exists():
+        raise InputFileError("no such file", str(design_path))
+    out = Path(args.out)
+    if out.exists() and not out.is_dir():
+        raise InputFileError("--out must be a folder (a file of that name exists)", str(out))
+
+    from workbench.analysis.fitting import load_camera
+
+    camera = load_camera(design_path)
+    label, E, key, ill_notes = _illuminant(design_path, camera, args.illuminant)
+    try:
+        pipeline = BatchPipeline(camera, E, illuminant_name=key, wavelengths=cube.wavelengths,
+                                 extrapolation=args.extrapolate)
+    except RangeCoverageError:
+        wl, wc = cube.wavelengths, camera.wavelengths
+        raise InputFileError(
+            f"the cube covers {wl[0]:g}-{wl[-1]:g} nm but the camera needs {wc[0]:g}-{wc[-1]:g} nm; "
+            "add --extrapolate constant to extend it with its end values (CIE 167)", cube.path) from None
+
+    scheduler, sched_text, threads, client = _scheduler(args.scheduler)
+    try:
+        if chunk_mb is None:
+            import psutil
+
+            avail = int(psutil.virtual_memory().available)
+            chunk_bytes = auto_chunk_bytes(threads, available=avail, total=cube.nbytes)
+            rule = (f"from the memory available: {avail / 2**20:.0f} MiB / (8 × {threads} threads) "
+                    f"(psutil), at most the cube's {cube.nbytes / 2**20:.1f} MiB / (4 × {threads}), "
+                    "within 4-128 MiB")
+        else:
+            chunk_bytes = int(chunk_mb * 2 ** 20)
+            rule = "--chunk-mb"
+        darr, rows = cube.to_dask(chunk_bytes)
+        result = render_dask(pipeline, darr, scheduler=scheduler, desc=f"render {Path(cube.path).name}")
+    finally:
+        if client is not None:
+            client.close()
+
+    if result.nonfinite:
+        idx = result.first_nonfinite_index()
+        at = (f"pixel (row {idx[0]}, column {idx[1]})" if len(idx) == 2 else f"spectrum {idx[0]}")
+        many = f"{result.nonfinite} spectra hold" if result.nonfinite > 1 else "1 spectrum holds"
+        raise InputFileError(f"{many} non-finite values (NaN or inf); the first is {at}; "
+                             "expected finite reflectances 0-1", cube.path)
+    if result.max_Y > 1.5:
+        notice(f"the brightest pixel has Y = {result.max_Y:.3g} × the perfect diffuser; "
+               "reflectances are taken as 0-1 (is the cube in percent?)")
+
+    stats = result.stats()
+    out.mkdir(parents=True, exist_ok=True)
+    written = []
+    if cube.layout == "image":
+        from workbench.plots.images import plot_delta_e_map, save_figure, save_rgb8_png
+
+        save_rgb8_png(result.truth_sRGB8, out / "truth.png",
+                      description=f"truth under {label}: {IMAGE_ENCODING}")
+        save_rgb8_png(result.camera_sRGB8, out / "camera.png",
+                      description=f"{camera.name} under {label}: {IMAGE_ENCODING}")
+        import matplotlib
+
+        matplotlib.use("Agg", force=False)
+        import matplotlib.pyplot as plt
+
+        ax = plot_delta_e_map(result.delta_E00, title=(
+            f"{camera.name} under {label}: ΔE00 mean {stats['mean']:.2f}, p95 {stats['p95']:.2f}, "
+            f"max {stats['max']:.2f}"))
+        try:
+            save_figure(ax.figure, out / "delta_e00.png")
+        finally:
+            plt.close(ax.figure)
+        written += ["truth.png", "camera.png", "delta_e00.png"]
+    _save_npy(out / "delta_e00.npy", result.delta_E00)
+    written.append("delta_e00.npy")
+
+    summary = {
+        "design": camera.name,
+        "design_file": str(design_path),
+        "cube": cube.path,
+        "format": cube.format,
+        "layout": cube.layout,
+        "shape": list(cube.shape),
+        "dtype": cube.dtype.name,
+        "pixels": result.count,
+        "grid": _grid_text(cube.wavelengths),
+        "wavelengths_from": cube.wavelengths_from,
+        "camera_grid": _grid_text(camera.wavelengths),
+        "illuminant": label,
+        "display": f"{camera.primaries.name} (white {camera.primaries.white_name})",
+        "delta_E00": {**stats, "unit": "ΔE00 (CIEDE2000, k_L = k_C = k_H = 1)",
+                      "over": "every pixel" if cube.layout == "image" else "every spectrum",
+                      "p95_method": "95th percentile, linear interpolation between order statistics"},
+        "clipped_fraction": ({"truth": result.clipped_truth / result.count,
+                              "camera": result.clipped_camera / result.count,
+                              "meaning": "pixels with a linear BT.709 component outside 0-1 before "
+                                         "clipping for the PNG"}
+                             if cube.layout == "image" else None),
+        "max_Y_relative": result.max_Y,
+        "chunking": {"chunk_mb": round(chunk_bytes / 2 ** 20, 3), "rule": rule,
+                     "rows_per_chunk": rows, "axis": "first axis only (whole spectra, whole image rows)",
+                     "chunks": result.chunks, "scheduler": sched_text},
+        "elapsed_s": round(result.seconds, 3),
+        "images": ({"truth": "truth.png", "camera": "camera.png", "delta_e00_map": "delta_e00.png",
+                    "encoding": IMAGE_ENCODING} if cube.layout == "image" else None),
+        "arrays": {"delta_e00": "delta_e00.npy (float64, the cube's leading shape)"},
+        "method": list(pipeline.notes) + [
+            "raw RGB = Σ S·R·E·Δλ; one (bands, 6) weight matrix for raw RGB and the adapted truth "
+            "XYZ, applied chunk by chunk",
+        ],
+        "notes": list(ill_notes),
+    }
+    from workbench.fileio.atomic import write_text_atomically
+
+    write_text_atomically(out / "summary.json", to_json(summary) + "\n")
+    written.append("summary.json")
+    print(f"ΔE00 over {result.count} {'pixels' if cube.layout == 'image' else 'spectra'} "
+          f"(CIEDE2000, {camera.name} under {label} vs truth): mean {stats['mean']:.4f}, "
+          f"p95 {stats['p95']:.4f}, max {stats['max']:.4f}")
+    notice(f"wrote {', '.join(written)} to {out} ({result.chunks} chunks of {rows} rows, "
+           f"{sched_text}, {result.seconds:.2f} s)")
+    return 0
+
+
+def _grid_text(wl) -> str:
+    from workbench.analysis.render import _describe
+
+    return _describe(np.asarray(wl, dtype=float))
+

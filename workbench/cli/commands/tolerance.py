@@ -1,0 +1,230 @@
+"""``workbench tolerance DESIGN.toml``: Monte Carlo tolerance analysis of a camera design.
+
+Draws the toleranced parameters of the design (``tolerance = {distribution,
+width}`` in its ``[[chain]]``) for ``--trials`` units with ``--seed``,
+evaluates every unit with the matrix of the nominal design (``fixed``) and
+with its own matrix (``recalibrated``), and prints the distributions of the
+Vora value ν and of the mean and maximum ΔE00 under each illuminant, the
+white-balance gains and noise gains, the yield against the design's
+``[tolerance]`` specification, which tolerance drives the error, and the
+colour shift across the image (field positions of ``[[tolerance.field]]``).
+
+``--format json`` prints one JSON object: ``trials``, ``seed``, ``yield``
+(fraction 0-1, of the first matrix case), ``illuminants`` →
+{name → ``delta_E00_mean`` / ``delta_E00_max`` → {p5, p50, p95, mean, std,
+min, max}, …}, ``vora_value``, ``ranking``, ``cases`` (every matrix case),
+``field``, ``parameters``, ``units``, ``methods``. The same seed gives the
+same output. ``--csv OUT.csv`` writes one row per trial; ``--trials-json
+OUT.json`` the summary with every trial; ``--plots DIR`` the figures as PNG.
+
+Exit status: 0 when done; 1 when interrupted (Ctrl-C) after some trials —
+the finished trials are reported and written, and the output says so; 2 for
+bad input.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from workbench.model.design import load_design
+from workbench.errors import WorkbenchError
+from workbench.cli.commands._output import notice, render_rows, to_json
+
+NAME = "tolerance"
+
+
+def register(subparsers) -> None:
+    from workbench.analysis.tolerance import DEFAULT_CHUNK, MATRIX_CHOICES
+
+    p = subparsers.add_parser(
+        NAME,
+        help="Monte Carlo tolerance analysis: ΔE00, ν, yield, ranking of tolerances, shift across the field",
+        description=__doc__.splitlines()[0],
+    )
+    p.add_argument("design", metavar="DESIGN.toml", help="design file (docs/design-file.md)")
+    p.add_argument("--trials", type=int, default=2000, metavar="N", help="simulated units (default 2000)")
+    p.add_argument("--seed", type=int, default=0, help="random seed, >= 0 (default 0)")
+    p.add_argument("--matrix", choices=MATRIX_CHOICES, default="both",
+                   help="matrix case: fixed (the nominal design's matrix in every unit), recalibrated "
+                        "(each unit its own), or both (default; the summary's top level is fixed)")
+    p.add_argument("--format", choices=("table", "json"), default="table",
+                   help="output format on stdout (default table)")
+    p.add_argument("--max-mean-de00", type=float, default=None, metavar="X",
+                   help="spec: mean ΔE00 limit under every illuminant (default: the design's [tolerance])")
+    p.add_argument("--min-vora", type=float, default=None, metavar="X",
+                   help="spec: lowest Vora value, 0-1 (default: the design's [tolerance])")
+    p.add_argument("--scale", type=float, default=1.0, metavar="F",
+                   help="multiply every tolerance width by F (default 1)")
+    p.add_argument("--csv", metavar="OUT.csv", help="write every trial as one CSV row")
+    p.add_argument("--trials-json", metavar="OUT.json", help="write the summary with every trial as JSON")
+    p.add_argument("--plots", metavar="DIR", type=Path, help="write the figures as PNG files into DIR")
+    p.add_argument("--no-field", action="store_true", help="skip the colour shift across the image")
+    p.add_argument("--chunk", type=int, default=DEFAULT_CHUNK, metavar="N",
+                   help=f"trials evaluated together (memory; default {DEFAULT_CHUNK})")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(run=run)
+
+
+def _spec(design, args):
+    from dataclasses import replace
+
+    t = design.tolerance
+    if args.max_mean_de00 is not None:
+        if not args.max_mean_de00 > 0:
+            raise WorkbenchError(f"--max-mean-de00: expected a number > 0 (got {args.max_mean_de00:g})")
+        t = replace(t, max_mean_delta_E00=args.max_mean_de00)
+    if args.min_vora is not None:
+        if not 0 <= args.min_vora <= 1:
+            raise WorkbenchError(f"--min-vora: expected a number in [0, 1] (got {args.min_vora:g})")
+        t = replace(t, min_vora=args.min_vora)
+    return t
+
+
+def _fmt(d, digits=3):
+    return "–" if d is None else f"{d:.{digits}f}"
+
+
+def table(result) -> str:
+    """The human-readable report: distributions, yield, ranking and field shift, with units and methods."""
+    s = result.summary()
+    blocks = []
+    spec = s["spec"]
+    head = [
+        f"design: {s['design']} ({s['file']})",
+        f"{s['trials']} trials (seed {s['seed']})" + (
+            f" — INTERRUPTED after {s['trials']} of {s['trials_requested']}; statistics over those"
+            if s["interrupted"] else ""),
+        f"spec: {spec['rule']} (max_mean_delta_E00 = {spec['max_mean_delta_E00']:g}, "
+        f"min_vora = {spec['min_vora']:g})",
+        f"sampling: {s['methods']['sampling']}",
+        f"statistics: {s['methods']['distribution']}",
+        f"ΔE00: {s['methods']['delta_E00']}",
+    ]
+    for p in s["parameters"]:
+        u = f" {p['unit']}" if p["unit"] else ""
+        head.append(f"  tolerance {p['name']}: {p['distribution']}, width {p['width']:g}{u} "
+                    f"({p['width_means']}); nominal {p['nominal']:g}{u}")
+    v = s["vora_value"]
+    head.append(f"Vora value ν (0-1; {s['methods']['vora_value']}): nominal {v['nominal']:.4f}, "
+                f"p5 {v['p5']:.4f}, p50 {v['p50']:.4f}, p95 {v['p95']:.4f}, mean {v['mean']:.4f}, "
+                f"std {v['std']:.4f}")
+    blocks.append("\n".join(head))
+    for case, cs in s["cases"].items():
+        lo, hi = cs["yield_interval_95"]
+        lines = [
+            "",
+            f"matrix {case}: {s['methods']['matrix_cases'][case]}",
+            f"yield {100 * cs['yield']:.1f} % ({cs['units_passing']} of {s['trials']} units; 95 % Wilson "
+            f"interval {100 * lo:.1f}–{100 * hi:.1f} %); nominal design "
+            f"{'passes' if cs['nominal_passes'] else 'fails'} the spec",
+            "ΔE00 in CIEDE2000 units over the design's samples; gains R/G, B/G in 1 (ratio to the green "
+            "gain); noise gain = row 2-norm of the matrix, 1",
+        ]
+        rows = []
+        for ill, d in cs["illuminants"].items():
+            for q, label in (("delta_E00_mean", "mean ΔE00"), ("delta_E00_max", "max ΔE00"),
+                             ("white_balance_gain_R_over_G", "gain R/G"),
+                             ("white_balance_gain_B_over_G", "gain B/G")):
+                x = d[q]
+                rows.append({"illuminant": ill, "quantity": label, "nominal": d["nominal"][q],
+                             **{k: x[k] for k in ("p5", "p50", "p95", "mean", "std")}})
+            for ch in ("R", "G", "B"):
+                x = d["noise_gain"][ch]
+                rows.append({"illuminant": ill, "quantity": f"noise gain {ch}",
+                             "nominal": d["nominal"]["noise_gain"][ch],
+                             **{k: x[k] for k in ("p5", "p50", "p95", "mean", "std")}})
+        w = cs["worst_mean_delta_E00"]
+        rows.append({"illuminant": "worst", "quantity": "mean ΔE00", "nominal": cs["nominal_worst_mean_delta_E00"],
+                     **{k: w[k] for k in ("p5", "p50", "p95", "mean", "std")}})
+        lines.append(render_rows(rows, ["illuminant", "quantity", "nominal", "p5", "p50", "p95", "mean", "std"],
+                                 "table"))
+        rk = cs["ranking"]
+        lines.append("")
+        lines.append(f"what drives the worst-illuminant mean ΔE00 (matrix {case}; R² of the linear fit "
+                     f"{_fmt(rk['r_squared'])}):")
+        lines.append(f"  variance contribution: {rk['methods']['variance_contribution']}")
+        lines.append(f"  src2: {rk['methods']['src2']}")
+        lines.append(f"  one at a time: {rk['methods']['one_at_a_time']}; ΔE00")
+        rows = [{"parameter": r["name"], "tolerance": f"{r['width']:g} {r['unit'] or '(1)'} {r['distribution']}",
+                 "variance_contribution": r["variance_contribution"], "src2": r["src2"],
+                 "at_minus_width": r["oat_minus"], "at_plus_width": r["oat_plus"]} for r in rk["parameters"]]
+        if rows:
+            lines.append(render_rows(rows, ["parameter", "tolerance", "variance_contribution", "src2",
+                                            "at_minus_width", "at_plus_width"], "table"))
+        blocks.append("\n".join(lines))
+    f = s["field"]
+    if f is not None:
+        lines = ["", f"across the image ({f['splitter']}): {f['method']}",
+                 "angles in degrees in the prism glass; shifts in ΔE00 (CIEDE2000) units against the centre"]
+        rows = [{"position": r["position"], "offset_deg": r["aoi_offset_deg"], "illuminant": r["illuminant"],
+                 "samples_mean": r["sample_shift_mean"], "samples_max": r["sample_shift_max"],
+                 "white": r["white_shift"], "grey": r["grey_shift"], "mean_vs_truth": r["delta_E00_mean"]}
+                for r in f["positions"]]
+        lines.append(render_rows(rows, ["position", "offset_deg", "illuminant", "samples_mean", "samples_max",
+                                        "white", "grey", "mean_vs_truth"], "table", digits=3))
+        blocks.append("\n".join(lines))
+    return "\n".join(blocks)
+
+
+def write_plots(result, folder: Path) -> list[Path]:
+    """Save the tolerance figures as PNG files in ``folder`` (each written atomically)."""
+    import os
+    import uuid
+
+    from workbench.plots.tolerance import plot_field_shift, plot_histograms, plot_ranking
+
+    folder.mkdir(parents=True, exist_ok=True)
+    figs = []
+    for case in result.cases:
+        figs.append((f"histograms-{case}.png", plot_histograms(result, case=case)))
+        figs.append((f"ranking-{case}.png", plot_ranking(result, case=case)))
+    if result.field is not None:
+        figs.append(("field-shift.png", plot_field_shift(result.field)))
+    out = []
+    for name, fig in figs:
+        target = folder / name
+        tmp = folder / f".{name}.{uuid.uuid4().hex[:8]}.tmp"
+        try:
+            fig.savefig(tmp, format="png", dpi=110)
+            os.replace(tmp, target)
+        finally:
+            if tmp.exists():
+                tmp.unlink()
+        out.append(target)
+    return out
+
+
+def run(args) -> int:
+    from workbench.analysis.tolerance import run_tolerance, save_trials
+
+    design = load_design(args.design)
+    if args.trials < 1:
+        raise WorkbenchError(f"--trials: expected a whole number >= 1 (got {args.trials})")
+    if args.seed < 0:
+        raise WorkbenchError(f"--seed: expected a whole number >= 0 (got {args.seed})")
+    if args.chunk < 1:
+        raise WorkbenchError(f"--chunk: expected a whole number >= 1 (got {args.chunk})")
+    if not args.scale >= 0:
+        raise WorkbenchError(f"--scale: expected a number >= 0 (got {args.scale:g})")
+    if args.plots is not None and args.plots.exists() and not args.plots.is_dir():
+        raise WorkbenchError(f"--plots {args.plots}: expected a folder, found a file")
+    result = run_tolerance(design, trials=args.trials, seed=args.seed, matrix=args.matrix,
+                           scale=args.scale, spec=_spec(design, args), field=False if args.no_field else None,
+                           chunk=args.chunk, progress=not args.quiet)
+    for n in result.notes:
+        notice(n)
+    if args.csv or args.trials_json:
+        save_trials(result, csv_path=args.csv, json_path=args.trials_json)
+        notice(f"wrote {result.trials} trials to {', '.join(p for p in (args.csv, args.trials_json) if p)}")
+    if args.plots is not None:
+        written = write_plots(result, args.plots)
+        notice(f"wrote {', '.join(p.name for p in written)} to {args.plots}")
+    if args.format == "json":
+        print(to_json(result.summary()))
+    else:
+        print(table(result))
+    notice(f"{result.trials} trials in {result.seconds:.2f} s")
+    if result.interrupted:
+        notice(f"interrupted after {result.trials} of {result.trials_requested} trials; exit status 1")
+        return 1
+    return 0

@@ -1,0 +1,238 @@
+"""CIE tables as plain arrays: colour-matching functions and illuminants.
+
+The tables come from colour-science (the reference library); this module
+turns them into read-only numpy arrays on any wavelength grid and caches
+them, so hot paths never build spectral-distribution objects.
+
+Rules used to put a table on another grid, each reported in the returned
+note:
+
+* colour-matching functions (1 nm, 360-830 nm): exact at whole nanometres;
+  Sprague interpolation between (CIE 167:2005); zero outside 360-830 nm
+  (the functions are below 1e-5 of their peak there; CIE 15:2004 tabulates
+  nothing beyond).
+* CIE illuminant A: computed from its defining formula on any grid
+  (CIE 15:2004, Eq. 2.1), so it needs no interpolation.
+* every tabulated illuminant: linear interpolation. CIE 15:2004 recommends
+  it for the D series (from memory); for the fluorescent, LED and other
+  tables, whose narrow lines make higher-order interpolation ring, it is
+  the safe choice and the one colour-science makes for all of them.
+* outside an illuminant table's range: its end values repeated (constant
+  extrapolation, CIE 167:2005), said in the note.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+
+import numpy as np
+
+from workbench.errors import WorkbenchError
+from workbench.model.spectra import Spectra, check_wavelengths, resample_values
+
+__all__ = [
+    "OBSERVERS",
+    "observer_key",
+    "cmfs_table",
+    "cmfs_on",
+    "illuminant_names",
+    "illuminant_on",
+    "illuminant_A",
+    "Tabulated",
+]
+
+#: Observer keys accepted everywhere, and colour-science's names for them.
+OBSERVERS = {
+    "2": "CIE 1931 2 Degree Standard Observer",
+    "10": "CIE 1964 10 Degree Standard Observer",
+}
+_OBSERVER_ALIASES = {
+    "2": "2", "2°": "2", "1931": "2", "cie1931": "2", "cie 1931": "2",
+    "10": "10", "10°": "10", "1964": "10", "cie1964": "10", "cie 1964": "10",
+}
+_OBSERVER_LABEL = {"2": "CIE 1931 2°", "10": "CIE 1964 10°"}
+
+
+
+def observer_key(observer) -> str:
+    """Normalise an observer name ('2', 2, '1931', '10', '1964', ...) to '2' or '10'."""
+    key = _OBSERVER_ALIASES.get(str(observer).strip().lower())
+    if key is None:
+        raise WorkbenchError(
+            f"observer must be 2 (CIE 1931 2°) or 10 (CIE 1964 10°) (got {observer!r})"
+        )
+    return key
+
+
+def observer_label(observer) -> str:
+    return _OBSERVER_LABEL[observer_key(observer)]
+
+
+@lru_cache(maxsize=4)
+def cmfs_table(observer="2") -> tuple[np.ndarray, np.ndarray]:
+    """The CIE colour-matching functions as tabulated: ``(λ (471,), x̄ȳz̄ (471, 3))``.
+
+    1 nm steps over 360-830 nm (CIE 15:2004, Tables T.4 and T.5, via
+    colour-science). Read-only arrays.
+    """
+    import colour
+
+    msds = colour.MSDS_CMFS[OBSERVERS[observer_key(observer)]]
+    wl = np.array(msds.wavelengths, dtype=float)
+    v = np.array(msds.values, dtype=float)
+    wl.setflags(write=False)
+    v.setflags(write=False)
+    return wl, v
+
+
+@dataclass(frozen=True)
+class Tabulated:
+    """A table put on a grid: the values and a note on how they were made."""
+
+    values: np.ndarray
+    note: str
+
+
+@lru_cache(maxsize=128)
+def _cmfs_on(key: bytes, observer: str) -> Tabulated:
+    wl = np.frombuffer(key, dtype=float)
+    twl, tv = cmfs_table(observer)
+    out = np.zeros((wl.size, 3))
+    inside = (wl >= twl[0]) & (wl <= twl[-1])
+    whole = inside & (np.abs(wl - np.round(wl)) < 1e-9)
+    idx = np.round(wl[whole] - twl[0]).astype(int)
+    out[whole] = tv[idx]
+    parts = []
+    between = inside & ~whole
+    if between.any():
+        v, _ = resample_values(tv.T, twl, wl[between], method="sprague")
+        out[between] = v.T
+        parts.append("Sprague-interpolated between whole nanometres (CIE 167:2005)")
+    if (~inside).any():
+        parts.append("taken as zero outside 360-830 nm")
+    note = f"{observer_label(observer)} colour-matching functions" + (
+        ", " + "; ".join(parts) if parts else ", tabulated values"
+    )
+    out.setflags(write=False)
+    return Tabulated(out, note)
+
+
+def cmfs_on(wavelengths, observer="2") -> Tabulated:
+    """The colour-matching functions on ``wavelengths`` (nm) as ``(n, 3)``; see module notes."""
+    wl = check_wavelengths(wavelengths)
+    return _cmfs_on(wl.tobytes(), observer_key(observer))
+
+
+@lru_cache(maxsize=1)
+def illuminant_names() -> tuple[str, ...]:
+    """Names of the CIE (and other) illuminants colour-science ships."""
+    import colour
+
+    return tuple(colour.SDS_ILLUMINANTS)
+
+
+def _canonical_illuminant(name: str) -> str:
+    names = illuminant_names()
+    if name in names:
+        return name
+    lowered = {n.lower(): n for n in names}
+    if name.lower() in lowered:
+        return lowered[name.lower()]
+    # 'F2' is the usual short form of colour-science's 'FL2'.
+    if name.upper().startswith("F") and not name.upper().startswith("FL"):
+        alt = "FL" + name[1:]
+        if alt.lower() in lowered:
+            return lowered[alt.lower()]
+    raise WorkbenchError(
+        f"unknown illuminant {name!r}; expected a CIE name such as A, C, D50, D65, FL2, "
+        "LED-B1 or a CSV file of an SPD"
+    )
+
+
+def illuminant_A(wavelengths) -> np.ndarray:
+    """Relative SPD of CIE illuminant A on ``wavelengths`` (nm), 100 at 560 nm.
+
+    Notes
+    -----
+    S_A(λ) = 100 (560/λ)^5 (exp(c₂/(2848·560)) − 1) / (exp(c₂/(2848·λ)) − 1),
+    c₂ = 1.435e7 nm·K (CIE 15:2004, Eq. 2.1).
+    """
+    wl = np.asarray(wavelengths, dtype=float)
+    c2 = 1.435e7
+    return 100.0 * (560.0 / wl) ** 5 * np.expm1(c2 / (2848 * 560)) / np.expm1(c2 / (2848 * wl))
+
+
+@lru_cache(maxsize=256)
+def _illuminant_on(key: bytes, name: str, interpolation: str = "linear") -> Tabulated:
+    import colour
+
+    wl = np.frombuffer(key, dtype=float)
+    if name == "A":
+        v = illuminant_A(wl)
+        v.setflags(write=False)
+        return Tabulated(v, "CIE illuminant A from its formula (CIE 15:2004, Eq. 2.1)")
+    sd = colour.SDS_ILLUMINANTS[name]
+    twl = np.array(sd.wavelengths, dtype=float)
+    tv = np.array(sd.values, dtype=float)
+    values, used = resample_values(tv, twl, wl, method=interpolation, extrapolation="constant")
+    node = np.isin(wl, twl)
+    parts = []
+    if not node.all():
+        parts.append(
+            "linearly interpolated" if used == "linear" else "Sprague-interpolated (CIE 167:2005)"
+        )
+    lo, hi = twl[0], twl[-1]
+    ext = []
+    if wl[0] < lo:
+        ext.append(f"{wl[0]:g}-{lo:g} nm")
+    if wl[-1] > hi:
+        ext.append(f"{hi:g}-{wl[-1]:g} nm")
+    if ext:
+        parts.append(
+            f"extended over {' and '.join(ext)} with its end values (CIE 167:2005; "
+            f"the table covers {lo:g}-{hi:g} nm)"
+        )
+    values.setflags(write=False)
+    note = f"illuminant {name}" + (": " + "; ".join(parts) if parts else ": tabulated values")
+    return Tabulated(values, note)
+
+
+def illuminant_on(wavelengths, illuminant, *, interpolation: str = "linear") -> tuple[str, Tabulated]:
+    """An illuminant's relative SPD on ``wavelengths`` (nm).
+
+    Parameters
+    ----------
+    illuminant : str or Spectra
+        A name colour-science ships (A, C, D50, D65, FL1-FL12, LED-B1, ...;
+        ``F2`` is accepted for ``FL2``), or a single emission spectrum, which
+        must already lie on ``wavelengths`` or be resampled by the caller
+        (user data are never resampled silently).
+    interpolation : {'linear', 'sprague'}
+        How a tabulated illuminant is put between its points (see module
+        notes); A is always computed from its formula.
+
+    Returns
+    -------
+    name : str
+    table : Tabulated
+        ``values`` (n,) and the note on how they were put on the grid.
+    """
+    wl = check_wavelengths(wavelengths)
+    if isinstance(illuminant, Spectra):
+        if len(illuminant) != 1:
+            raise WorkbenchError(
+                f"illuminant file must hold one spectrum (got {len(illuminant)}: "
+                f"{', '.join(illuminant.names[:4])})"
+            )
+        name = illuminant.source or illuminant.names[0]
+        if not np.array_equal(illuminant.wavelengths, wl):
+            raise WorkbenchError(
+                f"illuminant {name} is on {illuminant.describe_grid()} but the data are on "
+                f"{Spectra(wl, np.zeros(wl.size)).describe_grid()}; resample one of them first"
+            )
+        return name, Tabulated(illuminant.flat()[0], f"illuminant from {name}")
+    name = _canonical_illuminant(str(illuminant))
+    if interpolation not in ("linear", "sprague"):
+        raise WorkbenchError(f"interpolation must be linear or sprague (got {interpolation!r})")
+    return name, _illuminant_on(wl.tobytes(), name, interpolation)

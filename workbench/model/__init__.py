@@ -1,0 +1,1 @@
+"""The data model: spectra on a wavelength grid, and the design schema."""

@@ -1,0 +1,1 @@
+"""Optical elements of a camera's colour-separation chain and their spectral curves."""

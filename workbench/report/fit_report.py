@@ -1,0 +1,430 @@
+"""The report of a camera fit: one self-contained HTML file.
+
+:func:`fit_report_html` turns a :class:`workbench.analysis.fitting.FitResult` into a
+single HTML page — inline CSS, every figure embedded as a base64 PNG, no
+link to anything outside the file — that shows, in order:
+
+1. the fit's status (converged, not converged or interrupted, with the
+   optimiser's message; never hidden) and the parameters that ended at a
+   bound;
+2. the objective, the search and the method of every measure;
+3. the headline measures at the start and after the fit (Vora value ν,
+   Neugebauer q, Luther residual, ΔE00 mean / median / p95 / max per
+   illuminant, the ISO 17321-1-style SMI, the noise of the matrix);
+4. four figures (:mod:`workbench.plots.fit`): sensitivities against the
+   targets with their residual, per-sample ΔE00 bars, u′v′ shifts, and
+   noise against accuracy for the three matrix rules before and after;
+5. the fitted parameters with start, value, bounds and an at-bound flag,
+   the fitted matrix and the notes of the evaluation.
+
+Every text is escaped with :func:`html.escape`. :func:`write_fit_report`
+saves the page atomically.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import io
+from pathlib import Path
+
+import numpy as np
+
+from workbench.analysis.camera import MATRIX_METHODS
+from workbench.fileio.atomic import write_text_atomically
+
+__all__ = [
+    "noise_accuracy_points",
+    "fit_report_figures",
+    "fit_report_html",
+    "write_fit_report",
+    "OBJECTIVE_TEXT",
+]
+
+#: What each ``[fit] objective`` minimises, in words and formula.
+OBJECTIVE_TEXT = {
+    "vora": ("maximise the Vora value ν: residual r = (I − P_M)·Q_A/√3 with M = diag(l_rec)·S and "
+             "A = diag(l_view)·x̄ȳz̄, so Σr² = 1 − ν"),
+    "luther-residual": ("minimise the weighted distance of the target colour-matching functions from the "
+                        "span of the camera's sensitivities after the best 3×3 matrix: "
+                        "r = (I − P_M)·diag(l_view)·T / ‖diag(l_view)·T‖_F"),
+    "mean-delta-e00": ("minimise the weighted RMS of ΔE00 over samples × illuminants after white balance "
+                       "and the matrix: r_jk = √(w_k / (J·Σw))·ΔE00_jk"),
+}
+
+_MATRIX_LABEL = {
+    "least-squares": "least squares",
+    "white-preserving": "white-preserving",
+    "delta-e00": "ΔE00-minimising",
+}
+
+
+def _esc(v) -> str:
+    return html.escape(str(v), quote=True)
+
+
+# --------------------------------------------------------------------------
+# Noise against accuracy
+# --------------------------------------------------------------------------
+
+
+def _point(m, label: str, method: str, state: str) -> dict:
+    row_norms = np.stack([np.asarray(d["row_norms"], dtype=float) for d in m.noise.values()])
+    sigma = np.stack([np.asarray(d["sigma_out"], dtype=float) for d in m.noise.values()])
+    return {
+        "label": label,
+        "method": method,
+        "state": state,
+        "noise_gain": float(np.max(row_norms)),
+        "sigma_out": float(np.mean(sigma)),
+        "mean_delta_E00": float(np.mean(m.per_sample)),
+        "vora_value": float(m.vora_value),
+    }
+
+
+def noise_accuracy_points(result, evaluator=None, *, methods=MATRIX_METHODS) -> list[dict]:
+    """Noise and accuracy of each matrix rule at the fit's start and at its result.
+
+    Parameters
+    ----------
+    result : FitResult
+    evaluator : DesignEvaluator, optional
+        Of ``result.start_design`` (built when None).
+    methods : sequence of str
+        Matrix rules (default least squares, white-preserving, ΔE00-minimising),
+        each fitted with the design's matrix scope.
+
+    Returns
+    -------
+    list of dict
+        Per method the start point then the fitted point, each with
+        ``label``, ``method``, ``state`` ('start' / 'fitted'),
+        ``noise_gain`` (largest row norm of the matrix over channels and
+        illuminants; identity = 1), ``sigma_out`` (mean output noise of
+        the grey patch over channels × illuminants, display RGB with white
+        = 1, for the design's noise model), ``mean_delta_E00`` (unweighted
+        mean over samples × illuminants) and ``vora_value``.
+    """
+    from workbench.analysis.fitting import DesignEvaluator
+
+    ev = evaluator or DesignEvaluator(result.start_design)
+    fitted = {p["name"]: float(p["value"]) for p in result.parameters}
+    points = []
+    for method in methods:
+        name = _MATRIX_LABEL.get(method, method)
+        points.append(_point(ev.measures(method=method), f"{name}, start", method, "start"))
+        points.append(_point(ev.measures(fitted, method=method), f"{name}, fitted", method, "fitted"))
+    return points
+
+
+# --------------------------------------------------------------------------
+# Figures
+# --------------------------------------------------------------------------
+
+
+def fit_report_figures(result, evaluator=None, *, points=None) -> dict:
+    """The report's four figures as matplotlib Figures, by name.
+
+    Names: ``sensitivities``, ``delta_e_bars``, ``chromaticity``,
+    ``noise_accuracy``. ``points`` default to :func:`noise_accuracy_points`.
+    """
+    from workbench.plots.fit import (plot_chromaticity_shifts, plot_delta_e_bars, plot_noise_vs_accuracy,
+                            plot_sensitivities_vs_targets)
+
+    if points is None:
+        points = noise_accuracy_points(result, evaluator)
+    a = result.after
+    return {
+        "sensitivities": plot_sensitivities_vs_targets(a, before=result.before),
+        "delta_e_bars": plot_delta_e_bars(a),
+        "chromaticity": plot_chromaticity_shifts(a, observer=result.design.observer),
+        "noise_accuracy": plot_noise_vs_accuracy(points),
+    }
+
+
+def _png_data_uri(fig, dpi: int = 100) -> str:
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=dpi, metadata={"Software": None})
+    return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
+
+
+# --------------------------------------------------------------------------
+# HTML
+# --------------------------------------------------------------------------
+
+_CSS = """
+body { font-family: system-ui, -apple-system, "Segoe UI", sans-serif; margin: 1.5em auto; max-width: 72em;
+       padding: 0 1em; color: #1a1a1a; line-height: 1.4; }
+h1 { font-size: 1.5em; margin-bottom: 0.2em; } h2 { font-size: 1.15em; margin-top: 1.6em;
+     border-bottom: 1px solid #ccc; padding-bottom: 0.15em; }
+table { border-collapse: collapse; margin: 0.5em 0; font-size: 0.9em; }
+th, td { border: 1px solid #d0d0d0; padding: 0.2em 0.55em; text-align: left; vertical-align: top; }
+th { background: #f2f2f2; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+tr.group td { background: #fafafa; font-weight: 600; }
+.status { padding: 0.6em 0.9em; border-radius: 4px; margin: 0.8em 0; font-size: 1.05em; }
+.status.ok { background: #e6f4e6; border: 1px solid #5a9e5a; }
+.status.warn { background: #fdecea; border: 2px solid #c0392b; }
+.flag { color: #a04000; font-weight: 600; }
+.meta { color: #555; font-size: 0.9em; }
+dl.methods dt { font-weight: 600; margin-top: 0.35em; } dl.methods dd { margin-left: 1.5em; }
+figure { margin: 1.2em 0; } figure img { max-width: 100%; height: auto; border: 1px solid #e0e0e0; }
+figcaption { font-size: 0.88em; color: #444; max-width: 60em; }
+"""
+
+
+def _f(v, fmt: str) -> str:
+    try:
+        x = float(v)
+    except (TypeError, ValueError):
+        return "—"
+    if not np.isfinite(x):
+        return "—"
+    return format(x, fmt)
+
+
+def _triple(v, fmt: str) -> str:
+    return " / ".join(_f(x, fmt) for x in np.asarray(v, dtype=float).ravel())
+
+
+def _status_html(result) -> str:
+    status = str(result.status)
+    msg = str(result.message).rstrip(" .")
+    at = [p["name"] for p in result.parameters if p.get("at_bound")]
+    if status == "converged":
+        cls, head = "ok", "Converged"
+        tail = ""
+    elif status == "interrupted":
+        cls, head = "warn", "INTERRUPTED"
+        tail = " The values shown are the best point found before the stop; the fit did not finish."
+    elif status == "not converged":
+        cls, head = "warn", "NOT CONVERGED"
+        tail = " The values shown are the best point found; the optimiser's stopping test was not met."
+    else:
+        cls, head = "warn", f"Status {status!r}"
+        tail = ""
+    out = (f'<div class="status {cls}" id="status"><b>{_esc(head)}</b>: {_esc(msg)}.{_esc(tail)} '
+           f'({_esc(result.evaluations)} evaluations in {_f(result.seconds, ".2f")} s)</div>')
+    if at:
+        out += (f'<p class="flag">{len(at)} parameter{"s" if len(at) != 1 else ""} ended at a bound: '
+                f'{_esc(", ".join(at))} — the optimum may lie outside the allowed range.</p>')
+    return out
+
+
+def _measure_rows(b, a) -> list[tuple]:
+    """(label, unit and method, start, fitted) rows; a row with None values is a group heading."""
+    rows = [
+        ("Vora value ν", "0-1, 1 = Luther condition (method: vora value, above)",
+         _f(b.vora_value, ".4f"), _f(a.vora_value, ".4f")),
+        ("Neugebauer q (R / G / B)", "0-1 per channel, 1 = inside the span of x̄ȳz̄",
+         _triple(b.neugebauer_q, ".4f"), _triple(a.neugebauer_q, ".4f")),
+        ("Luther residual", "relative (Frobenius norm), 0 = Luther condition",
+         _f(b.luther_residual, ".4f"), _f(a.luther_residual, ".4f")),
+        ("weighted mean ΔE00", "CIEDE2000 over samples × illuminants with the design's sample weights",
+         _f(b.weighted_mean_delta_E00, ".3f"), _f(a.weighted_mean_delta_E00, ".3f")),
+        ("colour-correction matrix", "rule and scope", f"{b.matrix_method}, {b.matrix_scope}",
+         f"{a.matrix_method}, {a.matrix_scope}"),
+    ]
+    for ill in a.illuminants:
+        rows.append((f"ΔE00 under {ill}", None, None, None))
+        n = a.per_sample.shape[-1]
+        for stat, name in (("mean", "mean"), ("median", "median"), ("p95", "95th percentile"),
+                           ("max", "maximum")):
+            rows.append((f"{name} ΔE00", f"CIEDE2000, unweighted over {n} samples",
+                         _f(b.delta_E00.get(ill, {}).get(stat), ".3f"), _f(a.delta_E00[ill][stat], ".3f")))
+    rows.append(("Sensitivity metamerism", None, None, None))
+    rows.append(("ISO 17321-1-style SMI", "index, 100 = no metamerism; " + a.smi.get("method", ""),
+                 _f(b.smi.get("smi"), ".1f"), _f(a.smi.get("smi"), ".1f")))
+    rows.append(("mean ΔE*ab of the SMI", "CIE 1976 ΔE*ab over its samples",
+                 _f(b.smi.get("mean_delta_E_ab"), ".3f"), _f(a.smi.get("mean_delta_E_ab"), ".3f")))
+    for ill in a.illuminants:
+        nb, na = b.noise.get(ill, {}), a.noise[ill]
+        rows.append((f"Noise under {ill}", None, None, None))
+        rows.append(("row norms ‖mᵢ‖ (R / G / B)", "noise gain for independent channel noise, identity = 1",
+                     _triple(nb.get("row_norms", [np.nan] * 3), ".3f"), _triple(na["row_norms"], ".3f")))
+        rows.append(("condition number of the matrix", "2-norm, 1 = orthogonal",
+                     _f(nb.get("condition"), ".3f"), _f(na["condition"], ".3f")))
+        rows.append(("σ_out of the grey patch (R / G / B)", "display RGB, white = 1 (noise model above)",
+                     _triple(nb.get("sigma_out", [np.nan] * 3), ".5f"), _triple(na["sigma_out"], ".5f")))
+        rows.append(("SNR of the grey patch (R / G / B)", "dB, 20·log10(grey / σ_out)",
+                     _triple(nb.get("snr_db", [np.nan] * 3), ".1f"), _triple(na["snr_db"], ".1f")))
+    return rows
+
+
+def _measures_table(result) -> str:
+    body = []
+    for label, unit, start, after in _measure_rows(result.before, result.after):
+        if unit is None:
+            body.append(f'<tr class="group"><td colspan="4">{_esc(label)}</td></tr>')
+        else:
+            body.append(f'<tr><td>{_esc(label)}</td><td>{_esc(unit)}</td><td class="num">{_esc(start)}</td>'
+                        f'<td class="num">{_esc(after)}</td></tr>')
+    return ('<table id="measures"><tr><th>measure</th><th>unit and method</th><th>start</th>'
+            f'<th>fitted</th></tr>{"".join(body)}</table>')
+
+
+def _parameter_unit(design, name: str) -> str:
+    from workbench.model.design import ELEMENT_TYPES
+
+    element, _, key = name.rpartition(".")
+    for e in design.chain:
+        if e.name == element:
+            spec = ELEMENT_TYPES.get(e.type, ({}, {}))[0].get(key)
+            if spec is not None:
+                return {"deg": "°"}.get(spec.unit, spec.unit) or "1 (dimensionless)"
+    return "as in the design file"
+
+
+def _parameters_table(result) -> str:
+    body = []
+    for p in result.parameters:
+        at = p.get("at_bound")
+        flag = f'<span class="flag">at {_esc(at)}</span>' if at else ""
+        unit = _parameter_unit(result.start_design, p["name"])
+        body.append(
+            f'<tr><td>{_esc(p["name"])}</td><td>{_esc(unit)}</td><td class="num">{_esc(_f(p["start"], ".4g"))}</td>'
+            f'<td class="num">{_esc(_f(p["value"], ".6g"))}</td><td class="num">{_esc(_f(p["min"], ".4g"))}</td>'
+            f'<td class="num">{_esc(_f(p["max"], ".4g"))}</td>'
+            f'<td class="num">{_esc(_f(p["value"] - p["start"], "+.4g"))}</td><td>{flag}</td></tr>')
+    return ('<table id="parameters"><tr><th>parameter</th><th>unit</th><th>start</th><th>fitted</th>'
+            '<th>lower bound</th><th>upper bound</th><th>change</th><th>at bound</th></tr>'
+            f'{"".join(body)}</table>')
+
+
+def _matrix_table(m) -> str:
+    shared = m.matrix_scope == "shared"
+    blocks = []
+    for j, ill in enumerate(m.illuminants[:1] if shared else m.illuminants):
+        rows = "".join(
+            f"<tr><th>{ch} out</th>" + "".join(f'<td class="num">{_esc(_f(v, ".5f"))}</td>' for v in row) + "</tr>"
+            for ch, row in zip("RGB", np.asarray(m.matrices[j])))
+        title = "every illuminant (shared)" if shared else f"under {ill}"
+        blocks.append(f"<p>Matrix for {_esc(title)}:</p><table><tr><th></th><th>R in</th><th>G in</th>"
+                      f"<th>B in</th></tr>{rows}</table>")
+    return "".join(blocks)
+
+
+def _methods_list(methods: dict) -> str:
+    return '<dl class="methods">' + "".join(
+        f"<dt>{_esc(k.replace('_', ' '))}</dt><dd>{_esc(v)}</dd>" for k, v in methods.items()) + "</dl>"
+
+
+_CAPTIONS = {
+    "sensitivities": ("Camera sensitivities after white balance and the colour-correction matrix (solid) against "
+                      "the target colour-matching functions (dashed), start of the fit pale; below, the "
+                      "residual camera − target per wavelength. Scale: display RGB per unit light, divided by "
+                      "the largest target value."),
+    "delta_e_bars": ("ΔE00 (CIEDE2000) of every sample under every illuminant after white balance and the "
+                     "matrix, samples in the design's set order; solid line the mean, dashed the 95th "
+                     "percentile; the largest three are named."),
+    "chromaticity": ("CIE 1976 u′v′ chromaticities of the samples under the curve illuminant: an arrow from "
+                     "each sample's true colour (adapted to the display white, linear Bradford) to the "
+                     "camera's, coloured by ΔE00; arrows lengthened when too short to see, as the legend says."),
+    "noise_accuracy": ("Noise gain (largest row norm of the matrix) against mean ΔE00 over samples × illuminants "
+                       "for the three matrix rules — least squares, white-preserving (Finlayson & Drew 1997), "
+                       "ΔE00-minimising — at the start (open) and after the fit (filled)."),
+}
+
+_ALT = {
+    "sensitivities": "sensitivities against targets with residual panel",
+    "delta_e_bars": "per-sample ΔE00 bars per illuminant",
+    "chromaticity": "u′v′ diagram with arrows from true to camera colour",
+    "noise_accuracy": "noise gain against mean ΔE00 for three matrix rules",
+}
+
+
+def fit_report_html(result, evaluator=None, *, dpi: int = 100) -> str:
+    """One self-contained HTML page reporting a fit (inline CSS, figures as base64 PNG, no links).
+
+    Parameters
+    ----------
+    result : FitResult
+    evaluator : DesignEvaluator, optional
+        Of ``result.start_design``, for the noise-against-accuracy points
+        (built when None).
+    dpi : int
+        Resolution of the embedded figures.
+
+    Returns
+    -------
+    str
+        The HTML document. The status block (``id="status"``) says
+        converged, NOT CONVERGED or INTERRUPTED with the optimiser's message.
+    """
+    from workbench import __version__
+
+    points = noise_accuracy_points(result, evaluator)
+    figs = fit_report_figures(result, evaluator, points=points)
+    images = {}
+    for name, fig in figs.items():
+        images[name] = _png_data_uri(fig, dpi)
+        fig.clear()
+    a = result.after
+    d = result.design
+    fit = result.start_design.fit
+    objective = OBJECTIVE_TEXT.get(result.objective, result.objective)
+    search = "local only (bounded least squares, trust-region reflective)" if result.global_start in (
+        None, "none") else f"{result.global_start} global start (seed {result.seed}), then bounded least squares"
+    noise_w = f"; noise weight {fit.noise_weight:g} on the matrix row norms" if fit.noise_weight > 0 else ""
+    grid = d.grid
+    meta = (f"Design file {d.source or '(not from a file)'}; grid {grid.start_nm:g}-{grid.stop_nm:g} nm in "
+            f"{grid.step_nm:g} nm steps; {a.methods.get('observer', d.observer)}; "
+            f"target {a.methods.get('target', '')}; "
+            f"report by workbench {__version__}.")
+    noise_rows = "".join(
+        f"<tr><td>{_esc(p['label'])}</td><td class=\"num\">{_esc(_f(p['noise_gain'], '.3f'))}</td>"
+        f"<td class=\"num\">{_esc(_f(p['sigma_out'], '.5f'))}</td>"
+        f"<td class=\"num\">{_esc(_f(p['mean_delta_E00'], '.3f'))}</td>"
+        f"<td class=\"num\">{_esc(_f(p['vora_value'], '.4f'))}</td></tr>" for p in points)
+    figures = "".join(
+        f'<figure id="fig-{name}"><img src="{images[name]}" alt="{_esc(_ALT[name])}">'
+        f"<figcaption>{_esc(_CAPTIONS[name])}</figcaption></figure>" for name in figs)
+    notes = "".join(f"<li>{_esc(n)}</li>" for n in result.notes)
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>{_esc('Fit report: ' + d.name)}</title><style>{_CSS}</style></head><body>",
+        f"<h1>Fit report: {_esc(d.name)}</h1>",
+        f'<p class="meta">{_esc(d.description)}</p>' if d.description else "",
+        f'<p class="meta">{_esc(meta)}</p>',
+        _status_html(result),
+        "<h2>Objective and methods</h2>",
+        f"<p><b>Objective</b> <code>{_esc(result.objective)}</code>: {_esc(objective)}{_esc(noise_w)}. "
+        f"<b>Search</b>: {_esc(search)}. Cost Σr² {_esc(_f(result.cost_before, '.6g'))} at the start → "
+        f"{_esc(_f(result.cost_after, '.6g'))} fitted; {_esc(result.evaluations)} evaluations in "
+        f"{_esc(_f(result.seconds, '.2f'))} s.</p>",
+        _methods_list(a.methods),
+        "<h2>Measures at the start and after the fit</h2>",
+        _measures_table(result),
+        "<h2>Figures</h2>",
+        figures,
+        "<h3>Noise against accuracy, the numbers</h3>",
+        '<table id="noise-points"><tr><th>matrix rule, state</th><th>noise gain (largest row norm)</th>'
+        "<th>mean σ_out of the grey, display RGB (white = 1)</th><th>mean ΔE00 (CIEDE2000)</th>"
+        f"<th>Vora value ν</th></tr>{noise_rows}</table>",
+        "<h2>Fitted parameters</h2>",
+        _parameters_table(result),
+        "<h2>Colour-correction matrix after the fit</h2>",
+        f"<p>{_esc(a.matrix_method)}, {_esc(a.matrix_scope)}; rows map white-balanced camera RGB to the "
+        f"linear RGB of {_esc(a.methods.get('target', 'the display'))} (display white = 1).</p>",
+        _matrix_table(a),
+        "<h2>Notes</h2>" + (f"<ul>{notes}</ul>" if notes else "<p>none</p>"),
+        "</body></html>",
+    ]
+    return "\n".join(p for p in parts if p)
+
+
+def write_fit_report(result, path, *, evaluator=None) -> Path:
+    """Write :func:`fit_report_html` to ``path`` atomically (temporary file, then rename); returns the path.
+
+    The folder must exist (checked before the figures are drawn); an
+    existing file is replaced only once the new one is complete.
+    """
+    from workbench.errors import InputFileError
+
+    path = Path(path)
+    if not path.parent.is_dir():
+        raise InputFileError(f"cannot write: folder {path.parent} does not exist", str(path))
+    write_text_atomically(path, fit_report_html(result, evaluator))
+    return path

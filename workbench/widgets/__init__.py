@@ -1,0 +1,1 @@
+"""Notebook panels (ipywidgets); they only wire controls to public functions and plots."""
