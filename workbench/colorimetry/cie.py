@@ -1,8 +1,12 @@
 """CIE tables as plain arrays: colour-matching functions and illuminants.
 
-The tables come from colour-science (the reference library); this module
-turns them into read-only numpy arrays on any wavelength grid and caches
-them, so hot paths never build spectral-distribution objects.
+The tables come from colour-science (the reference library), copied once
+into the package data file ``colorimetry/data/cie_tables.npz`` by
+``colorimetry/data/make_tables.py`` (a test checks they equal
+colour-science's exactly). This module reads that file with numpy alone —
+it never imports colour-science — and puts the tables on any wavelength
+grid as read-only arrays, cached, so hot paths never build
+spectral-distribution objects.
 
 Rules used to put a table on another grid, each reported in the returned
 note:
@@ -25,6 +29,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import lru_cache
+from pathlib import Path
 
 import numpy as np
 
@@ -39,8 +44,14 @@ __all__ = [
     "illuminant_names",
     "illuminant_on",
     "illuminant_A",
+    "illuminant_table",
+    "illuminant_chromaticity",
+    "daylight_basis",
     "Tabulated",
 ]
+
+#: The package data file holding every CIE table (see make_tables.py beside it).
+TABLES_FILE = Path(__file__).with_name("data") / "cie_tables.npz"
 
 #: Observer keys accepted everywhere, and colour-science's names for them.
 OBSERVERS = {
@@ -69,6 +80,19 @@ def observer_label(observer) -> str:
     return _OBSERVER_LABEL[observer_key(observer)]
 
 
+@lru_cache(maxsize=1)
+def _npz():
+    return np.load(TABLES_FILE, allow_pickle=False)
+
+
+@lru_cache(maxsize=None)
+def table(key: str) -> np.ndarray:
+    """One array of the package's CIE tables file, read-only (keys: see make_tables.py)."""
+    a = _npz()[key]
+    a.setflags(write=False)
+    return a
+
+
 @lru_cache(maxsize=4)
 def cmfs_table(observer="2") -> tuple[np.ndarray, np.ndarray]:
     """The CIE colour-matching functions as tabulated: ``(λ (471,), x̄ȳz̄ (471, 3))``.
@@ -76,14 +100,8 @@ def cmfs_table(observer="2") -> tuple[np.ndarray, np.ndarray]:
     1 nm steps over 360-830 nm (CIE 15:2004, Tables T.4 and T.5, via
     colour-science). Read-only arrays.
     """
-    import colour
-
-    msds = colour.MSDS_CMFS[OBSERVERS[observer_key(observer)]]
-    wl = np.array(msds.wavelengths, dtype=float)
-    v = np.array(msds.values, dtype=float)
-    wl.setflags(write=False)
-    v.setflags(write=False)
-    return wl, v
+    key = observer_key(observer)
+    return table(f"cmfs_{key}_wl"), table(f"cmfs_{key}")
 
 
 @dataclass(frozen=True)
@@ -127,9 +145,45 @@ def cmfs_on(wavelengths, observer="2") -> Tabulated:
 @lru_cache(maxsize=1)
 def illuminant_names() -> tuple[str, ...]:
     """Names of the CIE (and other) illuminants colour-science ships."""
-    import colour
+    return tuple(str(n) for n in table("illuminant_names"))
 
-    return tuple(colour.SDS_ILLUMINANTS)
+
+@lru_cache(maxsize=128)
+def illuminant_table(name: str) -> tuple[np.ndarray, np.ndarray]:
+    """An illuminant's table as shipped: ``(λ (n,) nm, relative SPD (n,))``, read-only.
+
+    ``name`` as :func:`illuminant_on` accepts it (``F2`` for ``FL2``, any case).
+    """
+    i = illuminant_names().index(_canonical_illuminant(str(name)))
+    a, b = table("illuminant_offsets")[i:i + 2]
+    return table("illuminant_wl")[a:b], table("illuminant_values")[a:b]
+
+
+def illuminant_chromaticity(name: str, observer="2") -> tuple[str, np.ndarray] | None:
+    """The tabulated chromaticity ``(name, xy (2,))`` of an illuminant, or None when not listed.
+
+    CIE 15:2004, Table T.3 and the other whites colour-science lists, for the
+    2° or 10° observer; the name is matched without regard to case, and
+    ``F2`` finds ``FL2``.
+    """
+    key = observer_key(observer)
+    names = [str(n) for n in table(f"ccs_{key}_names")]
+    lowered = {n.lower(): i for i, n in enumerate(names)}
+    text = str(name).strip().lower()
+    i = lowered.get(text)
+    if i is None and text.startswith("f"):
+        i = lowered.get("fl" + text[1:])
+    if i is None:
+        return None
+    return names[i], np.array(table(f"ccs_{key}_xy")[i])
+
+
+def daylight_basis() -> tuple[np.ndarray, np.ndarray]:
+    """The CIE daylight basis: ``(λ (107,) nm, S0 S1 S2 (3, 107))``, 300-830 nm at 5 nm, read-only.
+
+    CIE 15:2004, Table T.2 (via colour-science).
+    """
+    return table("daylight_wl"), table("daylight_S")
 
 
 def _canonical_illuminant(name: str) -> str:
@@ -165,16 +219,12 @@ def illuminant_A(wavelengths) -> np.ndarray:
 
 @lru_cache(maxsize=256)
 def _illuminant_on(key: bytes, name: str, interpolation: str = "linear") -> Tabulated:
-    import colour
-
     wl = np.frombuffer(key, dtype=float)
     if name == "A":
         v = illuminant_A(wl)
         v.setflags(write=False)
         return Tabulated(v, "CIE illuminant A from its formula (CIE 15:2004, Eq. 2.1)")
-    sd = colour.SDS_ILLUMINANTS[name]
-    twl = np.array(sd.wavelengths, dtype=float)
-    tv = np.array(sd.values, dtype=float)
+    twl, tv = illuminant_table(name)
     values, used = resample_values(tv, twl, wl, method=interpolation, extrapolation="constant")
     node = np.isin(wl, twl)
     parts = []

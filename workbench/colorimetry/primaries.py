@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from workbench.colorimetry.cie import observer_key, OBSERVERS
+from workbench.colorimetry.cie import illuminant_chromaticity
 from workbench.colorimetry.coordinates import XYZ_to_xy
 from workbench.errors import WorkbenchError
 from workbench.model.spectra import Spectra
@@ -315,17 +315,13 @@ def white_chromaticity(white, *, observer="2") -> tuple[str, np.ndarray]:
             return f"x,y {parts[0]:g},{parts[1]:g}", _white_array(parts)
         if text.upper() in ("DCI", "DCI-P3"):
             return "DCI", np.array([0.314, 0.351])
-        import colour
-
-        table = colour.CCS_ILLUMINANTS[OBSERVERS[observer_key(observer)]]
-        lowered = {k.lower(): k for k in table}
-        k = lowered.get(text.lower()) or lowered.get("fl" + text.lower()[1:] if text.lower().startswith("f") else "")
-        if k is None:
+        found = illuminant_chromaticity(text, observer)
+        if found is None:
             raise WorkbenchError(
                 f"unknown white {white!r}; expected a CIE illuminant name (A, C, D50, D65, E, ...), "
                 "DCI or x,y"
             )
-        return k, _white_array(np.array(table[k], dtype=float))
+        return found[0], _white_array(found[1])
     return "x,y", _white_array(white)
 
 

@@ -8,7 +8,12 @@ Sets
     from colour-science (``colour.quality.SDS_TCS['CIE 1995']``).
 ``'cie-224'``
     The 99 colour evaluation samples of CIE 224:2017, 380-780 nm at 1 or
-    5 nm, from colour-science (``colour.quality.cfi2017.load_TCS_CIE2017``).
+    5 nm, from colour-science (``colour.quality.cfi2017.load_TCS_CIE2017``;
+    its 5 nm table is every fifth point of the 1 nm one).
+
+Both are read from the package's CIE tables file (see
+:mod:`workbench.colorimetry.cie`), copied from colour-science and checked
+equal to it by a test; nothing here imports colour-science.
 ``'csv'``
     A user's reflectance table, read by :func:`workbench.fileio.spectra_csv.read_spectra_csv`.
 
@@ -30,6 +35,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from workbench.colorimetry.cie import table as cie_table
 from workbench.errors import WorkbenchError
 from workbench.model.spectra import Spectra, check_wavelengths
 
@@ -40,25 +46,16 @@ SAMPLE_SETS = ("cie-13.3", "cie-224", "csv")
 
 @lru_cache(maxsize=1)
 def _tcs_table() -> Spectra:
-    import colour
-
-    sds = colour.quality.SDS_TCS["CIE 1995"]
-    names = tuple(sds)
-    wl = np.array(sds[names[0]].wavelengths, dtype=float)
-    values = np.stack([np.array(sds[n].values, dtype=float) for n in names])
-    return Spectra(wl, values, names, kind="reflectance",
+    names = tuple(str(n) for n in cie_table("tcs_names"))
+    return Spectra(cie_table("tcs_wl"), cie_table("tcs"), names, kind="reflectance",
                    notes=("CIE 13.3-1995 test colour samples TCS01-TCS14 (via colour-science)",),
                    source="CIE 13.3-1995")
 
 
 @lru_cache(maxsize=2)
 def _ces_table(step: int) -> Spectra:
-    import colour
-    from colour.quality.cfi2017 import load_TCS_CIE2017
-
-    msds = load_TCS_CIE2017(colour.SpectralShape(380, 780, step))
-    wl = np.array(msds.wavelengths, dtype=float)
-    values = np.array(msds.values, dtype=float).T
+    wl = np.ascontiguousarray(cie_table("ces_wl")[::step])
+    values = np.ascontiguousarray(cie_table("ces")[:, ::step])
     names = tuple(f"CES{i + 1:02d}" for i in range(values.shape[0]))
     return Spectra(wl, values, names, kind="reflectance",
                    notes=(f"CIE 224:2017 colour evaluation samples CES01-CES99 at {step} nm "

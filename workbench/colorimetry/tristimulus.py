@@ -174,6 +174,8 @@ def _astm_summation_weights(wl, step, observer, illuminant_key) -> Weights:
 
 
 def _astm_weights(wl, step, observer, illuminant_key) -> Weights:
+    # Late import, the only one of colour-science on the tristimulus path: the
+    # ASTM E2022 weighting factors for 10 and 20 nm data are its computation.
     import colour
     from colour.colorimetry import (
         adjust_tristimulus_weighting_factors_ASTME308,
