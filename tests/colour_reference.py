@@ -14,7 +14,7 @@ import numpy as np
 
 
 def gaussian_camera(wl):
-    """The open synthetic test camera of methods.md: peaks 610/540/450 nm, σ 30/35/25 nm."""
+    """The open synthetic test camera (docs/methods.md §8): peaks 610/540/450 nm, σ 30/35/25 nm."""
     return np.stack([np.exp(-0.5 * ((wl - p) / s) ** 2) for p, s in ((610, 30), (540, 35), (450, 25))])
 
 

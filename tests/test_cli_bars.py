@@ -14,7 +14,7 @@ class TestBarsCommand:
         # common practice: the bar order
         assert names == ["white", "yellow", "cyan", "green", "magenta", "red", "blue", "black"]
         yellow = data["bars"][1]
-        # methods.md § 5 (derived from ITU-R BT.601 coefficients; BT.801-1 worked example, second-hand)
+        # ITU-R BT.601-7 coefficients and code levels (computed); BT.801-1 worked example, second-hand (docs/methods.md §7)
         assert (yellow["Y8"], yellow["Cb8"], yellow["Cr8"]) == (162, 44, 142)
 
     def test_csv_has_header(self, capsys):

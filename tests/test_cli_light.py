@@ -25,7 +25,7 @@ def run_json(capsys, *args):
 
 
 def sensitivity_csv(path: Path, wl=None) -> Path:
-    """The open Gaussian camera of methods.md as a three-column sensitivity CSV."""
+    """The open synthetic Gaussian camera (docs/methods.md §8) as a three-column sensitivity CSV."""
     wl = grid(380, 780, 5) if wl is None else wl
     S = np.stack([np.exp(-0.5 * ((wl - p) / s) ** 2) for p, s in ((610, 30), (540, 35), (450, 25))])
     write_spectra_csv(Spectra(wl, S, ("R", "G", "B"), kind="sensitivity", units="relative"), path)

@@ -53,7 +53,7 @@ class TestContract:
 
 class TestBars:
     def test_json_bt709_75(self, capsys):
-        """75 % BT.709 bars' 8-bit codes equal colour.RGB_to_YCbCr's (reference library; methods.md § 5)."""
+        """75 % BT.709 bars' 8-bit codes equal colour.RGB_to_YCbCr's (reference library; ITU-R BT.709-6 item 6.10; docs/methods.md §7)."""
         d = _json(capsys, ["primaries", "--bars", "--luma", "BT.709", "--bar-amplitude", "75", "--format", "json"])
         assert [r["bar"] for r in d["bars"]][:3] == ["white", "yellow", "cyan"]
         ref = colour.RGB_to_YCbCr(np.array([0.75, 0.75, 0.0]), K=colour.WEIGHTS_YCBCR["ITU-R BT.709"],

@@ -51,7 +51,7 @@ class TestMatrices:
 
         M = least_squares_matrix(self.C, self.T)
         ref = colour.characterisation.matrix_colour_correction(self.C, self.T, method="Cheung 2004", terms=3)
-        np.testing.assert_allclose(M, ref, atol=1e-10)  # colour-science 0.4.7 (methods.md § 3)
+        np.testing.assert_allclose(M, ref, atol=1e-10)  # colour-science 0.4.7 (docs/methods.md §10)
 
     def test_white_preserving_maps_white_exactly(self):
         """The white-preserving matrix maps w_c to w_t to rounding."""
@@ -84,7 +84,7 @@ class TestMatrices:
         M = white_preserving_matrix(self.C, self.T)
         ref = colour.characterisation.whitepoint_preserving_matrix(least_squares_matrix(self.C, self.T))
         cost = lambda m: np.sum((self.C @ m.T - self.T) ** 2)  # noqa: E731
-        # methods.md § 3 (⚠): both map (1,1,1) to (1,1,1); the closed form has the lower cost
+        # Finlayson & Drew (1997) optimum vs colour-science 0.4.7: both map (1,1,1) to (1,1,1); the closed form has the lower cost (docs/methods.md §10)
         np.testing.assert_allclose(ref @ np.ones(3), np.ones(3), atol=1e-12)
         assert cost(M) < cost(ref)
 
@@ -109,7 +109,7 @@ class TestBradford:
 
 
 # --------------------------------------------------------------------------
-# Measures of the synthetic Gaussian camera (methods.md §§ 1-3)
+# Measures of the synthetic Gaussian camera (docs/methods.md §§8-11)
 # --------------------------------------------------------------------------
 
 
@@ -127,26 +127,26 @@ class TestGaussianCamera:
         Pa = Xc @ np.linalg.pinv(Xc)
         Pm = S.T @ np.linalg.pinv(S.T)
         assert vora_value(S.T, X) == pytest.approx(np.trace(Pa @ Pm) / 3, abs=1e-10)
-        assert vora_value(S.T, X) == pytest.approx(0.9769, abs=5e-5)  # methods.md § 1 [C]
+        assert vora_value(S.T, X) == pytest.approx(0.9769, abs=5e-5)  # Vora & Trussell (1993); computed (docs/methods.md §8)
         E = d65(wl)
-        assert vora_value(S.T, X, E, E) == pytest.approx(0.9758, abs=5e-5)  # methods.md § 1 [C]
-        np.testing.assert_allclose(neugebauer_q(S.T, X), [0.9467, 0.9928, 0.9865], atol=5e-5)  # methods.md § 1
-        assert luther_residual(S.T, X) == pytest.approx(0.156, abs=5e-4)  # methods.md § 1 [C]
+        assert vora_value(S.T, X, E, E) == pytest.approx(0.9758, abs=5e-5)  # Vora & Trussell (1993); computed (docs/methods.md §8)
+        np.testing.assert_allclose(neugebauer_q(S.T, X), [0.9467, 0.9928, 0.9865], atol=5e-5)  # Neugebauer (1956); computed (docs/methods.md §8)
+        assert luther_residual(S.T, X) == pytest.approx(0.156, abs=5e-4)  # Luther (1927); computed (docs/methods.md §8)
 
     def test_smi(self):
         """ISO 17321-1-style SMI of the Gaussian camera: mean ΔE*ab 0.677, SMI 96.3 (D65, TCS01-08)."""
         wl = grid(380, 780, 5)
         tcs = tcs_cie_13_3(wl).flat()[:8]
         r = sensitivity_metamerism_index(gaussian_camera(wl), wl, tcs, d65(wl))
-        assert r["mean_delta_E_ab"] == pytest.approx(0.677, abs=5e-4)  # methods.md § 2 [C]
-        assert r["smi"] == pytest.approx(96.3, abs=0.05)  # methods.md § 2 [C]
+        assert r["mean_delta_E_ab"] == pytest.approx(0.677, abs=5e-4)  # ISO 17321-1-style; computed (docs/methods.md §11)
+        assert r["smi"] == pytest.approx(96.3, abs=0.05)  # ISO 17321-1-style, slope 5.5 from memory (docs/methods.md §11)
 
     def test_smi_luther_camera_is_100(self):
         """A Luther camera scores SMI 100."""
         wl = grid(380, 780, 5)
         S = (cmfs_on(wl).values @ np.array([[1, 0.2, 0], [0.1, 1, 0], [0, 0.3, 1]]).T).T
         r = sensitivity_metamerism_index(S, wl, tcs_cie_13_3(wl).flat()[:8], d65(wl))
-        assert r["smi"] == pytest.approx(100.0, abs=1e-9)  # methods.md § 2 [C]
+        assert r["smi"] == pytest.approx(100.0, abs=1e-9)  # Luther (1927): exact matrix (docs/methods.md §11)
 
     @pytest.mark.parametrize("method, expected", [("least-squares", 0.776), ("white-preserving", 1.088)])
     def test_delta_e_99_samples(self, method, expected):
@@ -155,7 +155,7 @@ class TestGaussianCamera:
         ces = ces_cie_224(wl)
         b = ColourBench(wl, ces, {"D65": d65(wl)}, BT709)
         r = b.evaluate(gaussian_camera(wl), method)
-        assert r.delta_E00.mean() == pytest.approx(expected, abs=5e-4)  # methods.md § 3 [C]
+        assert r.delta_E00.mean() == pytest.approx(expected, abs=5e-4)  # CIE 142-2001; computed with colour-science 0.4.7 (docs/methods.md §10)
 
     def test_pipeline_equals_colour_science(self):
         """Per-sample ΔE00 under D65 and A equals a per-sample pipeline built from colour-science calls."""
@@ -184,7 +184,7 @@ class TestLutherCamera:
         S = (cmfs_on(wl).values @ mix.T).T
         X = cmfs_on(wl).values
         E = d65(wl)
-        assert vora_value(S.T, X, E, E) == pytest.approx(1.0, abs=1e-12)  # Luther (1927); methods.md § 1
+        assert vora_value(S.T, X, E, E) == pytest.approx(1.0, abs=1e-12)  # Luther (1927); docs/methods.md §8
         np.testing.assert_allclose(neugebauer_q(S.T, X, E, E), 1.0, atol=1e-12)
         b = ColourBench(wl, ces_cie_224(wl), {"D65": E, "A": illum_A(wl)}, BT709)
         for method in ("least-squares", "white-preserving"):

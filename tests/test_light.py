@@ -52,7 +52,7 @@ def spd(wl, values, name="test", units="relative") -> Spectra:
 
 
 def gaussian_camera(wl=WL5) -> Camera:
-    """The open Gaussian camera of methods.md (610/540/450 nm, σ 30/35/25), least squares on the 99 CES under D65."""
+    """The open synthetic Gaussian camera of docs/methods.md §8 (610/540/450 nm, σ 30/35/25), least squares on the 99 CES under D65."""
     S = np.stack([np.exp(-0.5 * ((wl - p) / s) ** 2) for p, s in ((610, 30), (540, 35), (450, 25))])
     _, d65 = illuminant_on(wl, "D65")
     bench = ColourBench(wl, ces_cie_224(wl, extrapolation="constant"), {"D65": np.asarray(d65.values)}, BT709)
@@ -193,11 +193,11 @@ class TestReferenceIlluminant:
 
 
 class TestLightIndices:
-    # CIE 15:2004, Table T.8 (F1-F12 CCT and Ra) -- from memory; methods.md § 6
+    # CIE 15:2004, Table T.8 (F1-F12 CCT and Ra) -- from memory; docs/methods.md §17
     CIE_TABLE = {1: (6430, 76), 2: (4230, 64), 3: (3450, 57), 4: (2940, 51), 5: (6350, 72), 6: (4150, 59),
                  7: (6500, 90), 8: (5000, 95), 9: (4150, 90), 10: (5000, 81), 11: (4000, 83), 12: (3000, 83)}
 
-    # methods.md § 6, "colour CCT (K)" row (computed with colour-science, whole kelvin)
+    # colour-science 0.4.7 CCT (Ohno 2013), whole kelvin (docs/methods.md §17)
     COLOUR_CCT = {1: 6428, 2: 4225, 3: 3446, 4: 2938, 5: 6345, 6: 4149, 7: 6495, 8: 4997, 9: 4149, 10: 4998,
                   11: 3999, 12: 3000}
 
@@ -210,7 +210,7 @@ class TestLightIndices:
         cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"].copy().align(sd.shape)
         uv = colour.UCS_to_uv(colour.XYZ_to_UCS(colour.sd_to_XYZ(sd, cmfs, method="Integration")))
         cct, duv = colour.uv_to_CCT(uv, method="Ohno 2013")  # CIE 15 summation at the table's 5 nm
-        assert abs(r.CCT - self.COLOUR_CCT[i]) <= 1  # methods.md § 6 [C], to its whole-kelvin rounding
+        assert abs(r.CCT - self.COLOUR_CCT[i]) <= 1  # colour-science 0.4.7, to its whole-kelvin rounding (docs/methods.md §17)
         assert r.CCT == pytest.approx(cct, abs=1e-6) and r.Duv == pytest.approx(duv, abs=1e-9)
         table_cct, table_ra = self.CIE_TABLE[i]
         assert abs(r.CCT - table_cct) <= 15      # CIE 15:2004 Table T.8, from memory (10 K steps)
@@ -218,12 +218,12 @@ class TestLightIndices:
         assert len(r.R) == 14
 
     def test_colour_science_pins(self):
-        """colour-science's own tests pin FL1 = 75.852828 and FL2 = 64.233724 (methods.md § 6)."""
+        """colour-science's own tests pin FL1 = 75.852828 and FL2 = 64.233724 (CIE 13.3-1995; docs/methods.md §17)."""
         assert light_indices(light("FL1")).Ra == pytest.approx(75.852828, abs=1e-5)
         assert light_indices(light("FL2")).Ra == pytest.approx(64.233724, abs=1e-5)
 
     def test_tm30_fl2(self):
-        """TM-30-18 of FL2: Rf 70, Rg 86 (colour-science's tests; methods.md § 7)."""
+        """TM-30-18 of FL2: Rf 70, Rg 86 (ANSI/IES TM-30-18 via colour-science's tests; docs/methods.md §17)."""
         r = light_indices(light("FL2"))
         assert round(r.Rf) == 70 and round(r.Rg) == 86
         assert r.Rf == pytest.approx(70.1, abs=0.05)  # CIE 2017 FL2 R_f 70.1 (colour tests)
@@ -262,7 +262,7 @@ class TestLightIndices:
         assert r.CCT == pytest.approx(2700, abs=1) and abs(r.Duv) < 1e-4  # Ohno 2014: within 1 K
 
     def test_A_cct(self):
-        """Illuminant A: CCT 2855.5 K (c₂ change from 1.435 to 1.4388; CIE e-ILV / methods.md § 6)."""
+        """Illuminant A: CCT 2855.5 K (c₂ change from 1.435 to 1.4388; CIE e-ILV, illuminant A; docs/methods.md §17)."""
         assert light_indices(light("A")).CCT == pytest.approx(2855.5, abs=0.5)
 
     def test_illuminance_of_absolute_spd(self):
@@ -312,7 +312,7 @@ class TestLightIndices:
 
 class TestCameraFidelityScore:
     def test_half_point(self):
-        """ΔE_a = 3.16 scores 50 (EBU Tech 3355 § 1.5.1, methods.md § 7)."""
+        """ΔE_a = 3.16 scores 50 (EBU Tech 3355 § 1.5.1; docs/methods.md §18)."""
         q, dea = camera_fidelity_score([3.16] * 5)
         assert float(q) == pytest.approx(50.0, abs=1e-12) and float(dea) == pytest.approx(3.16)
 

@@ -1,4 +1,4 @@
-"""Tests of workbench.analysis.measures against methods.md § 1 (the synthetic "Gaussian camera")."""
+"""Tests of workbench.analysis.measures against Vora & Trussell (1993), Neugebauer (1956) and docs/methods.md §8 (the synthetic "Gaussian camera")."""
 
 from __future__ import annotations
 
@@ -20,7 +20,7 @@ def cmfs():
 
 
 def gaussian_camera():
-    # methods.md: normalised Gaussians, peaks 610/540/450 nm, σ 30/35/25 nm
+    # docs/methods.md §8: normalised Gaussians, peaks 610/540/450 nm, σ 30/35/25 nm
     peaks, sig = np.array([610.0, 540.0, 450.0]), np.array([30.0, 35.0, 25.0])
     return np.exp(-0.5 * ((WL[:, None] - peaks) / sig) ** 2)
 
@@ -32,7 +32,7 @@ def d65():
 
 class TestVoraValue:
     def test_cmfs_and_transform(self):
-        """ν(X̄) = ν(X̄T) = 1 (Luther condition; methods.md § 1 [C])."""
+        """ν(X̄) = ν(X̄T) = 1 (Luther 1927; Vora & Trussell 1993; docs/methods.md §8)."""
         X = cmfs()
         T = np.array([[0.9, 0.3, 0.0], [-0.2, 1.1, 0.1], [0.05, -0.1, 1.3]])
         assert abs(vora_value(X, X) - 1.0) < 1e-12
@@ -40,7 +40,7 @@ class TestVoraValue:
 
     def test_gaussian_camera(self):
         """Gaussian camera: ν 0.9769 (equal energy), 0.9758 (D65 both sides)."""
-        # methods.md § 1 [C]: recomputed here as the mean cos² of the principal angles
+        # Vora & Trussell (1993); docs/methods.md §8: recomputed here as the mean cos² of the principal angles
         S, X, l = gaussian_camera(), cmfs(), d65()
         ref_e = np.mean(np.cos(subspace_angles(S, X)) ** 2)
         ref_d = np.mean(np.cos(subspace_angles(l[:, None] * S, l[:, None] * X)) ** 2)
@@ -75,10 +75,10 @@ class TestVoraValue:
 
 class TestNeugebauerQ:
     def test_gaussian_camera(self):
-        """q(R, G, B) = 0.9467 / 0.9928 / 0.9865 (methods.md § 1 [C])."""
+        """q(R, G, B) = 0.9467 / 0.9928 / 0.9865 (Neugebauer 1956; computed, docs/methods.md §8)."""
         S, X = gaussian_camera(), cmfs()
         q = neugebauer_q(S, X)
-        # recompute [C]: squared cosine of each channel with its projection by lstsq
+        # Neugebauer (1956), recomputed: squared cosine of each channel with its projection by lstsq
         coef, *_ = np.linalg.lstsq(X, S, rcond=None)
         P = X @ coef
         ref = np.sum(P * P, axis=0) / np.sum(S * S, axis=0)

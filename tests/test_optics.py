@@ -18,15 +18,15 @@ class TestAngleShift:
 
     def test_textbook_values(self):
         """λ₀ 550 nm, n_eff 1.8 in air: 547.4 / 540.0 / 505.8 nm at 10/20/45°."""
-        # methods.md § 4 [C]; formula: Smith, Modern Optical Engineering, 4th ed., Ch. 11
+        # Smith, Modern Optical Engineering, 4th ed., Ch. 11 (the formula); values computed from it (docs/methods.md §14)
         got = optics.angle_shifted_wavelength(550.0, np.array([10.0, 20.0, 45.0]), 1.8)
         np.testing.assert_allclose(np.round(got, 1), [547.4, 540.0, 505.8])
-        # n_eff 2.0 -> 514.5, 1.6 -> 493.4 at 45° (methods.md § 4 [C])
+        # n_eff 2.0 -> 514.5, 1.6 -> 493.4 at 45°: Smith, Ch. 11, computed (docs/methods.md §14)
         got = optics.angle_shifted_wavelength(550.0, 45.0, np.array([2.0, 1.6]))
         np.testing.assert_allclose(np.round(got, 1), [514.5, 493.4])
 
     def test_inside_glass(self):
-        """In glass n₀ = 1.52 at 25°, n_eff 1.8: 513.8 nm (methods.md § 4 [C])."""
+        """In glass n₀ = 1.52 at 25°, n_eff 1.8: 513.8 nm (Smith, Ch. 11; docs/methods.md §14)."""
         assert round(float(optics.angle_shifted_wavelength(550.0, 25.0, 1.8, 1.52)), 1) == 513.8
 
     @pytest.mark.parametrize("shape", [(), (6,), (2, 3)])
@@ -45,7 +45,7 @@ class TestAngleShift:
 class TestAbsorbingGlass:
     def test_published_example(self):
         """T(1 mm) 59.8 % with P_d 0.911 -> 36.1 % at 2.2 mm."""
-        # Smith, Modern Optical Engineering, Eqs. 10.2-10.6; SCHOTT TIE-35 (methods.md § 4)
+        # Smith, Modern Optical Engineering, Eqs. 10.2-10.6; SCHOTT TIE-35 worked example (docs/methods.md §14)
         n = 1.55
         assert round(float(optics.reflection_factor(n)), 3) == 0.911
         tau1 = 0.598 / optics.reflection_factor(n)

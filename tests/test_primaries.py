@@ -51,7 +51,7 @@ class TestMatrixRP177:
         np.testing.assert_allclose(matrix_RGB_to_XYZ_RP177(p.xy, p.white_xy), ref, atol=1e-12)
 
     def test_bt709_npm(self):
-        """BT.709 NPM against colour's BT.709 colourspace matrix (methods.md § 5, [C])."""
+        """BT.709 NPM against colour's BT.709 colourspace matrix (SMPTE RP 177-1993; colour-science 0.4.7; docs/methods.md §5)."""
         ref = colour.RGB_COLOURSPACES["ITU-R BT.709"].matrix_RGB_to_XYZ
         np.testing.assert_allclose(PRIMARIES["ITU-R BT.709"].matrix_RGB_to_XYZ, ref, atol=1e-4)
 

@@ -27,7 +27,7 @@ def _rows(rows, *keys):
 
 class TestLuma:
     def test_bt601_bars_published(self):
-        """100 % BT.601 bar luma: yellow 0.886 (ITU-R BT.801-1 worked example, second-hand, methods.md § 5)."""
+        """100 % BT.601 bar luma: yellow 0.886 (ITU-R BT.801-1 worked example, second-hand; docs/methods.md §7)."""
         assert luma([1, 1, 0], "BT.601") == pytest.approx(0.886)
 
     @pytest.mark.parametrize("system", ["BT.601", "BT.709"])
@@ -90,7 +90,7 @@ class TestCodeValues:
     @pytest.mark.parametrize("bits", [8, 10])
     @pytest.mark.parametrize("amp", [1.0, 0.75])
     def test_bars_against_colour(self, system, bits, amp):
-        """Bar code values equal colour.RGB_to_YCbCr(out_legal, out_int) (reference library; methods.md § 5)."""
+        """Bar code values equal colour.RGB_to_YCbCr(out_legal, out_int) (reference library; docs/methods.md §7)."""
         ref = colour.RGB_to_YCbCr(BAR_RGB * amp, K=colour.WEIGHTS_YCBCR[K_COLOUR[system]],
                                   out_bits=bits, out_legal=True, out_int=True)
         got = _rows(colour_bars(amp, system), f"Y{bits}", f"Cb{bits}", f"Cr{bits}")
@@ -120,7 +120,7 @@ class TestBars:
         assert rows[0]["Y8"] == 235 and rows[1]["R'"] == 0.75
 
     def test_75_white(self):
-        """75 % white = 180/128/128 (methods.md § 5)."""
+        """75 % white = 180/128/128 (ITU-R BT.601-7 / BT.709-6 code levels, computed; docs/methods.md §7)."""
         r = colour_bars(0.75, "BT.709")[0]
         assert (r["Y8"], r["Cb8"], r["Cr8"]) == (180, 128, 128)
 

@@ -375,14 +375,14 @@ class TestRunTolerance:
 
 class TestFieldShift:
     def test_angle_reaches_the_splitter_in_glass(self, tmp_path):
-        """A 5° field offset on a 20° face in glass moves a 550 nm edge to 513.8 nm (methods.md §4 check)."""
+        """A 5° field offset on a 20° face in glass moves a 550 nm edge to 513.8 nm (Smith, Modern Optical Engineering, Ch. 11; docs/methods.md §14)."""
         d = write_design(tmp_path, start=450, step=1, bg=550.0, bg_width=20.0, aoi=20.0)
         f = T.field_shift(d, positions=[FieldPosition("edge", 5.0)])
         wl = f.wavelengths
         b = f.sensitivities[0, 2]                              # B path = the first face's reflection
         i = int(np.argmax(b < 0.5))
         crossing = wl[i - 1] + (b[i - 1] - 0.5) / (b[i - 1] - b[i]) * (wl[i] - wl[i - 1])
-        # Smith, Modern Optical Engineering, Ch. 11: λ = λ0·√(1 − (n0 sin θ / n_eff)²); 513.8 nm [C]
+        # Smith, Modern Optical Engineering, Ch. 11: λ = λ0·√(1 − (n0 sin θ / n_eff)²); 513.8 nm computed (docs/methods.md §14)
         assert crossing == pytest.approx(550 * math.sqrt(1 - (1.52 * math.sin(math.radians(25)) / 1.8) ** 2), abs=0.02)
         assert round(crossing, 1) == 513.8
 

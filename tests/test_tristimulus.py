@@ -80,7 +80,7 @@ class TestObjectWeights:
     @pytest.mark.parametrize(
         "name, XYZ",
         [
-            # ASTM E308-15, Table 5 (10 nm, 2°) white points, as quoted in methods.md § 6 (from memory)
+            # ASTM E308-15, Table 5 (10 nm, 2°) white points, from memory (docs/methods.md §3)
             ("D65", (95.047, 100.0, 108.883)),
             ("D50", (96.422, 100.0, 82.521)),
             ("A", (109.850, 100.0, 35.585)),
