@@ -95,7 +95,7 @@ class TestChromaticity:
         """xy → XYZ → xy round-trips; Δu′v′ is Euclidean."""
         XYZ = xy_to_XYZ([[0.64, 0.33], [0.3, 0.6]], Y=[21.26, 71.52])
         np.testing.assert_allclose(XYZ_to_xy(XYZ), [[0.64, 0.33], [0.3, 0.6]])
-        assert delta_uv_prime([0.2, 0.4], [0.203, 0.404]) == pytest.approx(0.005)
+        assert delta_uv_prime([0.2, 0.4], [0.203, 0.404]) == pytest.approx(0.005)  # √(0.003² + 0.004²), computed (docs/methods.md §4)
 
 
 class TestLab:
