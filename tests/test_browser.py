@@ -247,7 +247,7 @@ def test_design_notebook(page, lab):
 
 
 def _design_notebook(page, lab):
-    from workbench.model.design import load_design
+    from workbench.fileio.design_toml import load_design
     from workbench.analysis.fitting import DesignEvaluator
 
     open_and_run(page, lab, "02-camera-design.ipynb")

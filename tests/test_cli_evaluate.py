@@ -9,7 +9,7 @@ import numpy as np
 
 from workbench.colorimetry.cie import cmfs_on
 from workbench.cli.main import main
-from workbench.model.design import load_design
+from workbench.fileio.design_toml import load_design
 from workbench.analysis.measures import vora_value
 from workbench.fileio.spectra_csv import read_spectra_csv
 

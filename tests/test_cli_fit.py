@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 from workbench.cli.main import main
-from workbench.model.design import load_design
+from workbench.fileio.design_toml import load_design
 from workbench.analysis.fitting import DesignEvaluator
 from workbench.fileio.spectra_csv import read_spectra_csv
 

@@ -40,7 +40,7 @@ def gaussian_csv(tmp_path_factory):
 @pytest.fixture(scope="module")
 def demo_expected():
     """The demo scene under the design's stage LED, through the public functions in memory."""
-    from workbench.model.design import load_design
+    from workbench.fileio.design_toml import load_design
     from workbench.analysis.fitting import load_camera
 
     camera = load_camera(DESIGN)

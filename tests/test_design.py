@@ -11,7 +11,8 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from workbench.model.design import CHANNELS, DesignError, load_design, save_design
+from workbench.model.design import CHANNELS, DesignError
+from workbench.fileio.design_toml import load_design, save_design
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.spectra_csv import read_spectra_csv
 

@@ -13,7 +13,7 @@ from colour_reference import evaluate_with_colour, gaussian_camera
 from workbench.analysis.camera import (ColourBench, bradford_matrix, least_squares_matrix,
                               white_preserving_matrix)
 from workbench.colorimetry.cie import cmfs_on, illuminant_on
-from workbench.model.design import load_design
+from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.fitting import (DesignEvaluator, fit_design, load_camera, luther_residual,
                                noise_report, sensitivity_metamerism_index)

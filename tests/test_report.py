@@ -19,7 +19,7 @@ import numpy as np
 import pytest
 from scipy.linalg import subspace_angles
 
-from workbench.model.design import load_design
+from workbench.fileio.design_toml import load_design
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.analysis.fitting import DesignEvaluator, fit_design
 from workbench.plots.fit import (ARROW_SCALES, plot_chromaticity_shifts, plot_delta_e_bars,

@@ -13,7 +13,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from workbench.model.design import FieldPosition, Tolerance, load_design
+from workbench.model.design import FieldPosition, Tolerance
+from workbench.fileio.design_toml import load_design
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.analysis.fitting import DesignEvaluator
 from workbench.analysis import tolerance as T

@@ -21,7 +21,7 @@ from PIL import Image
 
 from workbench import demo_dir
 from workbench.cli.main import main as cli_main
-from workbench.model.design import load_design
+from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.fitting import DesignEvaluator, FitResult, fit_design
 from workbench.widgets.design import (

@@ -29,7 +29,7 @@ ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "tests"))
 
 from colour_reference import evaluate_with_colour  # noqa: E402
-from workbench.model.design import load_design  # noqa: E402
+from workbench.fileio.design_toml import load_design  # noqa: E402
 from workbench.analysis.fitting import DesignEvaluator, fit_design  # noqa: E402
 
 DEMO = ROOT / "spectra-demo" / "tern3_design.toml"

@@ -42,7 +42,7 @@ def main() -> None:
     import os
 
     from workbench import demo_dir
-    from workbench.model.design import load_design
+    from workbench.fileio.design_toml import load_design
     from workbench.analysis.fitting import DesignEvaluator
     from workbench.analysis.tolerance import run_tolerance, sample_parameters
 

@@ -46,7 +46,8 @@ import numpy as np
 from workbench.analysis.camera import Camera, ColourBench, bradford_matrix, least_squares_matrix
 from workbench.colorimetry.cie import cmfs_on, illuminant_on, observer_label
 from workbench.colorimetry.coordinates import Lab_to_XYZ, XYZ_to_Lab, XYZ_to_uv_prime
-from workbench.model.design import CHANNELS, Design, FittedMatrix, load_design
+from workbench.model.design import CHANNELS, Design, FittedMatrix
+from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.measures import neugebauer_q, orthonormal_basis, vora_value
 from workbench.colorimetry.primaries import (

@@ -44,8 +44,8 @@ import numpy as np
 import ipywidgets as W
 
 from workbench import demo_dir
-from workbench.model.design import (CHANNELS, ELEMENT_TYPES, Design, load_design,
-                     save_design)
+from workbench.model.design import CHANNELS, ELEMENT_TYPES, Design
+from workbench.fileio.design_toml import load_design, save_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.fitting import DesignEvaluator, FitResult, Measures, fit_design, fitted_matrix
 
@@ -185,7 +185,7 @@ def design_from_upload(name: str, content: bytes, base_dir) -> Design:
     Relative file names in it resolve against ``base_dir``; messages name
     the file ``name``, as the command line names a path.
     """
-    from workbench.model.design import design_from_bytes
+    from workbench.fileio.design_toml import design_from_bytes
 
     return design_from_bytes(content, source=name, base_dir=base_dir)
 

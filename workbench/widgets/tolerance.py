@@ -51,7 +51,8 @@ class TolerancePanel:
     def __init__(self, design, *, trials: int = 500, seed: int = 0, matrix: str = "both"):
         import ipywidgets as widgets
 
-        from workbench.model.design import Design, load_design
+        from workbench.model.design import Design
+        from workbench.fileio.design_toml import load_design
         from workbench.analysis.fitting import DesignEvaluator
         from workbench.analysis.tolerance import MATRIX_CHOICES
 

@@ -12,7 +12,8 @@ from __future__ import annotations
 import numpy as np
 
 from workbench.colorimetry.cie import cmfs_on, observer_label
-from workbench.model.design import CHANNELS, load_design
+from workbench.model.design import CHANNELS
+from workbench.fileio.design_toml import load_design
 from workbench.analysis.measures import neugebauer_q, vora_value
 from workbench.cli.commands._output import notice, render_rows, to_json
 

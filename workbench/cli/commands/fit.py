@@ -23,7 +23,8 @@ import csv
 import io
 from pathlib import Path
 
-from workbench.model.design import CHANNELS, GLOBAL_STARTS, load_design
+from workbench.model.design import CHANNELS, GLOBAL_STARTS
+from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
 from workbench.cli.commands._output import atomic_write_text, notice, render_rows, to_json
 

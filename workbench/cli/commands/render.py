@@ -80,7 +80,7 @@ def _illuminant(design_path: Path, camera, name: str):
 
     names: list[str] = []
     if design_path.suffix.lower() == ".toml":
-        from workbench.model.design import load_design
+        from workbench.fileio.design_toml import load_design
 
         design = load_design(design_path)
         names = [i.name for i in design.illuminants]

@@ -26,7 +26,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from workbench.model.design import load_design
+from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
 from workbench.cli.commands._output import notice, render_rows, to_json
 

@@ -1,0 +1,862 @@
+"""Design files: read, validate and write the TOML form of a :class:`~workbench.model.design.Design`.
+
+Loading validates everything before anything is computed and reports every
+problem at once in one :class:`~workbench.model.design.DesignError`, whose
+first line is a summary (``<file>: 3 problems in the design file``) and whose
+next lines are ``key.path: expected ... (got ...)``, one per problem. Unknown
+keys and sections are errors. Saving writes through a temporary file and
+``os.replace``; load → save → load gives an equal design. No pickle, no eval:
+the file is data.
+
+Over 600 lines for a reason: the validator is one piece — one checker that
+collects every problem of a file, and one ``_check_*`` function per section
+of the schema, each short; splitting them apart would hide which rule
+produced which message.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import re
+import tomllib
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from workbench.errors import InputFileError, WorkbenchError
+from workbench.fileio.atomic import write_text_atomically
+from workbench.model.design import (
+    CHANNELS,
+    ELEMENT_TYPES,
+    GLOBAL_STARTS,
+    MATRIX_METHODS,
+    MATRIX_SCOPES,
+    OBJECTIVES,
+    SCHEMA,
+    TARGET_KINDS,
+    TOLERANCE_DISTRIBUTIONS,
+    Design,
+    DesignError,
+    Element,
+    FieldPosition,
+    Fit,
+    FittedMatrix,
+    Grid,
+    IlluminantSpec,
+    NoiseModel,
+    Param,
+    ParamSpec,
+    SampleSetSpec,
+    Target,
+    Tolerance,
+    ToleranceSpec,
+)
+
+__all__ = ["load_design", "design_from_bytes", "design_from_dict", "design_to_dict", "save_design"]
+
+_TOP_KEYS = ("schema", "name", "description", "observer", "grid", "target", "chain",
+             "samples", "illuminants", "fit", "noise", "matrix", "tolerance")
+
+
+# --------------------------------------------------------------------------
+# Validation
+# --------------------------------------------------------------------------
+
+
+def _got(v) -> str:
+    if isinstance(v, dict):
+        return f"a table with keys {', '.join(map(str, v))}" if v else "an empty table"
+    if isinstance(v, list):
+        try:
+            text = _toml_array(v)
+        except Exception:  # noqa: BLE001 - arrays of tables, dates: just say what it is
+            text = ""
+        return text if text and len(text) <= 40 else "an array"
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    text = repr(v)
+    return text if len(text) <= 40 else text[:37] + "..."
+
+
+def _toml_array(v) -> str:
+    """A TOML array of numbers and strings as written in the file, e.g. ``["R", "Y"]``."""
+    parts = []
+    for x in v:
+        if isinstance(x, bool):
+            parts.append("true" if x else "false")
+        elif isinstance(x, (int, float)):
+            parts.append(repr(x))
+        elif isinstance(x, str):
+            parts.append('"' + x.replace("\\", "\\\\").replace('"', '\\"') + '"')
+        else:
+            raise TypeError
+    return "[" + ", ".join(parts) + "]"
+
+
+def _number(v):
+    """float(v) for a TOML integer or float that fits a finite float, else None."""
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        return None
+    try:
+        f = float(v)
+    except OverflowError:
+        return None
+    return f if math.isfinite(f) else None
+
+
+class _Checker:
+    def __init__(self, base_dir: Path):
+        self.problems: list[tuple[str, str]] = []
+        self.base_dir = base_dir
+
+    def bad(self, key: str, expected: str, got=None, *, show_got=True) -> None:
+        msg = f"expected {expected}"
+        if show_got:
+            msg += f" (got {_got(got)})"
+        self.problems.append((key, msg))
+
+    def unknown(self, table: dict, allowed, key: str) -> None:
+        for k in table:
+            if k not in allowed:
+                where = f"{key}.{k}" if key else str(k)
+                self.problems.append(
+                    (where, f"expected no such key (unknown; allowed: {', '.join(allowed)})")
+                )
+
+    def table(self, v, key: str):
+        if not isinstance(v, dict):
+            self.bad(key, "a table", v)
+            return None
+        return v
+
+    def string(self, v, key: str, *, nonempty=True):
+        if not isinstance(v, str) or (nonempty and not v.strip()):
+            self.bad(key, "a non-empty string", v)
+            return None
+        return v
+
+    def choice(self, v, choices, key: str):
+        if not isinstance(v, str) or v not in choices:
+            self.bad(key, f"one of {', '.join(choices)}", v)
+            return None
+        return v
+
+    def file(self, v, key: str):
+        if v is None:
+            self.bad(key, "a file name (missing)", show_got=False)
+            return None
+        s = self.string(v, key)
+        if s is None:
+            return None
+        p = Path(s)
+        full = p if p.is_absolute() else self.base_dir / p
+        if not full.is_file():
+            self.bad(key, "an existing file (names are relative to the design file's folder)", v)
+            return None
+        return s
+
+    def xy(self, v, key: str):
+        if (not isinstance(v, list) or len(v) != 2
+                or any(_number(c) is None for c in v)):
+            self.bad(key, "a chromaticity [x, y] of two numbers", v)
+            return None
+        x, y = (_number(c) for c in v)
+        if not (x > 0 and y > 0 and x + y <= 1):
+            self.bad(key, "a chromaticity with x > 0, y > 0 and x + y <= 1", v)
+            return None
+        return (x, y)
+
+    def param(self, v, spec: ParamSpec, key: str):
+        if isinstance(v, dict):
+            self.unknown(v, ("value", "min", "max", "free", "tolerance"), key)
+            if "value" not in v:
+                self.bad(f"{key}.value", f"{spec.describe()} (missing)", show_got=False)
+                return None
+            value = self._in_domain(v["value"], spec, f"{key}.value")
+            lo = self._in_domain(v["min"], spec, f"{key}.min") if "min" in v else None
+            hi = self._in_domain(v["max"], spec, f"{key}.max") if "max" in v else None
+            free = v.get("free", False)
+            if not isinstance(free, bool):
+                self.bad(f"{key}.free", "true or false", free)
+                free = False
+            tol = self._tolerance(v["tolerance"], f"{key}.tolerance") if "tolerance" in v else None
+            if lo is not None and hi is not None and not lo < hi:
+                self.bad(f"{key}.max", f"a number greater than min = {lo:g}", hi)
+                return None
+            if free and ("min" not in v or "max" not in v):
+                self.bad(key, "both min and max when free = true", show_got=False)
+                return None
+            if value is None:
+                return None
+            if (lo is not None and value < lo) or (hi is not None and value > hi):
+                self.bad(f"{key}.value", f"a number within [min, max] = [{lo}, {hi}]", value)
+                return None
+            return Param(value, lo, hi, free, tol)
+        value = self._in_domain(v, spec, key)
+        return None if value is None else Param(value)
+
+    def _in_domain(self, v, spec: ParamSpec, key: str):
+        f = _number(v)
+        if f is None or not spec.contains(f):
+            self.bad(key, spec.describe(), v)
+            return None
+        return f
+
+    def _tolerance(self, v, key: str):
+        t = self.table(v, key)
+        if t is None:
+            return None
+        self.unknown(t, ("distribution", "width"), key)
+        dist = t.get("distribution", "normal")
+        if self.choice(dist, TOLERANCE_DISTRIBUTIONS, f"{key}.distribution") is None:
+            return None
+        w = _number(t.get("width"))
+        if w is None or not w > 0:
+            self.bad(f"{key}.width", "a number > 0 (the standard deviation or half-width)",
+                     t.get("width"))
+            return None
+        return Tolerance(dist, w)
+
+
+def _check_grid(c: _Checker, v) -> Grid | None:
+    t = c.table(v, "grid")
+    if t is None:
+        return None
+    c.unknown(t, ("start_nm", "stop_nm", "step_nm"), "grid")
+    vals = {}
+    for k in ("start_nm", "stop_nm", "step_nm"):
+        f = _number(t.get(k))
+        if f is None or not (0 < f <= 3000):
+            c.bad(f"grid.{k}", "a number in (0, 3000] nm" + ("" if k in t else " (missing)"),
+                  t.get(k), show_got=k in t)
+        else:
+            vals[k] = f
+    if len(vals) < 3:
+        return None
+    g = Grid(vals["start_nm"], vals["stop_nm"], vals["step_nm"])
+    try:
+        wl = g.wavelengths
+    except WorkbenchError:
+        c.bad("grid", "stop_nm - start_nm to be a positive whole number of step_nm steps",
+              f"{g.start_nm:g}-{g.stop_nm:g} nm at {g.step_nm:g} nm", )
+        return None
+    if wl.size < 3 or wl.size > 10001:
+        c.bad("grid", "3 to 10001 wavelengths", f"{wl.size}")
+        return None
+    return g
+
+
+def _check_element(c: _Checker, v, i: int) -> Element | None:
+    key = f"chain[{i}]"
+    t = c.table(v, key)
+    if t is None:
+        return None
+    name = c.string(t.get("name"), f"{key}.name")
+    etype = t.get("type")
+    if not isinstance(etype, str) or etype not in ELEMENT_TYPES:
+        c.bad(f"{key}.type", f"one of {', '.join(ELEMENT_TYPES)}", etype)
+        return None
+    pspecs, ospecs = ELEMENT_TYPES[etype]
+    allowed = ("name", "type") + (() if etype == "dichroic-splitter" else ("paths",)) + tuple(pspecs) + tuple(ospecs)
+    c.unknown(t, allowed, key)
+    ok = name is not None
+    paths = CHANNELS
+    if "paths" in t and etype != "dichroic-splitter":
+        p = t["paths"]
+        if (not isinstance(p, list) or not p or any(x not in CHANNELS for x in p)
+                or len(set(p)) != len(p)):
+            c.bad(f"{key}.paths", "a non-empty array of distinct channels from \"R\", \"G\", \"B\"", p)
+            ok = False
+        else:
+            paths = tuple(ch for ch in CHANNELS if ch in p)
+    params = []
+    for k, spec in pspecs.items():
+        if k not in t:
+            if spec.optional:
+                continue
+            if spec.default is None:
+                c.bad(f"{key}.{k}", f"{spec.describe()} (missing)", show_got=False)
+                ok = False
+                continue
+            params.append((k, Param(float(spec.default))))
+            continue
+        p = c.param(t[k], spec, f"{key}.{k}")
+        if p is None:
+            ok = False
+        else:
+            params.append((k, p))
+    options = []
+    for k, (kind, required, default) in ospecs.items():
+        if k not in t:
+            if required:
+                c.bad(f"{key}.{k}", {"file": "a file name", "positive": "a number > 0"}.get(kind, kind) + " (missing)",
+                      show_got=False)
+                ok = False
+            elif default is not None:
+                options.append((k, default))
+            continue
+        val = t[k]
+        if kind == "file":
+            val = c.file(val, f"{key}.{k}")
+        elif kind == "str":
+            val = c.string(val, f"{key}.{k}")
+        elif kind == "positive":
+            f = _number(val)
+            if f is None or not f > 0:
+                c.bad(f"{key}.{k}", "a number > 0", val)
+                val = None
+            else:
+                val = f
+        elif kind == "count":
+            if isinstance(val, bool) or not isinstance(val, int) or not 1 <= val <= 64:
+                c.bad(f"{key}.{k}", "an integer in 1-64", val)
+                val = None
+        elif kind == "columns":
+            if (not isinstance(val, dict) or set(val) != set(paths)
+                    or any(not isinstance(x, str) or not x for x in val.values())):
+                c.bad(f"{key}.{k}", "a table naming the file's column for each channel "
+                      f"({', '.join(paths)})", val)
+                val = None
+            else:
+                val = tuple((ch, val[ch]) for ch in CHANNELS if ch in val)
+        else:
+            val = c.choice(val, kind, f"{key}.{k}")
+        if val is None:
+            ok = False
+        else:
+            options.append((k, val))
+    if etype == "sensor-qe" and "column" in t and "columns" in t:
+        c.bad(key, "either column (one curve for all channels) or columns (one per channel), not both",
+              show_got=False)
+        ok = False
+    if etype == "band-pass" and ok:
+        lo, hi = dict(params)["low_nm"].value, dict(params)["high_nm"].value
+        if not lo < hi:
+            c.bad(f"{key}.high_nm", f"a wavelength above low_nm = {lo:g} nm", hi)
+            ok = False
+    if etype == "dichroic-splitter" and ok:
+        bg, gr = dict(params)["blue_green_nm"].value, dict(params)["green_red_nm"].value
+        if not bg < gr:
+            c.bad(f"{key}.green_red_nm", f"a wavelength above blue_green_nm = {bg:g} nm", gr)
+            ok = False
+    if not ok:
+        return None
+    return Element(name, etype, paths, tuple(params), tuple(options))
+
+
+def _check_target(c: _Checker, v) -> Target | None:
+    t = c.table(v, "target")
+    if t is None:
+        return None
+    kind = c.choice(t.get("kind"), TARGET_KINDS, "target.kind")
+    if kind is None:
+        return None
+    allowed = {
+        "observer": ("kind",),
+        "primaries": ("kind", "name"),
+        "chromaticities": ("kind", "red", "green", "blue", "white"),
+        "emitters": ("kind", "file", "columns", "white"),
+    }[kind]
+    c.unknown(t, allowed, "target")
+    n0 = len(c.problems)
+    out: dict[str, Any] = {"kind": kind}
+    if kind == "primaries":
+        out["name"] = c.string(t.get("name"), "target.name")
+    elif kind == "chromaticities":
+        for k in ("red", "green", "blue", "white"):
+            out[k] = c.xy(t.get(k), f"target.{k}")
+    elif kind == "emitters":
+        out["file"] = c.file(t.get("file"), "target.file")
+        cols = t.get("columns")
+        if cols is not None:
+            if (not isinstance(cols, list) or len(cols) != 3
+                    or any(not isinstance(x, str) or not x for x in cols) or len(set(cols)) != 3):
+                c.bad("target.columns", "an array of three distinct column names (R, G, B)", cols)
+            else:
+                out["columns"] = tuple(cols)
+        if "white" in t:
+            out["white"] = c.xy(t["white"], "target.white")
+    return None if len(c.problems) > n0 else Target(**out)
+
+
+def _check_named_list(c: _Checker, v, key: str):
+    if not isinstance(v, list) or any(not isinstance(x, dict) for x in v):
+        c.bad(key, "an array of tables ([[" + key + "]] sections)", v)
+        return []
+    return v
+
+
+def _check_samples(c: _Checker, v):
+    from workbench.colorimetry.samples import SAMPLE_SETS
+
+    out = []
+    for i, t in enumerate(_check_named_list(c, v, "samples")):
+        key = f"samples[{i}]"
+        c.unknown(t, ("name", "source", "file"), key)
+        n0 = len(c.problems)
+        name = c.string(t.get("name"), f"{key}.name")
+        source = c.choice(t.get("source"), SAMPLE_SETS, f"{key}.source")
+        file = None
+        if source == "csv":
+            file = c.file(t.get("file"), f"{key}.file")
+        elif "file" in t and source is not None:
+            c.bad(f"{key}.file", f"no file for the built-in set {source!r}", t["file"])
+        if len(c.problems) == n0:
+            out.append(SampleSetSpec(name, source, file))
+    return out
+
+
+def _check_illuminants(c: _Checker, v):
+    from workbench.colorimetry.cie import _canonical_illuminant
+
+    out = []
+    for i, t in enumerate(_check_named_list(c, v, "illuminants")):
+        key = f"illuminants[{i}]"
+        c.unknown(t, ("name", "cie", "file", "column"), key)
+        n0 = len(c.problems)
+        name = c.string(t.get("name"), f"{key}.name")
+        cie = file = column = None
+        if ("cie" in t) == ("file" in t):
+            c.bad(key, "exactly one of cie (a CIE illuminant name) or file (a CSV SPD)",
+                  show_got=False)
+        elif "cie" in t:
+            cie = c.string(t["cie"], f"{key}.cie")
+            if cie is not None:
+                try:
+                    _canonical_illuminant(cie)
+                except WorkbenchError:
+                    c.bad(f"{key}.cie", "a CIE illuminant name such as A, D50, D65, FL2, LED-B1", cie)
+            if "column" in t:
+                c.bad(f"{key}.column", "no column with cie (only with file)", t["column"])
+        else:
+            file = c.file(t["file"], f"{key}.file")
+            if "column" in t:
+                column = c.string(t["column"], f"{key}.column")
+        if len(c.problems) == n0:
+            out.append(IlluminantSpec(name, cie, file, column))
+    return out
+
+
+def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
+    t = c.table(v, "fit")
+    if t is None:
+        return None
+    c.unknown(t, ("objective", "recording_illuminant", "viewing_illuminant", "weights", "illuminants",
+                  "matrix", "matrix_scope", "noise_weight", "global_start", "starts", "seed",
+                  "max_evaluations"), "fit")
+    n0 = len(c.problems)
+    objective = c.choice(t.get("objective", "vora"), OBJECTIVES, "fit.objective")
+    extra = {}
+    for k, choices in (("matrix", MATRIX_METHODS), ("matrix_scope", MATRIX_SCOPES),
+                       ("global_start", GLOBAL_STARTS)):
+        if k in t:
+            extra[k] = c.choice(t[k], choices, f"fit.{k}")
+    if "noise_weight" in t:
+        f = _number(t["noise_weight"])
+        if f is None or f < 0:
+            c.bad("fit.noise_weight", "a number >= 0", t["noise_weight"])
+        extra["noise_weight"] = f
+    for k, lo in (("starts", 1), ("seed", 0), ("max_evaluations", 10)):
+        if k in t:
+            x = t[k]
+            if isinstance(x, bool) or not isinstance(x, int) or x < lo:
+                c.bad(f"fit.{k}", f"a whole number >= {lo}", x)
+            extra[k] = x
+    if "illuminants" in t:
+        v = t["illuminants"]
+        if not isinstance(v, list) or not v or not all(isinstance(x, str) for x in v):
+            c.bad("fit.illuminants", "a non-empty list of [[illuminants]] names", v)
+        else:
+            for x in v:
+                if x not in illuminant_names:
+                    c.bad("fit.illuminants", "names of the [[illuminants]] ("
+                          + (", ".join(illuminant_names) or "none defined") + ")", x)
+            extra["illuminants"] = tuple(v)
+    ill = {}
+    for k in ("recording_illuminant", "viewing_illuminant"):
+        if k in t:
+            ill[k] = c.string(t[k], f"fit.{k}")
+            if ill[k] is not None and ill[k] not in illuminant_names:
+                c.bad(f"fit.{k}", "the name of one of the [[illuminants]] ("
+                      + (", ".join(illuminant_names) or "none defined") + ")", ill[k])
+    weights = []
+    if "weights" in t:
+        w = c.table(t["weights"], "fit.weights")
+        for k, x in (w or {}).items():
+            f = _number(x)
+            if k not in sample_names:
+                c.bad(f"fit.weights.{k}", "the name of one of the [[samples]] ("
+                      + (", ".join(sample_names) or "none defined") + ")", k)
+            elif f is None or f < 0:
+                c.bad(f"fit.weights.{k}", "a number >= 0", x)
+            else:
+                weights.append((k, f))
+    if len(c.problems) > n0:
+        return None
+    return Fit(objective, ill.get("recording_illuminant"), ill.get("viewing_illuminant"),
+               tuple(weights), **extra)
+
+
+def _check_noise(c: _Checker, v) -> NoiseModel | None:
+    t = c.table(v, "noise")
+    if t is None:
+        return None
+    c.unknown(t, ("full_well_e", "read_noise_e", "exposure", "grey"), "noise")
+    n0 = len(c.problems)
+    out = {}
+    rules = {"full_well_e": ("a number > 0 (electrons)", lambda f: f > 0),
+             "read_noise_e": ("a number >= 0 (electrons rms)", lambda f: f >= 0),
+             "exposure": ("a number in (0, 1] (fraction of the full well)", lambda f: 0 < f <= 1),
+             "grey": ("a number in (0, 1] (reflectance)", lambda f: 0 < f <= 1)}
+    for k, (expected, ok) in rules.items():
+        if k in t:
+            f = _number(t[k])
+            if f is None or not ok(f):
+                c.bad(f"noise.{k}", expected, t[k])
+            out[k] = f
+    return None if len(c.problems) > n0 else NoiseModel(**out)
+
+
+def _matrix3(c: _Checker, v, key: str):
+    if (not isinstance(v, list) or len(v) != 3
+            or not all(isinstance(r, list) and len(r) == 3 and all(_number(x) is not None for x in r)
+                       for r in v)):
+        c.bad(key, "a 3×3 matrix as three rows of three numbers", v)
+        return None
+    m = tuple(tuple(float(_number(x)) for x in r) for r in v)
+    if abs(float(np.linalg.det(np.array(m)))) < 1e-12:
+        c.bad(key, "an invertible 3×3 matrix (this one's determinant is 0)", show_got=False)
+        return None
+    return m
+
+
+def _check_matrix(c: _Checker, v, illuminant_names) -> FittedMatrix | None:
+    t = c.table(v, "matrix")
+    if t is None:
+        return None
+    c.unknown(t, ("method", "scope", "values", "per_illuminant"), "matrix")
+    n0 = len(c.problems)
+    method = c.choice(t.get("method"), MATRIX_METHODS, "matrix.method")
+    scope = c.choice(t.get("scope", "shared"), MATRIX_SCOPES, "matrix.scope")
+    values = None
+    per = []
+    if scope == "shared":
+        if "values" not in t:
+            c.bad("matrix.values", "a 3×3 matrix (missing)", show_got=False)
+        else:
+            values = _matrix3(c, t["values"], "matrix.values")
+    elif scope == "per-illuminant":
+        p = c.table(t.get("per_illuminant"), "matrix.per_illuminant")
+        for k, m in (p or {}).items():
+            if k not in illuminant_names:
+                c.bad(f"matrix.per_illuminant.{k}", "the name of one of the [[illuminants]]", k)
+            per.append((k, _matrix3(c, m, f"matrix.per_illuminant.{k}")))
+    return None if len(c.problems) > n0 else FittedMatrix(method, scope, values, tuple(per))
+
+
+def _check_tolerance(c: _Checker, v) -> ToleranceSpec | None:
+    t = c.table(v, "tolerance")
+    if t is None:
+        return None
+    c.unknown(t, ("max_mean_delta_E00", "min_vora", "field"), "tolerance")
+    n0 = len(c.problems)
+    out = {}
+    if "max_mean_delta_E00" in t:
+        f = _number(t["max_mean_delta_E00"])
+        if f is None or f <= 0:
+            c.bad("tolerance.max_mean_delta_E00", "a number > 0 (ΔE00)", t["max_mean_delta_E00"])
+        out["max_mean_delta_E00"] = f
+    if "min_vora" in t:
+        f = _number(t["min_vora"])
+        if f is None or not 0 <= f <= 1:
+            c.bad("tolerance.min_vora", "a number in [0, 1]", t["min_vora"])
+        out["min_vora"] = f
+    if "field" in t:
+        field_ = []
+        items = t["field"]
+        if not isinstance(items, list):
+            c.bad("tolerance.field", "a list of [[tolerance.field]] tables", items)
+            items = []
+        for i, f in enumerate(items):
+            key = f"tolerance.field[{i}]"
+            f = c.table(f, key)
+            if f is None:
+                continue
+            c.unknown(f, ("name", "aoi_offset_deg"), key)
+            name = c.string(f.get("name"), f"{key}.name")
+            a = _number(f.get("aoi_offset_deg"))
+            if a is None or not -30 <= a <= 30:
+                c.bad(f"{key}.aoi_offset_deg", "a number of degrees in [-30, 30]", f.get("aoi_offset_deg"))
+            if name is not None and a is not None:
+                field_.append(FieldPosition(name, a))
+        out["field"] = tuple(field_)
+    return None if len(c.problems) > n0 else ToleranceSpec(**out)
+
+
+def _duplicates(c: _Checker, names, key: str):
+    seen = set()
+    for i, n in names:
+        if n in seen:
+            c.bad(f"{key}[{i}].name", "a name not used before in " + key, n)
+        seen.add(n)
+
+
+def design_from_dict(data: dict, *, base_dir=".", source=None) -> Design:
+    """Validate plain TOML data and build a :class:`Design`; raises :class:`DesignError`."""
+    c = _Checker(Path(base_dir))
+    if not isinstance(data, dict):
+        raise DesignError([("(top)", "expected a table")], source)
+    c.unknown(data, _TOP_KEYS, "")
+    schema = data.get("schema")
+    if isinstance(schema, bool) or schema != SCHEMA:
+        c.bad("schema", f"{SCHEMA} (the schema version this workbench reads)"
+              + ("" if "schema" in data else " (missing)"), schema, show_got="schema" in data)
+    name = c.string(data.get("name"), "name") if "name" in data else (
+        c.bad("name", "a non-empty string (missing)", show_got=False))
+    description = ""
+    if "description" in data:
+        description = data["description"]
+        if not isinstance(description, str):
+            c.bad("description", "a string", description)
+    observer = "2"
+    if "observer" in data:
+        from workbench.colorimetry.cie import observer_key
+
+        o = data["observer"]
+        try:
+            if isinstance(o, bool) or not isinstance(o, (int, str)):
+                raise WorkbenchError("")
+            observer = observer_key(o)
+        except WorkbenchError:
+            c.bad("observer", "2 (CIE 1931 2°) or 10 (CIE 1964 10°)", o)
+    g = _check_grid(c, data["grid"]) if "grid" in data else c.bad(
+        "grid", "a [grid] table with start_nm, stop_nm, step_nm (missing)", show_got=False)
+    chain = []
+    if "chain" not in data:
+        c.bad("chain", "at least one [[chain]] element (missing)", show_got=False)
+    else:
+        items = _check_named_list(c, data["chain"], "chain")
+        if isinstance(data["chain"], list) and not data["chain"]:
+            c.bad("chain", "at least one [[chain]] element", show_got=False)
+        for i, t in enumerate(items):
+            e = _check_element(c, t, i)
+            if e is not None:
+                chain.append((i, e))
+        _duplicates(c, [(i, t.get("name")) for i, t in enumerate(items) if isinstance(t.get("name"), str)], "chain")
+        splitters = [i for i, t in enumerate(items) if t.get("type") == "dichroic-splitter"]
+        for i in splitters[1:]:
+            c.bad(f"chain[{i}].type", "at most one dichroic-splitter in a chain", "dichroic-splitter")
+    target = _check_target(c, data["target"]) if "target" in data else Target()
+    samples = _check_samples(c, data["samples"]) if "samples" in data else []
+    if "samples" in data and isinstance(data["samples"], list):
+        _duplicates(c, [(i, t.get("name")) for i, t in enumerate(data["samples"])
+                        if isinstance(t, dict) and isinstance(t.get("name"), str)], "samples")
+    illuminants = _check_illuminants(c, data["illuminants"]) if "illuminants" in data else []
+    if "illuminants" in data and isinstance(data["illuminants"], list):
+        _duplicates(c, [(i, t.get("name")) for i, t in enumerate(data["illuminants"])
+                        if isinstance(t, dict) and isinstance(t.get("name"), str)], "illuminants")
+    ill_names = [
+        t.get("name") for t in data.get("illuminants", [])
+        if isinstance(t, dict) and isinstance(t.get("name"), str)
+    ] if isinstance(data.get("illuminants"), list) else []
+    smp_names = [
+        t.get("name") for t in data.get("samples", [])
+        if isinstance(t, dict) and isinstance(t.get("name"), str)
+    ] if isinstance(data.get("samples"), list) else []
+    fit = _check_fit(c, data["fit"], ill_names, smp_names) if "fit" in data else Fit()
+    noise = _check_noise(c, data["noise"]) if "noise" in data else NoiseModel()
+    matrix = _check_matrix(c, data["matrix"], ill_names) if "matrix" in data else None
+    tolerance = _check_tolerance(c, data["tolerance"]) if "tolerance" in data else ToleranceSpec()
+    if c.problems:
+        raise DesignError(c.problems, source)
+    return Design(
+        name=name, grid=g, chain=tuple(e for _, e in chain), observer=observer,
+        description=description, target=target, samples=tuple(samples),
+        illuminants=tuple(illuminants), fit=fit, noise=noise, matrix=matrix, tolerance=tolerance,
+        schema=SCHEMA,
+        base_dir=str(base_dir), source=None if source is None else str(source),
+    )
+
+
+_TOML_POS = re.compile(r"\s*\(at line (\d+), column (\d+)\)\s*$")
+
+
+def load_design(path) -> Design:
+    """Read a design file (TOML, ``schema = 1``) and validate it.
+
+    Parameters
+    ----------
+    path : path-like
+
+    Returns
+    -------
+    Design
+        ``base_dir`` is the file's folder; file names in it resolve there.
+
+    Raises
+    ------
+    InputFileError
+        The file cannot be read or is not TOML (message names line and column).
+    DesignError
+        The data break the schema: every problem, one per line after the summary.
+    """
+    p = Path(os.fspath(path))
+    try:
+        raw = p.read_bytes()
+    except OSError as err:
+        raise InputFileError(f"cannot read: {err.strerror or err}", str(path)) from None
+    return design_from_bytes(raw, source=str(path), base_dir=p.parent)
+
+
+def design_from_bytes(raw: bytes, *, source: str, base_dir=".") -> Design:
+    """A design file's bytes (a file, an upload) read and validated as :func:`load_design` reads a file.
+
+    Relative file names resolve against ``base_dir``; messages name ``source``.
+    """
+    try:
+        text = bytes(raw).decode("utf-8")
+    except UnicodeDecodeError as err:
+        raise InputFileError(f"expected UTF-8 text (byte {err.start} is not)", source) from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        msg = str(err)
+        m = _TOML_POS.search(msg)
+        if m:
+            raise InputFileError(f"not valid TOML: {msg[:m.start()]}", source,
+                                 int(m.group(1)), int(m.group(2))) from None
+        raise InputFileError(f"not valid TOML: {msg}", source) from None
+    except RecursionError:
+        raise InputFileError("not valid TOML: nested too deeply", source) from None
+    return design_from_dict(data, base_dir=Path(base_dir), source=source)
+
+
+# --------------------------------------------------------------------------
+# Saving
+# --------------------------------------------------------------------------
+
+
+def _param_out(p: Param):
+    if p.plain:
+        return p.value
+    out: dict[str, Any] = {"value": p.value}
+    if p.min is not None:
+        out["min"] = p.min
+    if p.max is not None:
+        out["max"] = p.max
+    if p.free:
+        out["free"] = True
+    if p.tolerance is not None:
+        out["tolerance"] = {"distribution": p.tolerance.distribution, "width": p.tolerance.width}
+    return out
+
+
+def design_to_dict(d: Design, rebase=None) -> dict:
+    def f(name):
+        return name if rebase is None else rebase(name)
+
+    out: dict[str, Any] = {"schema": d.schema, "name": d.name}
+    if d.description:
+        out["description"] = d.description
+    out["observer"] = int(d.observer)
+    out["grid"] = {"start_nm": d.grid.start_nm, "stop_nm": d.grid.stop_nm, "step_nm": d.grid.step_nm}
+    t = d.target
+    tgt: dict[str, Any] = {"kind": t.kind}
+    if t.name is not None:
+        tgt["name"] = t.name
+    for k in ("red", "green", "blue", "white"):
+        if getattr(t, k) is not None:
+            tgt[k] = list(getattr(t, k))
+    if t.file is not None:
+        tgt["file"] = f(t.file)
+    if t.columns is not None:
+        tgt["columns"] = list(t.columns)
+    out["target"] = tgt
+    chain = []
+    for e in d.chain:
+        el: dict[str, Any] = {"name": e.name, "type": e.type}
+        if e.type != "dichroic-splitter" and e.paths != CHANNELS:
+            el["paths"] = list(e.paths)
+        for k, p in e.params:
+            el[k] = _param_out(p)
+        for k, v in e.options:
+            if k == "columns":
+                el[k] = dict(v)
+            elif k == "file":
+                el[k] = f(v)
+            else:
+                el[k] = v
+        chain.append(el)
+    out["chain"] = chain
+    if d.samples:
+        out["samples"] = [
+            {"name": s.name, "source": s.source, **({"file": f(s.file)} if s.file else {})}
+            for s in d.samples
+        ]
+    if d.illuminants:
+        ills = []
+        for i in d.illuminants:
+            item: dict[str, Any] = {"name": i.name}
+            if i.cie is not None:
+                item["cie"] = i.cie
+            if i.file is not None:
+                item["file"] = f(i.file)
+            if i.column is not None:
+                item["column"] = i.column
+            ills.append(item)
+        out["illuminants"] = ills
+    fit: dict[str, Any] = {"objective": d.fit.objective}
+    if d.fit.recording_illuminant is not None:
+        fit["recording_illuminant"] = d.fit.recording_illuminant
+    if d.fit.viewing_illuminant is not None:
+        fit["viewing_illuminant"] = d.fit.viewing_illuminant
+    if d.fit.weights:
+        fit["weights"] = dict(d.fit.weights)
+    defaults = Fit()
+    for k in ("illuminants", "matrix", "matrix_scope", "noise_weight", "global_start", "starts",
+              "seed", "max_evaluations"):
+        v = getattr(d.fit, k)
+        if v != getattr(defaults, k):
+            fit[k] = list(v) if isinstance(v, tuple) else v
+    out["fit"] = fit
+    if d.noise != NoiseModel():
+        out["noise"] = {k: getattr(d.noise, k) for k in ("full_well_e", "read_noise_e", "exposure", "grey")}
+    if d.tolerance != ToleranceSpec():
+        tol: dict[str, Any] = {"max_mean_delta_E00": d.tolerance.max_mean_delta_E00,
+                               "min_vora": d.tolerance.min_vora}
+        if d.tolerance.field:
+            tol["field"] = [{"name": f.name, "aoi_offset_deg": f.aoi_offset_deg} for f in d.tolerance.field]
+        out["tolerance"] = tol
+    if d.matrix is not None:
+        m: dict[str, Any] = {"method": d.matrix.method, "scope": d.matrix.scope}
+        if d.matrix.values is not None:
+            m["values"] = [list(r) for r in d.matrix.values]
+        if d.matrix.per_illuminant:
+            m["per_illuminant"] = {k: [list(r) for r in v] for k, v in d.matrix.per_illuminant}
+        out["matrix"] = m
+    return out
+
+
+def save_design(design: Design, path) -> None:
+    """Write ``design`` as TOML to ``path`` atomically (temporary file + ``os.replace``).
+
+    Relative file names are rewritten relative to the new file's folder when
+    it differs from the design's ``base_dir``, so they name the same files.
+    """
+    import tomli_w
+
+    target = Path(os.fspath(path))
+    new_dir = target.parent.resolve()
+    old_dir = Path(design.base_dir).resolve()
+
+    def rebase(name: str) -> str:
+        p = Path(name)
+        if p.is_absolute() or new_dir == old_dir:
+            return name
+        return Path(os.path.relpath(old_dir / p, new_dir)).as_posix()
+
+    text = "# camera design file, schema 1 (see docs/design-file.md)\n" + tomli_w.dumps(
+        design_to_dict(design, rebase))
+    write_text_atomically(target, text)
