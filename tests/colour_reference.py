@@ -1,6 +1,6 @@
 """A straightforward camera evaluation built from colour-science calls, one sample at a time.
 
-The reference for the tests of workbench.analysis.camera / workbench.analysis.fitting and the
+The reference for the tests of workbench.analysis.camera / workbench.analysis.evaluator and the
 "colour-science" column of tests/benchmarks/bench_fit.py. It follows the
 same definitions (white balance on the perfect diffuser, least-squares
 matrix to the display's linear RGB, truth adapted to the display white by

@@ -248,7 +248,7 @@ def test_design_notebook(page, lab):
 
 def _design_notebook(page, lab):
     from workbench.fileio.design_toml import load_design
-    from workbench.analysis.fitting import DesignEvaluator
+    from workbench.analysis.evaluator import DesignEvaluator
 
     open_and_run(page, lab, "02-camera-design.ipynb")
     img = page.locator(".wb-design-plot img").first

@@ -11,7 +11,7 @@ import pytest
 
 from workbench.cli.main import main
 from workbench.fileio.design_toml import load_design
-from workbench.analysis.fitting import DesignEvaluator
+from workbench.analysis.evaluator import DesignEvaluator
 from workbench.fileio.spectra_csv import read_spectra_csv
 
 DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"

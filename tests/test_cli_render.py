@@ -41,7 +41,7 @@ def gaussian_csv(tmp_path_factory):
 def demo_expected():
     """The demo scene under the design's stage LED, through the public functions in memory."""
     from workbench.fileio.design_toml import load_design
-    from workbench.analysis.fitting import load_camera
+    from workbench.analysis.evaluator import load_camera
 
     camera = load_camera(DESIGN)
     E = load_design(DESIGN).illuminant_values("stage-led")[1]
@@ -109,7 +109,7 @@ class TestRenderCommand:
         assert s["wavelengths_from"] == "--wavelengths 380:780:5"
         assert s["chunking"]["rule"] == "--chunk-mb"
         assert s["chunking"]["rows_per_chunk"] == 4 and s["chunking"]["chunks"] == 6
-        from workbench.analysis.fitting import load_camera
+        from workbench.analysis.evaluator import load_camera
 
         cam = load_camera(gaussian_csv)
         ref = render_in_memory(BatchPipeline(cam, np.asarray(illuminant_on(WL, "A")[1].values), illuminant_name="A"), a)

@@ -67,7 +67,7 @@ def luther_camera(wl=WL5, primaries=BT709) -> Camera:
 
 @pytest.fixture(scope="module")
 def design_camera():
-    from workbench.analysis.fitting import load_camera
+    from workbench.analysis.evaluator import load_camera
 
     return load_camera(DEMO / "tern3_design.toml")
 

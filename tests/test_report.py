@@ -21,7 +21,8 @@ from scipy.linalg import subspace_angles
 
 from workbench.fileio.design_toml import load_design
 from workbench.errors import InputFileError, WorkbenchError
-from workbench.analysis.fitting import DesignEvaluator, fit_design
+from workbench.analysis.evaluator import DesignEvaluator
+from workbench.analysis.fit import fit_design
 from workbench.plots.fit import (ARROW_SCALES, plot_chromaticity_shifts, plot_delta_e_bars,
                                  plot_noise_vs_accuracy, plot_sensitivities_vs_targets)
 from workbench.report.fit_report import fit_report_figures, fit_report_html, noise_accuracy_points, write_fit_report

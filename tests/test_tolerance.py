@@ -16,7 +16,7 @@ from scipy import stats
 from workbench.model.design import FieldPosition, Tolerance
 from workbench.fileio.design_toml import load_design
 from workbench.errors import InputFileError, WorkbenchError
-from workbench.analysis.fitting import DesignEvaluator
+from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis import tolerance as T
 
 DESIGN = """\

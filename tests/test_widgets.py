@@ -23,7 +23,8 @@ from workbench import demo_dir
 from workbench.cli.main import main as cli_main
 from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
-from workbench.analysis.fitting import DesignEvaluator, FitResult, fit_design
+from workbench.analysis.evaluator import DesignEvaluator
+from workbench.analysis.fit import FitResult, fit_design
 from workbench.widgets.design import (
     DesignPanel,
     ErrorLine,
@@ -256,7 +257,7 @@ class TestDesignPanelFit:
 
     def test_stop_keeps_the_best_point(self, panel, monkeypatch):
         """Stop during a fit ends it as 'interrupted' with the best point so far."""
-        from workbench.analysis.fitting import DesignEvaluator
+        from workbench.analysis.evaluator import DesignEvaluator
 
         started = threading.Event()
         real = DesignEvaluator.residuals

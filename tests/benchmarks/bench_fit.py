@@ -30,7 +30,8 @@ sys.path.insert(0, str(ROOT / "tests"))
 
 from colour_reference import evaluate_with_colour  # noqa: E402
 from workbench.fileio.design_toml import load_design  # noqa: E402
-from workbench.analysis.fitting import DesignEvaluator, fit_design  # noqa: E402
+from workbench.analysis.evaluator import DesignEvaluator  # noqa: E402
+from workbench.analysis.fit import fit_design  # noqa: E402
 
 DEMO = ROOT / "spectra-demo" / "tern3_design.toml"
 

@@ -42,7 +42,7 @@ def main() -> None:
     import colour
 
     from workbench import demo_dir
-    from workbench.analysis.fitting import load_camera
+    from workbench.analysis.evaluator import load_camera
     from workbench.analysis.light import (_cct_duv, _emission_XYZ, _sd, camera_fidelity, light_report, read_light,
                                  working_spd)
 

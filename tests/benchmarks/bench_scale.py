@@ -81,7 +81,7 @@ def _rss() -> int:
 
 def _pipeline():
     from workbench.colorimetry.cie import illuminant_on
-    from workbench.analysis.fitting import load_camera
+    from workbench.analysis.evaluator import load_camera
     from workbench.analysis.render import BatchPipeline
 
     cam = load_camera(DESIGN)

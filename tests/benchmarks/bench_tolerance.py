@@ -43,7 +43,7 @@ def main() -> None:
 
     from workbench import demo_dir
     from workbench.fileio.design_toml import load_design
-    from workbench.analysis.fitting import DesignEvaluator
+    from workbench.analysis.evaluator import DesignEvaluator
     from workbench.analysis.tolerance import run_tolerance, sample_parameters
 
     design = load_design(demo_dir() / "tern3_design.toml")

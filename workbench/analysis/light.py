@@ -839,7 +839,7 @@ def camera_fidelity(camera, spd: Spectra, *, cct: float | None = None, extrapola
     ----------
     camera : workbench.analysis.camera.Camera
         Sensitivities, matrix (balanced camera RGB → linear display RGB)
-        and display primaries, e.g. from :func:`workbench.analysis.fitting.load_camera`.
+        and display primaries, e.g. from :func:`workbench.analysis.evaluator.load_camera`.
         The camera's ``matrix`` is used under both lights (a design with
         one matrix per illuminant gives its first).
     spd : Spectra

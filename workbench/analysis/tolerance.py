@@ -4,7 +4,7 @@
 ``tolerance = {distribution, width}`` of its ``[[chain]]`` parameters, see
 docs/design-file.md) for a number of simulated units with a seed, evaluates
 all units as batched array computations through
-:class:`workbench.analysis.fitting.DesignEvaluator` (chunks of trials, no per-unit
+:class:`workbench.analysis.evaluator.DesignEvaluator` (chunks of trials, no per-unit
 loop through the chain), and summarises:
 
 - the distributions (p5, p50, p95, mean, standard deviation) of the Vora
@@ -126,7 +126,7 @@ _METHODS = {
     "noise_gain": ("2-norm of each row of the matrix applied to the white-balanced RGB: the output "
                    "noise per unit input noise for independent, equal channel noise"),
     "grey_snr_db": ("20·log10(grey / σ_out) of the design's [noise] grey in each display channel: shot + "
-                    "read noise per channel, through white balance and the matrix (workbench.analysis.fitting.noise_report)"),
+                    "read noise per channel, through white balance and the matrix (workbench.analysis.evaluator.noise_report)"),
     "worst_mean_delta_E00": "the largest of the per-illuminant mean ΔE00 of a unit (what the yield tests)",
 }
 
@@ -406,7 +406,7 @@ def standardized_regression(X, y) -> tuple[np.ndarray, float]:
 
 def _evaluate(ev, design: Design, values: dict, cases, fixed_matrices, n: int) -> dict:
     """Per-unit arrays for a batch of ``n`` units (values: dict of (n,) arrays)."""
-    from workbench.analysis.fitting import noise_report
+    from workbench.analysis.evaluator import noise_report
 
     out: dict = {}
     for case in cases:
@@ -547,7 +547,7 @@ def field_shift(design: Design, *, evaluator=None, matrices=None, positions=None
     grey's (the design's ``[noise] grey``, a spectrally flat reflectance)
     likewise — a white that is not neutral at the edge is colour shading.
     """
-    from workbench.analysis.fitting import DesignEvaluator
+    from workbench.analysis.evaluator import DesignEvaluator
 
     ev = evaluator or DesignEvaluator(design)
     sp = _splitter(design)
@@ -905,7 +905,7 @@ class ToleranceResult:
 
 _DE_METHOD = ("CIEDE2000 (CIE 142-2001) between the camera (white balance on the perfect diffuser, then the "
               "matrix) and the truth adapted to the display white (linear Bradford), over the design's samples "
-              "under each illuminant (workbench.analysis.fitting.DesignEvaluator)")
+              "under each illuminant (workbench.analysis.evaluator.DesignEvaluator)")
 _NU_METHOD = "Vora value Tr(P_A P_M)/3 with the design's recording and viewing illuminants (Vora & Trussell 1993), 0-1"
 
 
@@ -967,7 +967,7 @@ def run_tolerance(design: Design, *, trials: int = 2000, seed: int = 0, matrix: 
     -------
     ToleranceResult
     """
-    from workbench.analysis.fitting import DesignEvaluator
+    from workbench.analysis.evaluator import DesignEvaluator
 
     t0 = time.perf_counter()
     _check_trials_seed(trials, seed)

@@ -5,7 +5,7 @@ pyplot state, so it works under any backend, Agg included), returns it and
 never shows it. Axes carry quantity, unit and method; titles name the
 matrix rule and the illuminant.
 
-The inputs are :class:`workbench.analysis.fitting.Measures` values (one design
+The inputs are :class:`workbench.analysis.evaluator.Measures` values (one design
 state each) and, for :func:`plot_noise_vs_accuracy`, plain mappings
 (see :func:`workbench.report.fit_report.noise_accuracy_points`).
 """

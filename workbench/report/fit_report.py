@@ -1,6 +1,6 @@
 """The report of a camera fit: one self-contained HTML file.
 
-:func:`fit_report_html` turns a :class:`workbench.analysis.fitting.FitResult` into a
+:func:`fit_report_html` turns a :class:`workbench.analysis.fit.FitResult` into a
 single HTML page — inline CSS, every figure embedded as a base64 PNG, no
 link to anything outside the file — that shows, in order:
 
@@ -105,7 +105,7 @@ def noise_accuracy_points(result, evaluator=None, *, methods=MATRIX_METHODS) -> 
         = 1, for the design's noise model), ``mean_delta_E00`` (unweighted
         mean over samples × illuminants) and ``vora_value``.
     """
-    from workbench.analysis.fitting import DesignEvaluator
+    from workbench.analysis.evaluator import DesignEvaluator
 
     ev = evaluator or DesignEvaluator(result.start_design)
     fitted = {p["name"]: float(p["value"]) for p in result.parameters}

@@ -1,7 +1,7 @@
 """Interactive panels for the notebooks: the camera-design panel and the primaries panel.
 
 The panels only wire ipywidgets controls to the package's public functions
-(:mod:`workbench.analysis.fitting`, :mod:`workbench.model.design`, :mod:`workbench.colorimetry.primaries`,
+(:mod:`workbench.analysis.evaluator`, :mod:`workbench.analysis.fit`, :mod:`workbench.model.design`, :mod:`workbench.colorimetry.primaries`,
 :mod:`workbench.plots`); every number comes from there with its unit and
 method. Figures are drawn by matplotlib's Agg renderer into PNG images held
 by ``ipywidgets.Output`` widgets, so a picture is part of the widget state:
@@ -47,7 +47,8 @@ from workbench import demo_dir
 from workbench.model.design import CHANNELS, ELEMENT_TYPES, Design
 from workbench.fileio.design_toml import load_design, save_design
 from workbench.errors import WorkbenchError
-from workbench.analysis.fitting import DesignEvaluator, FitResult, Measures, fit_design, fitted_matrix
+from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
+from workbench.analysis.fit import FitResult, fit_design
 
 __all__ = [
     "ErrorLine",
@@ -301,7 +302,7 @@ class SensitivityFigure:
 
     Notes
     -----
-    The responses are :attr:`workbench.analysis.fitting.Measures.curves`: the
+    The responses are :attr:`workbench.analysis.evaluator.Measures.curves`: the
     camera's R, G, B after white balance and matrix under the curve
     illuminant, on the scale of the targets (Σ target·E = 1 for the
     white), so response − target is the colour error per wavelength. All
@@ -572,7 +573,7 @@ class DesignPanel(W.VBox):
     -----
     Moving a slider evaluates the design (:meth:`DesignEvaluator.measures`)
     and redraws the figure; ``tests/benchmarks/bench_widgets.py`` times that
-    path. The Fit button runs :func:`workbench.analysis.fitting.fit_design` from the
+    path. The Fit button runs :func:`workbench.analysis.fit.fit_design` from the
     current slider values in a background thread; Stop ends it and keeps
     the best point so far. Saving writes the design with the current values
     and the matrix of the current state, atomically.

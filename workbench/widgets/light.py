@@ -126,7 +126,7 @@ class LightPanel(W.VBox):
         if not text:
             return None
         from workbench.errors import InputFileError
-        from workbench.analysis.fitting import load_camera
+        from workbench.analysis.evaluator import load_camera
 
         p = Path(text)
         try:

@@ -53,7 +53,7 @@ class TolerancePanel:
 
         from workbench.model.design import Design
         from workbench.fileio.design_toml import load_design
-        from workbench.analysis.fitting import DesignEvaluator
+        from workbench.analysis.evaluator import DesignEvaluator
         from workbench.analysis.tolerance import MATRIX_CHOICES
 
         self.design = design if isinstance(design, Design) else load_design(Path(design))

@@ -65,7 +65,7 @@ def curve_summary(wl: np.ndarray, s: np.ndarray) -> dict:
 
 def evaluate(design) -> dict:
     """The summary that ``workbench evaluate`` prints, as a dict."""
-    from workbench.analysis.fitting import DesignEvaluator
+    from workbench.analysis.evaluator import DesignEvaluator
 
     ev = DesignEvaluator(design)
     m = ev.measures(use_stored_matrix=design.matrix is not None)

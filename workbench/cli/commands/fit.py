@@ -95,7 +95,7 @@ def metrics(result) -> dict:
 
 
 def run(args) -> int:
-    from workbench.analysis.fitting import fit_design
+    from workbench.analysis.fit import fit_design
     from workbench.fileio.spectra_csv import write_spectra_csv
 
     design = load_design(args.design)

@@ -64,7 +64,7 @@ def _ssi_reference(text: str):
 
 
 def _load_camera(path: str, primaries: str):
-    from workbench.analysis.fitting import load_camera
+    from workbench.analysis.evaluator import load_camera
 
     p = Path(path)
     if not p.exists():

@@ -133,7 +133,7 @@ def run(args) -> int:
     if out.exists() and not out.is_dir():
         raise InputFileError("--out must be a folder (a file of that name exists)", str(out))
 
-    from workbench.analysis.fitting import load_camera
+    from workbench.analysis.evaluator import load_camera
 
     camera = load_camera(design_path)
     label, E, key, ill_notes = _illuminant(design_path, camera, args.illuminant)
