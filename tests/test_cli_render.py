@@ -10,7 +10,8 @@ import pytest
 
 from workbench.colorimetry.cie import illuminant_on
 from workbench.cli.main import main
-from workbench.analysis.render import BatchPipeline, open_cube, render_in_memory, sidecar_path, write_sidecar
+from workbench.analysis.render import BatchPipeline, render_in_memory
+from workbench.fileio.spectral_cube import open_cube, sidecar_path, write_sidecar
 from workbench.model.spectra import Spectra, grid
 from workbench.fileio.spectra_csv import write_spectra_csv
 

@@ -13,9 +13,9 @@ from workbench.analysis.camera import Camera, ColourBench
 from workbench.colorimetry.cie import cmfs_on, illuminant_on
 from workbench.cli.commands._output import to_json
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
+from workbench.analysis.light_camera import _verdict
 from workbench.analysis.light import (
     CAUTION,
-    _verdict,
     absolute_scale,
     camera_fidelity,
     camera_fidelity_score,
@@ -509,7 +509,7 @@ class TestLightReport:
 class TestLightPanel:
     def test_opens_on_demo_data(self):
         """The panel evaluates the demo LED on a camera with the halogen as light B and shows every figure."""
-        from workbench.widgets.design import output_png
+        from workbench.widgets.common import output_png
         from workbench.widgets.light import LightPanel
 
         p = LightPanel(camera=gaussian_camera())
@@ -533,7 +533,7 @@ class TestLightPanel:
 
     def test_upload(self):
         """An uploaded SPD is evaluated at once and named by its file name."""
-        from workbench.widgets.design import upload_entry
+        from workbench.widgets.common import upload_entry
         from workbench.widgets.light import LightPanel
 
         p = LightPanel(compare="", camera="", evaluate=False)

@@ -16,21 +16,23 @@ from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
 from workbench.colorimetry.primaries import primaries_named
 from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
 from workbench.analysis.render import (
+    BatchPipeline,
+    delta_e00_dask,
+    render_dask,
+    render_in_memory,
+    srgb_encode,
+    to_srgb8,
+)
+from workbench.fileio.spectral_cube import (
     MAX_AUTO_CHUNK,
     MIN_AUTO_CHUNK,
     SUB_BLOCK,
-    BatchPipeline,
     auto_chunk_bytes,
-    delta_e00_dask,
     open_cube,
     parse_wavelengths,
     read_sidecar,
-    render_dask,
-    render_in_memory,
     rows_per_chunk,
     sidecar_path,
-    srgb_encode,
-    to_srgb8,
     write_sidecar,
 )
 from workbench.model.spectra import Spectra, grid
@@ -490,7 +492,7 @@ class TestCubeFiles:
         """Chunks read from .npy are memory-mapped views of the asked rows; the reader pickles as its path."""
         import pickle
 
-        from workbench.analysis.render import _NpyChunks
+        from workbench.fileio.spectral_cube import _NpyChunks
 
         a = np.arange(2 * 3 * 81, dtype=float).reshape(2, 3, 81)
         np.save(tmp_path / "c.npy", a)

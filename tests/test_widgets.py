@@ -25,11 +25,8 @@ from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.fit import FitResult, fit_design
-from workbench.widgets.design import (
-    DesignPanel,
+from workbench.widgets.common import (
     ErrorLine,
-    PrimariesPanel,
-    SensitivityFigure,
     design_from_upload,
     error_text,
     guard,
@@ -37,6 +34,9 @@ from workbench.widgets.design import (
     read_uploaded_spectra,
     upload_entry,
 )
+from workbench.widgets.design import DesignPanel
+from workbench.widgets.primaries import PrimariesPanel
+from workbench.widgets.sensitivity_figure import SensitivityFigure
 
 DEMO = demo_dir() / "tern3_design.toml"
 BAD = Path(__file__).parent / "data" / "design_bad"

@@ -43,8 +43,8 @@ def main() -> None:
 
     from workbench import demo_dir
     from workbench.analysis.evaluator import load_camera
-    from workbench.analysis.light import (_cct_duv, _emission_XYZ, _sd, camera_fidelity, light_report, read_light,
-                                 working_spd)
+    from workbench.analysis.light import camera_fidelity, light_report, read_light, working_spd
+    from workbench.analysis.light_indices import cct_duv, colour_sd, emission_XYZ
 
     camera = load_camera(demo_dir() / "tern3_design.toml")
     for fname in ("luminaire_led_export.csv", "luminaire_halogen_3200K.csv"):
@@ -54,13 +54,13 @@ def main() -> None:
         total = median_ms(lambda: light_report(spd, camera=camera), args.repeats)
         parts = {
             "working grid (read SPD → 1/5 nm)": lambda: working_spd(spd),
-            "CCT, Duv (Ohno 2013)": lambda: _cct_duv(_emission_XYZ(wl, v)),
-            "CIE 13.3 Ra, R1-R14 (colour)": lambda: colour.colour_rendering_index(_sd(wl, v, "t"),
+            "CCT, Duv (Ohno 2013)": lambda: cct_duv(emission_XYZ(wl, v)),
+            "CIE 13.3 Ra, R1-R14 (colour)": lambda: colour.colour_rendering_index(colour_sd(wl, v, "t"),
                                                                                   additional_data=True),
             "CIE 224 Rf + TM-30-18 Rg (colour)": lambda: colour.colour_fidelity_index(
-                _sd(wl, v, "t"), additional_data=True, method="ANSI/IES TM-30-18"),
+                colour_sd(wl, v, "t"), additional_data=True, method="ANSI/IES TM-30-18"),
             "Academy SSI (colour)": lambda: colour.spectral_similarity_index(
-                _sd(wl, v, "t"), colour.SDS_ILLUMINANTS["D65"].copy()),
+                colour_sd(wl, v, "t"), colour.SDS_ILLUMINANTS["D65"].copy()),
             "camera fidelity index (113 samples)": lambda: camera_fidelity(camera, spd),
         }
         print(f"\n{fname}: {w.describe_grid()}; camera {camera.name}; median of {args.repeats}")

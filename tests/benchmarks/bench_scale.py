@@ -97,7 +97,8 @@ def child_memory(args) -> dict:
     t_load = time.perf_counter() - t0
     base = _rss()
     workers = os.cpu_count() or 1
-    from workbench.analysis.render import auto_chunk_bytes, open_cube, render_dask
+    from workbench.analysis.render import render_dask
+    from workbench.fileio.spectral_cube import auto_chunk_bytes, open_cube
 
     cube = open_cube(args.path)
     chunk = int(args.chunk_mb * 2 ** 20) if args.chunk_mb else auto_chunk_bytes(total=cube.nbytes)
@@ -120,7 +121,8 @@ def child_memory(args) -> dict:
 
 
 def child_dask(args) -> dict:
-    from workbench.analysis.render import auto_chunk_bytes, open_cube, render_dask
+    from workbench.analysis.render import render_dask
+    from workbench.fileio.spectral_cube import auto_chunk_bytes, open_cube
 
     p = _pipeline()
     cube = open_cube(args.path)

@@ -21,7 +21,7 @@ import ipywidgets as W
 
 from workbench import demo_dir
 from workbench.analysis.light import CAUTION, LightReport, light_report, parse_light, read_light, report_rows
-from workbench.widgets.design import ErrorLine, compact, figure_png, guard, html_table, show_png, uploaded_files
+from workbench.widgets.common import ErrorLine, compact, figure_png, guard, html_table, show_png, uploaded_files
 
 __all__ = ["LightPanel", "light_panel"]
 

@@ -122,7 +122,8 @@ def _scheduler(text: str):
 
 
 def run(args) -> int:
-    from workbench.analysis.render import BatchPipeline, auto_chunk_bytes, open_cube, render_dask
+    from workbench.analysis.render import BatchPipeline, render_dask
+    from workbench.fileio.spectral_cube import auto_chunk_bytes, open_cube
 
     chunk_mb = _chunk_mb(args.chunk_mb)
     cube = open_cube(args.cube, wavelengths=args.wavelengths)
@@ -250,7 +251,7 @@ def run(args) -> int:
 
 
 def _grid_text(wl) -> str:
-    from workbench.analysis.render import _describe
+    from workbench.fileio.spectral_cube import describe_grid
 
-    return _describe(np.asarray(wl, dtype=float))
+    return describe_grid(np.asarray(wl, dtype=float))
 

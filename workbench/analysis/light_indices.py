@@ -1,0 +1,333 @@
+"""Light sources, second stage: the published indices of one SPD, computed by colour-science.
+
+CCT and Duv (Ohno 2013), CIE 13.3 Ra and R1-R14, CIE 224:2017 Rf, ANSI/IES
+TM-30-18 Rg, the Academy SSI and the illuminance when the SPD is absolute;
+see :mod:`workbench.analysis.light` for the whole stage.
+
+References
+----------
+CIE 13.3-1995, *Method of measuring and specifying colour rendering
+properties of light sources*.
+CIE 224:2017, *CIE 2017 colour fidelity index for accurate scientific use*.
+ANSI/IES TM-30-18, *IES method for evaluating light source color rendition*.
+Ohno, Y. (2014). Practical use and calculation of CCT and Duv. *LEUKOS*
+10(1), 47-55.
+Holm, J. et al. (2016). A cinematographic spectral similarity index.
+SMPTE Annual Technical Conference.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+
+from workbench.colorimetry.cie import _canonical_illuminant
+from workbench.colorimetry.coordinates import XYZ_to_uv_prime, XYZ_to_xy
+from workbench.errors import WorkbenchError
+from workbench.model.spectra import Spectra, grid
+from workbench.analysis.light_spd import (
+    DAYLIGHT_CCT_RANGE, K_M, SSI_DAYLIGHT_FROM, absolute_scale, light_label, light_short_name,
+    reference_illuminant, working_spd,
+)
+
+__all__ = ["LightIndices", "light_indices", "cct_duv", "emission_XYZ"]
+
+_Q_HALF = 3.16
+
+#: within ΔC = 5.4×10⁻³ (CIE 1960 uv) of the reference's (from memory).
+_CIE_13_3_DC = 5.4e-3
+#: CIE 15:2004: CCT is meaningful within |Duv| ≤ 0.05 of the Planckian locus.
+_CCT_DUV_LIMIT = 0.05
+
+_SET_LABEL = {"cie-13.3": "CIE 13.3 TCS01-TCS14", "cie-224": "CIE 224:2017 CES01-CES99"}
+
+# CIE 13.3-1995, Table 1: the Munsell descriptions of TCS01-TCS14 (from memory)
+_TCS_NAMES = (
+    "light greyish red", "dark greyish yellow", "strong yellow green", "moderate yellowish green",
+    "light bluish green", "light blue", "light violet", "light reddish purple", "strong red",
+    "strong yellow", "strong green", "strong blue", "light yellowish pink (skin)",
+    "moderate olive green (leaf)",
+)
+
+
+# --------------------------------------------------------------------------
+# Published indices
+# --------------------------------------------------------------------------
+
+
+@contextlib.contextmanager
+def quiet_colour():
+    """colour-science warns on every reshape; what it assumed is said in our own notes instead."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        yield
+
+
+def colour_sd(wl: np.ndarray, values: np.ndarray, name: str):
+    """A colour-science SpectralDistribution that interpolates linearly (emission lines do not ring)."""
+    import colour
+    from colour.algebra import LinearInterpolator
+
+    return colour.SpectralDistribution(np.asarray(values, dtype=float), np.asarray(wl, dtype=float), name=name,
+                                       interpolator=LinearInterpolator)
+
+
+def cct_duv(XYZ: np.ndarray) -> tuple[float, float]:
+    import colour
+
+    X, Y, Z = (float(v) for v in XYZ)
+    d = X + 15 * Y + 3 * Z
+    uv = np.array([4 * X / d, 6 * Y / d])
+    with quiet_colour():
+        CCT, Duv = colour.uv_to_CCT(uv, method="Ohno 2013")
+    return float(CCT), float(Duv)
+
+
+def emission_XYZ(wl: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Σ E x̄ȳz̄ Δλ (CIE 1931 2°) on a uniform grid — unnormalised."""
+    from workbench.colorimetry.tristimulus import emission_weights
+
+    return emission_weights(wl).apply(values)
+
+
+_METHODS = {
+    "CCT": "Ohno 2013 (colour.uv_to_CCT) from CIE 1960 uv, CIE 1931 2°, CIE 15 summation on the "
+           "working grid; K",
+    "Duv": "Ohno 2013: signed distance from the Planckian locus in CIE 1960 uv (+ above)",
+    "Ra": "CIE 13.3-1995 general colour rendering index, mean of R1-R8 "
+          "(colour.colour_rendering_index, 'CIE 1995')",
+    "R": "CIE 13.3-1995 special colour rendering indices R1-R14 (TCS01-TCS14)",
+    "Rf": "CIE 224:2017 colour fidelity index (99 CES, CIE 1964 10°, CAM02-UCS; "
+          "colour.colour_fidelity_index, 'CIE 2017')",
+    "Rg": "ANSI/IES TM-30-18 gamut index (16 hue bins of the 99 CES; "
+          "colour.colour_fidelity_index, 'ANSI/IES TM-30-18')",
+    "SSI": "Academy spectral similarity index, 375-675 nm, rounded to a whole number "
+           "(colour.spectral_similarity_index)",
+}
+
+
+@dataclass(frozen=True, eq=False)
+class LightIndices:
+    """The published indices of one SPD, each with its method (``methods``) and unit (``units_of``).
+
+    ``R`` holds R1-R14; any index colour-science could not compute is None
+    with the reason in ``warnings``. ``illuminance`` is in lx (or
+    ``luminance`` in cd/m² for radiance) when the SPD's units are
+    absolute, else None. ``spd`` is the SPD on its working grid.
+    """
+
+    name: str
+    source: str | None
+    spd: Spectra
+    CCT: float
+    Duv: float
+    xy: tuple[float, float]
+    uv_prime: tuple[float, float]
+    Ra: float | None
+    R: tuple[float, ...] | None
+    Rf: float | None
+    Rg: float | None
+    SSI: int | None
+    SSI_unrounded: float | None
+    SSI_reference: str
+    illuminance: float | None
+    illuminance_quantity: str | None
+    illuminance_unit: str | None
+    methods: dict
+    units_of: dict
+    notes: tuple[str, ...] = ()
+    warnings: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict:
+        """The JSON form: the numbers at the top level, ``method`` and ``unit`` beside them."""
+        d = {
+            "light": self.name,
+            "file": self.source,
+            "grid": self.spd.describe_grid(),
+            "spd_units": self.spd.units,
+            "CCT": self.CCT,
+            "Duv": self.Duv,
+            "x": self.xy[0],
+            "y": self.xy[1],
+            "u_prime": self.uv_prime[0],
+            "v_prime": self.uv_prime[1],
+            "Ra": self.Ra,
+            "R": None if self.R is None else list(self.R),
+            "Rf": self.Rf,
+            "Rg": self.Rg,
+            "SSI": self.SSI,
+            "SSI_unrounded": self.SSI_unrounded,
+            "SSI_reference": self.SSI_reference,
+            "illuminance_lx": self.illuminance if self.illuminance_unit == "lx" else None,
+            "luminance_cd_m2": self.illuminance if self.illuminance_unit == "cd/m²" else None,
+            "method": dict(self.methods),
+            "unit": dict(self.units_of),
+            "warnings": list(self.warnings),
+        }
+        return d
+
+    def rows(self) -> list[dict]:
+        """One row per number: ``quantity``, ``value``, ``unit``, ``method`` (for tables)."""
+        out = [
+            {"quantity": "CCT", "value": self.CCT, "unit": "K", "method": self.methods["CCT"]},
+            {"quantity": "Duv", "value": self.Duv, "unit": "1", "method": self.methods["Duv"]},
+            {"quantity": "x, y", "value": f"{self.xy[0]:.4f}, {self.xy[1]:.4f}", "unit": "1",
+             "method": "CIE 1931 2° chromaticity"},
+            {"quantity": "u′, v′", "value": f"{self.uv_prime[0]:.4f}, {self.uv_prime[1]:.4f}", "unit": "1",
+             "method": "CIE 1976 UCS chromaticity, CIE 1931 2°"},
+            {"quantity": "Ra", "value": self.Ra, "unit": "1", "method": self.methods["Ra"]},
+        ]
+        if self.R is not None:
+            for i, r in enumerate(self.R):
+                out.append({"quantity": f"R{i + 1}", "value": r, "unit": "1",
+                            "method": f"CIE 13.3 special index, TCS{i + 1:02d} ({_TCS_NAMES[i]})"})
+        out += [
+            {"quantity": "Rf", "value": self.Rf, "unit": "1", "method": self.methods["Rf"]},
+            {"quantity": "Rg", "value": self.Rg, "unit": "1", "method": self.methods["Rg"]},
+            {"quantity": "SSI", "value": self.SSI, "unit": "1",
+             "method": f"{self.methods['SSI']}; reference {self.SSI_reference}"},
+        ]
+        if self.illuminance is not None:
+            out.append({"quantity": self.illuminance_quantity, "value": self.illuminance,
+                        "unit": self.illuminance_unit, "method": self.methods["illuminance"]})
+        return out
+
+
+def _ssi_reference(ssi_reference, cct: float) -> tuple[str, object, tuple[str, ...]]:
+    """(label, colour SpectralDistribution, notes) of the SSI reference."""
+    import colour
+
+    wl = grid(375.0, 675.0, 1.0)
+    if isinstance(ssi_reference, Spectra):
+        w = working_spd(ssi_reference, required=None)
+        return (f"{light_label(ssi_reference)} (given)", colour_sd(w.wavelengths, w.flat()[0], "reference"),
+                tuple(n for n in w.notes if "put on a 1 nm grid" in n))
+    ref = str(ssi_reference).strip()
+    if ref.lower() == "auto":
+        lo, hi = DAYLIGHT_CCT_RANGE
+        if cct > hi:
+            return f"none (no automatic reference above {hi:g} K)", None, ()
+        label, v = reference_illuminant(cct, wl, daylight_from=SSI_DAYLIGHT_FROM)
+        return f"{label} (automatic)", colour_sd(wl, v, label), ()
+    try:
+        name = _canonical_illuminant(ref)
+    except WorkbenchError:
+        raise WorkbenchError(
+            f"SSI reference must be 'auto', a CIE illuminant name (A, D50, D65, ...) or an SPD file "
+            f"(got {ssi_reference!r})") from None
+    return f"{name} (chosen)", colour.SDS_ILLUMINANTS[name], ()
+
+
+def light_indices(spd: Spectra, *, ssi_reference="auto", extrapolation: str = "none") -> LightIndices:
+    """The published indices of one SPD.
+
+    Parameters
+    ----------
+    spd : Spectra
+        One emission spectrum (relative or absolute), e.g. from
+        :func:`read_light`.
+    ssi_reference : 'auto', str or Spectra
+        The Academy SSI reference: ``'auto'`` takes a Planckian radiator at
+        the test light's CCT below 4000 K and CIE daylight at that CCT from
+        4000 K to 25000 K (the rule of Academy specification S-2018-001 as
+        read in an open implementation); or a CIE illuminant name; or an
+        SPD.
+    extrapolation : {'none', 'constant'}
+        For SPDs not covering 380-780 nm (see :func:`working_spd`).
+
+    Returns
+    -------
+    LightIndices
+
+    Notes
+    -----
+    Every index is colour-science's own computation on the working-grid
+    SPD. Each index finds its own reference internally: CIE 13.3 from
+    colour-science's Robertson 1968 CCT (Planckian below 5000 K, daylight
+    above), CIE 224 / TM-30 from Ohno 2013 with a Planckian-daylight blend
+    between 4000 and 5000 K. colour-science extends the SPD to 360-830 nm
+    with its end values for CIE 13.3 and fills 375-380 nm with zeros for
+    the SSI; both are said in the notes when they happen.
+    """
+    import colour
+
+    w = working_spd(spd, extrapolation=extrapolation)
+    wl = w.wavelengths
+    v = w.flat()[0]
+    name = light_short_name(spd)
+    label = light_label(spd)
+    XYZ = emission_XYZ(wl, v)
+    if not XYZ[1] > 0:
+        raise WorkbenchError(f"{label}: the SPD has no visible power (Σ E ȳ Δλ = {XYZ[1]:.3g})")
+    notes = list(w.notes)
+    warns: list[str] = []
+    CCT, Duv = cct_duv(XYZ)
+    if abs(Duv) > _CCT_DUV_LIMIT:
+        warns.append(f"|Duv| = {abs(Duv):.4f} > {_CCT_DUV_LIMIT:g}: CCT is not meaningful (CIE 15:2004), "
+                     "nor is any index that compares with a reference at that CCT")
+    elif abs(Duv) > _CIE_13_3_DC:
+        warns.append(f"|Duv| = {abs(Duv):.4f} > {_CIE_13_3_DC:g}: CIE 13.3 asks the test light to lie within "
+                     "ΔC 5.4×10⁻³ of its reference; Ra is indicative only")
+    if not 1000 <= CCT <= 20000:
+        warns.append(f"CCT {CCT:.0f} K lies outside 1000-20000 K, where Ohno 2013 is within 1 K")
+    if wl[0] > 360 or wl[-1] < 830:
+        notes.append(f"{label}: colour-science's CIE 13.3 computation extends the SPD from "
+                     f"{wl[0]:g}-{wl[-1]:g} nm to 360-830 nm with its end values (CIE 167:2005)")
+    if w.step != 1.0:
+        notes.append(f"{label}: colour-science's CIE 13.3 computation interpolates the SPD to 1 nm linearly "
+                     "(the workbench's rule for emission spectra, whose narrow lines make higher-order "
+                     "interpolation ring)")
+    if wl[0] > 375:
+        notes.append(f"{label}: the Academy SSI takes the SPD as zero over 375-{wl[0]:g} nm")
+    # a fresh SpectralDistribution per call: colour-science reshapes and trims its argument in place
+    Ra = R = Rf = Rg = SSI = SSI_u = None
+    with quiet_colour():
+        try:
+            cri = colour.colour_rendering_index(colour_sd(wl, v, name), additional_data=True)
+            Ra = float(cri.Q_a)
+            R = tuple(float(cri.Q_as[i].Q_a) for i in sorted(cri.Q_as))
+        except (ValueError, ArithmeticError, KeyError) as err:
+            warns.append(f"Ra: not computed ({err})")
+        try:
+            tm = colour.colour_fidelity_index(colour_sd(wl, v, name), additional_data=True, method="ANSI/IES TM-30-18")
+            Rf, Rg = float(tm.R_f), float(tm.R_g)
+            notes.append(f"CIE 224:2017 / TM-30-18 reference: {tm.sd_reference.name} "
+                         f"(CCT {float(tm.CCT):.0f} K by their own Ohno 2013 computation)")
+        except (ValueError, ArithmeticError, KeyError) as err:
+            warns.append(f"Rf, Rg: not computed ({err})")
+        ref_label, ref_sd, ref_notes = _ssi_reference(ssi_reference, CCT)
+        notes += list(ref_notes)
+        try:
+            if ref_sd is None:
+                raise ValueError(f"no automatic reference above {DAYLIGHT_CCT_RANGE[1]:g} K (CCT {CCT:.0f} K); "
+                                 "choose one with --ssi-reference NAME|FILE.csv")
+            SSI_u = float(colour.spectral_similarity_index(colour_sd(wl, v, name), ref_sd.copy(), round_result=False))
+            SSI = int(np.around(SSI_u))
+        except (ValueError, ArithmeticError, KeyError) as err:
+            warns.append(f"SSI: not computed ({err})")
+    methods = dict(_METHODS)
+    methods["Ra"] += " (reference chosen by colour-science from its Robertson 1968 CCT)"
+    methods["SSI_reference"] = ("automatic: Planckian below 4000 K, CIE daylight 4000-25000 K, at the "
+                                "light's CCT" if str(ssi_reference).lower() == "auto" else "chosen")
+    units_of = {"CCT": "K", "Duv": "1 (CIE 1960 uv)", "Ra": "1", "R": "1", "Rf": "1", "Rg": "1", "SSI": "1"}
+    illum = quantity = unit = None
+    scale = absolute_scale(w.units)
+    if scale is not None:
+        quantity, unit, factor = scale
+        illum = float(K_M * factor * XYZ[1])
+        what = "spectral irradiance" if unit == "lx" else "spectral radiance"
+        methods["illuminance"] = (f"{quantity} = 683 lm/W · Σ E(λ) V(λ) Δλ, V = ȳ of CIE 1931 2°, "
+                                  f"{what} in {w.units} (× {factor:g} to W-based SI units)")
+        units_of["illuminance_lx" if unit == "lx" else "luminance_cd_m2"] = unit
+    else:
+        notes.append(f"{label}: units {w.units!r} are not absolute radiometric units (W·m⁻²·nm⁻¹ or "
+                     "multiples); no illuminance")
+    X, Y, Z = XYZ
+    xy = XYZ_to_xy(XYZ)
+    uvp = XYZ_to_uv_prime(XYZ)
+    return LightIndices(name, spd.source, w, CCT, Duv, (float(xy[0]), float(xy[1])),
+                        (float(uvp[0]), float(uvp[1])), Ra, R, Rf, Rg, SSI, SSI_u, ref_label,
+                        illum, quantity, unit, methods, units_of, tuple(dict.fromkeys(notes)), tuple(warns))

@@ -1,0 +1,501 @@
+"""Tolerance analysis, second part: statistics, yield, ranking and the result value.
+
+Distributions, the Wilson interval of the yield, the correlation ratio and
+standardized regression (what drives the error), and
+:class:`ToleranceResult`, the frozen outcome of
+:func:`workbench.analysis.tolerance.run_tolerance`.
+
+References
+----------
+- Saltelli, A. et al., *Global Sensitivity Analysis. The Primer*, Wiley
+  (2008), ch. 1 (standardized regression coefficients; first-order
+  sensitivity index as the variance of the conditional mean).
+- McKay, M. D., *Evaluating Prediction Uncertainty*, NUREG/CR-6311 (1995)
+  (the correlation ratio estimated from a sample).
+- Wilson, E. B., *J. Am. Stat. Assoc.* 22:209 (1927) (score interval of a
+  proportion).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+from dataclasses import dataclass, field as dc_field
+
+import numpy as np
+
+from workbench.model.design import CHANNELS, Design, ToleranceSpec
+from workbench.errors import WorkbenchError
+from workbench.analysis.tolerance_draws import parameter_unit
+from workbench.analysis.tolerance_field import FieldShift
+
+__all__ = [
+    "PERCENTILES",
+    "distribution",
+    "wilson_interval",
+    "correlation_ratio",
+    "standardized_regression",
+    "passes_spec",
+    "ToleranceResult",
+]
+
+PERCENTILES = (5, 50, 95)
+_Z95 = 1.959963984540054  # two-sided 95 % normal quantile
+
+_METHODS = {
+    "sampling": (
+        "Monte Carlo: each toleranced parameter = nominal + width·z, z standard normal ('normal', "
+        "width = σ) or uniform on [−1, 1] ('uniform', width = half-width); parameters independent; "
+        "numpy PCG64 stream seeded by (seed, CRC-32 of the parameter name), so a parameter's draws do "
+        "not change when other tolerances change"),
+    "distribution": ("percentiles p5, p50, p95 by linear interpolation between order statistics "
+                     "(numpy 'linear', Hyndman & Fan type 7); std with ddof = 1; over the finished trials"),
+    "yield": ("fraction of trials with mean ΔE00 ≤ max_mean_delta_E00 under every illuminant and "
+              "ν ≥ min_vora; 95 % interval by the Wilson score method (Wilson 1927)"),
+    "variance_contribution": (
+        "first-order correlation ratio η² = Var(E[Y|X_i])/Var(Y), E[Y|X_i] estimated as the mean of Y in "
+        "equal-count bins of X_i (McKay 1995; the first-order sensitivity index of Saltelli et al. 2008, "
+        "ch. 1), bias-corrected like Kelley's ε² so that a parameter without effect scores about 0 "
+        "(correlation_ratio: the uncorrected η², about (bins − 1)/(trials − 1) without effect)"),
+    "src2": ("squared standardized regression coefficient SRC² = (b_i σ_i/σ_Y)² of a linear fit of Y on "
+             "all parameters (Saltelli et al. 2008, ch. 1); ΣSRC² = R² when the inputs are independent "
+             "and Y is near-linear; r_squared says how linear"),
+    "one_at_a_time": ("each parameter alone at nominal − width and nominal + width (±1 σ for 'normal', "
+                      "the ends for 'uniform'), the others nominal; change of the response from the nominal"),
+    "fixed": ("the nominal design's matrix for every unit (the design's [matrix] when stored, else fitted "
+              "to the nominal design by its [fit] rule); white balance on each unit's own white"),
+    "recalibrated": "each unit its own matrix by the design's [fit] rule; white balance on its own white",
+    "white_balance_gain": ("gain of the channel on the perfect diffuser divided by the green channel's "
+                           "gain (1/raw R ÷ 1/raw G and 1/raw B ÷ 1/raw G)"),
+    "noise_gain": ("2-norm of each row of the matrix applied to the white-balanced RGB: the output "
+                   "noise per unit input noise for independent, equal channel noise"),
+    "grey_snr_db": ("20·log10(grey / σ_out) of the design's [noise] grey in each display channel: shot + "
+                    "read noise per channel, through white balance and the matrix (workbench.analysis.evaluator.noise_report)"),
+    "worst_mean_delta_E00": "the largest of the per-illuminant mean ΔE00 of a unit (what the yield tests)",
+}
+
+_UNITS = {
+    "vora_value": "1 (0-1)",
+    "delta_E00": "ΔE00 (CIEDE2000) units",
+    "white_balance_gain": "1 (ratio to the green gain)",
+    "noise_gain": "1 (output/input noise)",
+    "grey_snr_db": "dB",
+    "yield": "fraction of trials, 0-1",
+    "aoi_offset_deg": "degrees, in the prism glass",
+}
+
+
+
+# --------------------------------------------------------------------------
+# Statistics
+# --------------------------------------------------------------------------
+
+
+def distribution(x) -> dict:
+    """``{p5, p50, p95, mean, std, min, max}`` of a sample (1-D); None for an empty one.
+
+    Percentiles by linear interpolation between order statistics (numpy's
+    default, Hyndman & Fan type 7); ``std`` with ddof = 1 (0 for one value).
+    """
+    x = np.asarray(x, dtype=float).ravel()
+    if x.size == 0:
+        return {k: None for k in ("p5", "p50", "p95", "mean", "std", "min", "max")}
+    p = np.percentile(x, PERCENTILES)
+    return {
+        "p5": float(p[0]), "p50": float(p[1]), "p95": float(p[2]),
+        "mean": float(x.mean()), "std": float(x.std(ddof=1)) if x.size > 1 else 0.0,
+        "min": float(x.min()), "max": float(x.max()),
+    }
+
+
+def wilson_interval(passed: int, n: int, z: float = _Z95) -> tuple[float, float]:
+    """Wilson score interval of a proportion ``passed``/``n`` (default 95 %).
+
+    (p̂ + z²/2n ± z√(p̂(1−p̂)/n + z²/4n²)) / (1 + z²/n) (Wilson 1927).
+    """
+    if n <= 0:
+        return (math.nan, math.nan)
+    p = passed / n
+    d = 1 + z * z / n
+    c = (p + z * z / (2 * n)) / d
+    h = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / d
+    # at p̂ = 0 (1) the lower (upper) end is exactly 0 (1); say so rather than leave a rounding residue
+    lo = 0.0 if passed == 0 else c - h
+    hi = 1.0 if passed == n else c + h
+    return (lo, hi)
+
+
+def _bins(n: int) -> int:
+    return int(min(50, max(2, round(math.sqrt(n) / 2))))
+
+
+def correlation_ratio(X, y, bins: int | None = None, *, corrected: bool = False) -> np.ndarray:
+    """First-order correlation ratio η² = Var(E[y|X_i]) / Var(y) of each column of X (N, P) → (P,).
+
+    E[y|X_i] is the mean of y in ``bins`` equal-count bins of X_i (default
+    √N/2, 2-50). Model-free: it also sees a non-monotonic effect that a
+    linear fit misses. NaN when y does not vary.
+
+    With ``corrected=True`` the bias of the binned estimate is removed as
+    in Kelley's ε²: (SS_between − (k − 1)·SS_within/(N − k)) / SS_total, so
+    a parameter without effect scores about 0 (a small negative value is
+    sampling noise) instead of about (k − 1)/(N − 1).
+    """
+    X = np.atleast_2d(np.asarray(X, dtype=float))
+    y = np.asarray(y, dtype=float)
+    N, P = X.shape
+    if N < 2 or P == 0:
+        return np.full(P, np.nan)
+    ss = np.sum((y - y.mean()) ** 2)
+    if not ss > 0:
+        return np.full(P, np.nan)
+    k = bins or _bins(N)
+    ranks = np.argsort(np.argsort(X, axis=0, kind="stable"), axis=0, kind="stable")
+    b = (ranks * k) // N                                           # (N, P) bin of each trial
+    out = np.empty(P)
+    for i in range(P):  # P parameters, each one bincount over all trials
+        cnt = np.bincount(b[:, i], minlength=k)
+        s = np.bincount(b[:, i], weights=y, minlength=k)
+        m = np.divide(s, cnt, out=np.zeros(k), where=cnt > 0)
+        between = np.sum(cnt * (m - y.mean()) ** 2)
+        if corrected:
+            used = int(np.count_nonzero(cnt))
+            within = ss - between
+            between = between - (used - 1) * within / max(1, N - used)
+        out[i] = between / ss
+    return out
+
+
+def standardized_regression(X, y) -> tuple[np.ndarray, float]:
+    """Standardized regression coefficients (P,) of y on X (N, P) and the fit's R².
+
+    SRC_i = b_i·σ(X_i)/σ(y) of the least-squares fit y ≈ b₀ + Σ b_i X_i
+    (Saltelli et al. 2008, ch. 1). NaN when y does not vary.
+    """
+    X = np.atleast_2d(np.asarray(X, dtype=float))
+    y = np.asarray(y, dtype=float)
+    N, P = X.shape
+    sy = y.std()
+    if N <= P + 1 or not sy > 0 or P == 0:
+        return np.full(P, np.nan), math.nan
+    sx = X.std(axis=0)
+    Z = np.where(sx > 0, (X - X.mean(axis=0)) / np.where(sx > 0, sx, 1.0), 0.0)
+    yz = (y - y.mean()) / sy
+    b, *_ = np.linalg.lstsq(Z, yz, rcond=None)
+    r = yz - Z @ b
+    return b, float(1.0 - (r @ r) / (yz @ yz))
+
+
+
+def passes_spec(arr: dict, case: str, vora, spec: ToleranceSpec) -> np.ndarray:
+    return np.all(arr[case]["delta_E00_mean"] <= spec.max_mean_delta_E00, axis=-1) & (vora >= spec.min_vora)
+
+
+
+# --------------------------------------------------------------------------
+# The result
+# --------------------------------------------------------------------------
+
+
+def _clean(v):
+    if isinstance(v, dict):
+        return {str(k): _clean(x) for k, x in v.items()}
+    if isinstance(v, (list, tuple)):
+        return [_clean(x) for x in v]
+    if isinstance(v, np.ndarray):
+        return _clean(v.tolist())
+    if isinstance(v, (float, np.floating)):
+        f = float(v)
+        return f if math.isfinite(f) else None
+    if isinstance(v, (np.integer,)):
+        return int(v)
+    if isinstance(v, np.bool_):
+        return bool(v)
+    return v
+
+
+@dataclass(frozen=True, eq=False)
+class ToleranceResult:
+    """The outcome of :func:`run_tolerance`: a frozen value that renders, serialises and writes CSV.
+
+    Attributes
+    ----------
+    trials : int
+        Trials finished (fewer than ``trials_requested`` when interrupted).
+    samples : dict of str to (trials,) arrays
+        The drawn parameter values, by ``'element.param'``.
+    trial_index : (trials,) int array
+        Index of each finished trial in the requested sequence.
+    vora_value : (trials,) array
+    per_case : dict
+        For each case in ``cases``: ``delta_E00_mean``, ``delta_E00_max``
+        (trials, J); ``gains``, ``noise_gain``, ``grey_snr_db`` (trials, J, 3);
+        ``passed`` (trials,) bool; ``matrix_method``.
+    nominal, one_at_a_time : dict
+        The same arrays for the nominal design (1 unit) and for each
+        parameter alone at ∓ width (2P units, rows in ``oat_labels``).
+    field : FieldShift or None
+    """
+
+    design: Design
+    trials: int
+    trials_requested: int
+    seed: int
+    cases: tuple[str, ...]
+    tolerances: dict
+    samples: dict
+    trial_index: np.ndarray
+    vora_value: np.ndarray
+    per_case: dict
+    nominal: dict
+    one_at_a_time: dict
+    oat_labels: tuple
+    illuminants: tuple[str, ...]
+    spec: ToleranceSpec
+    field: FieldShift | None
+    interrupted: bool
+    seconds: float
+    chunk: int
+    notes: tuple[str, ...] = dc_field(default=())
+
+    # -- derived ------------------------------------------------------------------
+    @property
+    def primary(self) -> str:
+        """The case whose numbers the summary puts at the top level (``fixed`` when run)."""
+        return self.cases[0]
+
+    def worst_mean(self, case: str) -> np.ndarray:
+        """(trials,) the largest per-illuminant mean ΔE00 of each unit."""
+        return self.per_case[case]["delta_E00_mean"].max(axis=-1)
+
+    def passed(self, case: str) -> np.ndarray:
+        return self.per_case[case]["passed"]
+
+    def yield_fraction(self, case: str | None = None) -> float:
+        p = self.passed(case or self.primary)
+        return float(p.mean()) if p.size else math.nan
+
+    def parameter_matrix(self) -> tuple[list[str], np.ndarray]:
+        """The varied parameters (width > 0) and their draws (trials, P)."""
+        keys = [k for k, t in self.tolerances.items() if t.width > 0]
+        X = np.stack([self.samples[k] for k in keys], axis=-1) if keys else np.zeros((self.trials, 0))
+        return keys, X
+
+    def ranking(self, case: str | None = None, response: str = "worst_mean_delta_E00") -> dict:
+        """Which tolerance drives ``response``: variance contribution, SRC² and one-at-a-time.
+
+        ``response``: ``'worst_mean_delta_E00'``, ``'vora_value'`` or
+        ``'delta_E00_mean:<illuminant>'``. Rows sorted by the variance
+        contribution (η²), largest first.
+        """
+        case = case or self.primary
+        y, y_nom, y_oat = self._response(case, response)
+        keys, X = self.parameter_matrix()
+        eta = correlation_ratio(X, y, corrected=True)
+        eta_raw = correlation_ratio(X, y)
+        src, r2 = standardized_regression(X, y)
+        rows = []
+        for i, k in enumerate(keys):
+            j = [n for n, (kk, _) in enumerate(self.oat_labels) if kk == k]
+            lo, hi = (float(y_oat[j[0]] - y_nom), float(y_oat[j[1]] - y_nom)) if j else (math.nan, math.nan)
+            t = self.tolerances[k]
+            rows.append({
+                "name": k, "unit": parameter_unit(self.design, k), "distribution": t.distribution,
+                "width": t.width, "variance_contribution": float(eta[i]),
+                "correlation_ratio": float(eta_raw[i]), "src2": float(src[i] ** 2),
+                "src": float(src[i]), "oat_minus": lo, "oat_plus": hi,
+                "oat_span": float(max(abs(lo), abs(hi))) if j else math.nan,
+            })
+        rows.sort(key=lambda r: (-(r["variance_contribution"] if math.isfinite(r["variance_contribution"]) else -1),
+                                 -(r["oat_span"] if math.isfinite(r["oat_span"]) else -1)))
+        return {
+            "response": response, "case": case, "r_squared": r2,
+            "bins": _bins(self.trials) if self.trials >= 2 else None,
+            "methods": {"variance_contribution": _METHODS["variance_contribution"], "src2": _METHODS["src2"],
+                        "one_at_a_time": _METHODS["one_at_a_time"]},
+            "parameters": rows,
+        }
+
+    def _response(self, case, response):
+        def pick(arr):
+            if response == "vora_value":
+                return arr["vora_value"]
+            m = arr[case]["delta_E00_mean"]
+            if response == "worst_mean_delta_E00":
+                return m.max(axis=-1)
+            if response.startswith("delta_E00_mean:"):
+                ill = response.split(":", 1)[1]
+                if ill not in self.illuminants:
+                    raise WorkbenchError(f"response {response!r}: expected an illuminant of "
+                                         f"{', '.join(self.illuminants)}")
+                return m[:, self.illuminants.index(ill)]
+            raise WorkbenchError(f"response must be 'worst_mean_delta_E00', 'vora_value' or "
+                                 f"'delta_E00_mean:<illuminant>' (got {response!r})")
+        full = {"vora_value": self.vora_value, case: self.per_case[case]}
+        return pick(full), float(pick(self.nominal)[0]), pick(self.one_at_a_time)
+
+    # -- serialisation ----------------------------------------------------------
+    def _case_summary(self, case: str) -> dict:
+        a = self.per_case[case]
+        nom = self.nominal[case]
+        ills = {}
+        for j, ill in enumerate(self.illuminants):
+            g = a["gains"][:, j, :]
+            ills[ill] = {
+                "delta_E00_mean": distribution(a["delta_E00_mean"][:, j]),
+                "delta_E00_max": distribution(a["delta_E00_max"][:, j]),
+                "white_balance_gain_R_over_G": distribution(g[:, 0] / g[:, 1]),
+                "white_balance_gain_B_over_G": distribution(g[:, 2] / g[:, 1]),
+                "noise_gain": {ch: distribution(a["noise_gain"][:, j, i]) for i, ch in enumerate(CHANNELS)},
+                "grey_snr_db": {ch: distribution(a["grey_snr_db"][:, j, i]) for i, ch in enumerate(CHANNELS)},
+                "nominal": {
+                    "delta_E00_mean": float(nom["delta_E00_mean"][0, j]),
+                    "delta_E00_max": float(nom["delta_E00_max"][0, j]),
+                    "white_balance_gain_R_over_G": float(nom["gains"][0, j, 0] / nom["gains"][0, j, 1]),
+                    "white_balance_gain_B_over_G": float(nom["gains"][0, j, 2] / nom["gains"][0, j, 1]),
+                    "noise_gain": {ch: float(nom["noise_gain"][0, j, i]) for i, ch in enumerate(CHANNELS)},
+                },
+            }
+        passed = a["passed"]
+        k = int(passed.sum())
+        lo, hi = wilson_interval(k, self.trials)
+        nominal_pass = bool(passes_spec(self.nominal, case, self.nominal["vora_value"], self.spec)[0])
+        return {
+            "matrix": case,
+            "matrix_method": a["matrix_method"],
+            "yield": k / self.trials if self.trials else None,
+            "yield_interval_95": [lo, hi],
+            "units_passing": k,
+            "nominal_passes": nominal_pass,
+            "nominal_worst_mean_delta_E00": float(nom["delta_E00_mean"][0].max()),
+            "worst_mean_delta_E00": distribution(self.worst_mean(case)),
+            "illuminants": ills,
+            "ranking": self.ranking(case),
+        }
+
+    def summary(self) -> dict:
+        """The JSON object ``workbench tolerance --format json`` prints (no timings, so the same
+        seed gives the same text)."""
+        p = self.primary
+        cases = {c: self._case_summary(c) for c in self.cases}
+        top = cases[p]
+        params = []
+        known = self.design.parameters()
+        for k, t in self.tolerances.items():
+            x = self.samples[k]
+            params.append({
+                "name": k, "unit": parameter_unit(self.design, k), "nominal": known[k].value,
+                "distribution": t.distribution, "width": t.width,
+                "width_means": "standard deviation" if t.distribution == "normal" else "half-width",
+                "sampled": distribution(x),
+            })
+        return _clean({
+            "design": self.design.name,
+            "file": self.design.source,
+            "trials": self.trials,
+            "trials_requested": self.trials_requested,
+            "interrupted": self.interrupted,
+            "seed": self.seed,
+            "matrix": p,
+            "yield": top["yield"],
+            "yield_interval_95": top["yield_interval_95"],
+            "units_passing": top["units_passing"],
+            "nominal_passes": top["nominal_passes"],
+            "spec": {
+                "max_mean_delta_E00": self.spec.max_mean_delta_E00, "min_vora": self.spec.min_vora,
+                "rule": "mean ΔE00 ≤ max_mean_delta_E00 under every illuminant and ν ≥ min_vora",
+            },
+            "vora_value": {**distribution(self.vora_value), "nominal": float(self.nominal["vora_value"][0])},
+            "worst_mean_delta_E00": top["worst_mean_delta_E00"],
+            "illuminants": top["illuminants"],
+            "ranking": top["ranking"],
+            "ranking_vora_value": self.ranking(p, "vora_value"),
+            "cases": cases,
+            "parameters": params,
+            "field": None if self.field is None else self.field.to_dict(),
+            "units": {**_UNITS, **{k: parameter_unit(self.design, k) for k in self.tolerances}},
+            "methods": {**_METHODS, "delta_E00": _DE_METHOD, "vora_value": _NU_METHOD,
+                        "matrix_cases": {c: _METHODS[c] for c in self.cases}},
+            "notes": list(self.notes),
+        })
+
+    def to_json(self, *, trials: bool = False) -> str:
+        """The summary as JSON text; with ``trials=True`` also every trial's values (column arrays)."""
+        d = self.summary()
+        if trials:
+            d["trials_data"] = _clean(self.trial_columns())
+        return json.dumps(d, indent=2, ensure_ascii=False, allow_nan=False)
+
+    def trial_columns(self) -> dict:
+        """Every trial as columns: ``trial``, the parameters, ``vora_value``, then per case and illuminant."""
+        cols: dict = {"trial": self.trial_index.astype(int)}
+        for k in self.tolerances:
+            cols[k] = self.samples[k]
+        cols["vora_value"] = self.vora_value
+        for c in self.cases:
+            a = self.per_case[c]
+            for j, ill in enumerate(self.illuminants):
+                cols[f"{c}.{ill}.delta_E00_mean"] = a["delta_E00_mean"][:, j]
+                cols[f"{c}.{ill}.delta_E00_max"] = a["delta_E00_max"][:, j]
+                g = a["gains"][:, j, :]
+                cols[f"{c}.{ill}.gain_R_over_G"] = g[:, 0] / g[:, 1]
+                cols[f"{c}.{ill}.gain_B_over_G"] = g[:, 2] / g[:, 1]
+                for i, ch in enumerate(CHANNELS):
+                    cols[f"{c}.{ill}.noise_gain_{ch}"] = a["noise_gain"][:, j, i]
+            cols[f"{c}.worst_mean_delta_E00"] = self.worst_mean(c)
+            cols[f"{c}.pass"] = a["passed"].astype(int)
+        return cols
+
+    def trials_csv(self) -> str:
+        """The trials as CSV text: one row per trial, columns as :meth:`trial_columns` (full precision)."""
+        cols = self.trial_columns()
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\n")
+        w.writerow(list(cols))
+        arrays = [np.asarray(v) for v in cols.values()]
+        for i in range(self.trials):
+            w.writerow([repr(int(a[i])) if a.dtype.kind in "iub" else repr(float(a[i])) for a in arrays])
+        return buf.getvalue()
+
+    def _repr_html_(self) -> str:
+        s = self.summary()
+        rows = []
+        for c in self.cases:
+            cs = s["cases"][c]
+            for ill, d in cs["illuminants"].items():
+                m = d["delta_E00_mean"]
+                rows.append(f"<tr><td>{c}</td><td>{ill}</td><td>{d['nominal']['delta_E00_mean']:.3f}</td>"
+                            f"<td>{m['p5']:.3f}</td><td>{m['p50']:.3f}</td><td>{m['p95']:.3f}</td>"
+                            f"<td>{d['delta_E00_max']['p95']:.3f}</td></tr>")
+        ys = "; ".join(
+            f"{c}: {100 * s['cases'][c]['yield']:.1f} % (95 % Wilson {100 * s['cases'][c]['yield_interval_95'][0]:.1f}"
+            f"–{100 * s['cases'][c]['yield_interval_95'][1]:.1f} %)" for c in self.cases)
+        rk = s["ranking"]["parameters"][:5]
+        rank = "".join(f"<tr><td>{r['name']}</td><td>{'σ' if r['distribution'] == 'normal' else '±'} "
+                       f"{r['width']:g} {r['unit']}</td>"
+                       f"<td>{100 * (r['variance_contribution'] or 0):.1f} %</td>"
+                       f"<td>{(r['oat_minus'] or 0):+.3f} / {(r['oat_plus'] or 0):+.3f}</td></tr>" for r in rk)
+        v = s["vora_value"]
+        stop = " <b>Interrupted</b>: statistics over the finished trials." if self.interrupted else ""
+        return (
+            f"<p><b>Tolerance analysis of {self.design.name}</b>: {self.trials} trials (seed {self.seed}).{stop}</p>"
+            f"<p>Yield (mean ΔE00 ≤ {self.spec.max_mean_delta_E00:g} under every illuminant and "
+            f"ν ≥ {self.spec.min_vora:g}): {ys}.</p>"
+            f"<p>Vora value ν (0-1): nominal {v['nominal']:.4f}, p5 {v['p5']:.4f}, p50 {v['p50']:.4f}, "
+            f"p95 {v['p95']:.4f}. The nominal design {'passes' if s['nominal_passes'] else 'fails'} the spec "
+            f"({self.primary} matrix).</p>"
+            "<p>ΔE00: CIEDE2000 units, over the design's samples; percentiles over the trials (linear "
+            "interpolation); p95 of max ΔE00 = 95th percentile over the units of each unit's largest ΔE00.</p>"
+            "<table><tr><th>matrix</th><th>illuminant</th><th>nominal mean ΔE00</th><th>p5</th><th>p50</th>"
+            f"<th>p95</th><th>p95 of max ΔE00</th></tr>{''.join(rows)}</table>"
+            f"<p>What drives the worst-illuminant mean ΔE00 ({self.primary} matrix): variance contribution "
+            "(correlation ratio η²) and one-at-a-time change at ∓1 width (ΔE00).</p>"
+            f"<table><tr><th>parameter</th><th>tolerance</th><th>η²</th><th>∓1 width</th></tr>{rank}</table>")
+
+
+_DE_METHOD = ("CIEDE2000 (CIE 142-2001) between the camera (white balance on the perfect diffuser, then the "
+              "matrix) and the truth adapted to the display white (linear Bradford), over the design's samples "
+              "under each illuminant (workbench.analysis.evaluator.DesignEvaluator)")
+_NU_METHOD = "Vora value Tr(P_A P_M)/3 with the design's recording and viewing illuminants (Vora & Trussell 1993), 0-1"
