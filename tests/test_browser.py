@@ -31,7 +31,7 @@ import pytest
 from workbench import demo_dir
 from workbench.cli.commands.lab import lab_command
 
-pytestmark = pytest.mark.browser
+pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
 CHROMIUM = Path("/usr/bin/chromium")
 CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",

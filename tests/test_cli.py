@@ -154,6 +154,7 @@ class TestLab:
         with pytest.raises(WorkbenchError, match="token authentication stays on"):
             lab_command(tmp_path, port=9999, token="")
 
+    @pytest.mark.slow  # starts a JupyterLab server
     def test_server_requires_token(self, tmp_path):
         """A started server answers with the token and refuses without it."""
         port = _free_port()

@@ -3,22 +3,17 @@
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import numpy as np
 
 from workbench.colorimetry.cie import cmfs_on
 from workbench.cli.main import main
-from workbench.fileio.design_toml import load_design
 from workbench.analysis.measures import vora_value
 from workbench.fileio.spectra_csv import read_spectra_csv
 
-DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"
-
-
-def test_json_contract(capsys):
+def test_json_contract(capsys, demo_design_path, demo_design):
     """JSON on stdout holds a summary per channel and vora_value in 0-1."""
-    assert main(["evaluate", str(DEMO), "--format", "json"]) == 0
+    assert main(["evaluate", str(demo_design_path), "--format", "json"]) == 0
     out = json.loads(capsys.readouterr().out)
     assert set(out["channels"]) == {"R", "G", "B"}
     for c in out["channels"].values():
@@ -26,7 +21,7 @@ def test_json_contract(capsys):
         assert c["half_max_low_nm"] < c["peak_nm"] < c["half_max_high_nm"]
     assert 0 <= out["vora_value"] <= 1
     # the same value from the public functions, with the design's illuminants
-    d = load_design(DEMO)
+    d = demo_design
     s = d.channel_sensitivities()
     rec = d.illuminant_values(d.fit.recording_illuminant)[1]
     view = d.illuminant_values("daylight")[1]
@@ -50,16 +45,16 @@ def test_half_max_of_a_known_curve():
     assert np.isclose(c["area"], 50.0)  # triangle: base 100 nm × height 1 / 2
 
 
-def test_table_and_sensitivities_csv(tmp_path, capsys):
+def test_table_and_sensitivities_csv(tmp_path, capsys, demo_design_path, demo_design):
     """The table names units and method; --sensitivities writes R, G, B that read back."""
     out = tmp_path / "sens.csv"
-    assert main(["evaluate", str(DEMO), "--sensitivities", str(out)]) == 0
+    assert main(["evaluate", str(demo_design_path), "--sensitivities", str(out)]) == 0
     cap = capsys.readouterr()
     assert "Vora value" in cap.out and "nm" in cap.out
     assert "note:" in cap.err
     s = read_spectra_csv(out)
     assert s.names == ("R", "G", "B") and s.kind == "sensitivity"
-    np.testing.assert_array_equal(s.values, load_design(DEMO).channel_sensitivities().values)
+    np.testing.assert_array_equal(s.values, demo_design.channel_sensitivities().values)
 
 
 def test_bad_design_exits_2(tmp_path, capsys):

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import csv
 import json
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -14,16 +13,14 @@ from workbench.fileio.design_toml import load_design
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.fileio.spectra_csv import read_spectra_csv
 
-DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"
-
 
 @pytest.fixture(scope="module")
-def fitted(tmp_path_factory):
-    out = tmp_path_factory.mktemp("fit") / "out"
-    rc = main(["fit", str(DEMO), "--out", str(out), "--quiet"])
-    return rc, out
+def fitted(fitted_demo):
+    """The session's one fit of the demo design (conftest.py): exit status and output folder."""
+    return fitted_demo.exit_status, fitted_demo.out
 
 
+@pytest.mark.slow  # the session fit of the demo design
 def test_exit_status_and_files(fitted):
     """A converged fit exits 0 and writes the five files."""
     rc, out = fitted
@@ -32,13 +29,14 @@ def test_exit_status_and_files(fitted):
         assert (out / name).is_file(), name
 
 
-def test_metrics_contract(fitted):
+@pytest.mark.slow  # the session fit of the demo design
+def test_metrics_contract(fitted, demo_design):
     """metrics.json holds vora_value, neugebauer_q (3) and delta_E00 {illuminant: {mean, p95, max}}."""
     _, out = fitted
     m = json.loads((out / "metrics.json").read_text())
     assert 0 <= m["vora_value"] <= 1
     assert len(m["neugebauer_q"]) == 3
-    d = load_design(DEMO)
+    d = demo_design
     assert set(m["delta_E00"]) == set(d.fit.illuminants)
     for s in m["delta_E00"].values():
         assert {"mean", "p95", "max"} <= set(s)
@@ -47,6 +45,7 @@ def test_metrics_contract(fitted):
     assert m["vora_value"] > m["before"]["vora_value"]
 
 
+@pytest.mark.slow  # the session fit of the demo design
 def test_fitted_design_reloads_and_reproduces_metrics(fitted):
     """design.toml loads; its stored matrix reproduces metrics.json's ΔE00 and ν."""
     _, out = fitted
@@ -59,6 +58,7 @@ def test_fitted_design_reloads_and_reproduces_metrics(fitted):
         assert again.delta_E00[ill]["mean"] == pytest.approx(s["mean"], abs=1e-9)
 
 
+@pytest.mark.slow  # the session fit of the demo design
 def test_sensitivities_and_matrix_files(fitted):
     """sensitivities.csv holds R, G, B on the design grid; matrix.csv the 3×3 of metrics.json."""
     _, out = fitted
@@ -72,6 +72,7 @@ def test_sensitivities_and_matrix_files(fitted):
     np.testing.assert_allclose(M, first)
 
 
+@pytest.mark.slow  # the session fit of the demo design
 def test_report_is_self_contained(fitted):
     """report.html embeds its figures and links nothing outside."""
     _, out = fitted
@@ -80,9 +81,9 @@ def test_report_is_self_contained(fitted):
     assert "http://" not in html and "https://" not in html
 
 
-def test_not_converged_exits_1(tmp_path, capsys):
+def test_not_converged_exits_1(tmp_path, capsys, demo_design_path):
     """A fit stopped by its evaluation budget still writes the files, says so and exits 1."""
-    rc = main(["fit", str(DEMO), "--out", str(tmp_path / "o"), "--quiet", "--max-evaluations", "10",
+    rc = main(["fit", str(demo_design_path), "--out", str(tmp_path / "o"), "--quiet", "--max-evaluations", "10",
                "--no-report"])
     assert rc == 1
     m = json.loads((tmp_path / "o" / "metrics.json").read_text())
@@ -98,9 +99,9 @@ def test_missing_design_is_one_line(tmp_path, capsys):
     assert len(err) == 1 and err[0].startswith("error:") and "nope.toml" in err[0]
 
 
-def test_out_is_a_file(tmp_path, capsys):
+def test_out_is_a_file(tmp_path, capsys, demo_design_path):
     """--out naming a file is refused before any work."""
     f = tmp_path / "f"
     f.write_text("x")
-    assert main(["fit", str(DEMO), "--out", str(f), "--quiet"]) == 2
+    assert main(["fit", str(demo_design_path), "--out", str(f), "--quiet"]) == 2
     assert "expected a folder" in capsys.readouterr().err

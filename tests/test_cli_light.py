@@ -8,12 +8,13 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from workbench import demo_dir
 from workbench.cli.main import main
 from workbench.analysis.light import CAUTION, light_indices, read_light
 from workbench.model.spectra import Spectra, grid
 from workbench.fileio.spectra_csv import write_spectra_csv
 
-DEMO = Path(__file__).resolve().parents[1] / "spectra-demo"
+DEMO = demo_dir()
 LED = str(DEMO / "luminaire_led_export.csv")
 HALOGEN = str(DEMO / "luminaire_halogen_3200K.csv")
 DESIGN = str(DEMO / "tern3_design.toml")
@@ -97,6 +98,7 @@ class TestTable:
         assert "verdict" in cap.out and "Δu′v′" in cap.out
         assert "note:" in cap.err and "caution:" in cap.err
 
+    @pytest.mark.slow  # draws every light figure
     def test_figures(self, tmp_path, capsys):
         """--figures DIR writes the PNG figures."""
         d = tmp_path / "figs"

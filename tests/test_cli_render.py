@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import numpy as np
 import pytest
 
+from workbench import demo_dir
 from workbench.colorimetry.cie import illuminant_on
 from workbench.cli.main import main
 from workbench.analysis.render import BatchPipeline, render_in_memory
@@ -15,7 +15,7 @@ from workbench.fileio.spectral_cube import open_cube, sidecar_path, write_sideca
 from workbench.model.spectra import Spectra, grid
 from workbench.fileio.spectra_csv import write_spectra_csv
 
-DEMO = Path(__file__).resolve().parents[1] / "spectra-demo"
+DEMO = demo_dir()
 DESIGN = DEMO / "tern3_design.toml"
 SCENE = DEMO / "scene_small.npy"
 WL = grid(380, 780, 5)
@@ -74,6 +74,7 @@ def _mixtures(shape, seed=0):
 
 
 class TestRenderCommand:
+    @pytest.mark.slow  # renders the demo scene
     def test_demo_scene_contract(self, tmp_path, capsys, demo_expected):
         """The demo scene: PNGs, the ΔE00 map, ΔE00 per pixel and summary.json equal the in-memory path."""
         out = tmp_path / "r"
@@ -131,6 +132,7 @@ class TestRenderCommand:
         assert s["delta_E00"]["p95"] == pytest.approx(float(np.percentile(d, 95)), abs=1e-12)
         assert "500 spectra" in cap.out
 
+    @pytest.mark.slow  # starts a dask.distributed cluster
     def test_zarr_on_a_local_cluster(self, tmp_path, capsys, gaussian_csv):
         """A Zarr cube rendered on a dask.distributed LocalCluster by address equals the threaded run."""
         import zarr

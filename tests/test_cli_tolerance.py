@@ -4,14 +4,12 @@ from __future__ import annotations
 
 import csv
 import json
-from pathlib import Path
 
 import numpy as np
 import pytest
 
 from workbench.cli.main import main
 
-DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"
 SMALL = """\
 schema = 1
 name = "small"
@@ -47,10 +45,11 @@ def small(tmp_path):
     return p
 
 
-def test_json_contract_on_the_demo(tmp_path, capsys):
+@pytest.mark.slow  # 2000 Monte Carlo trials of the demo
+def test_json_contract_on_the_demo(tmp_path, capsys, demo_design_path):
     """--trials 2000 --seed 1 --format json: trials, yield and per-illuminant p50/p95 that the CSV reproduces."""
     out = tmp_path / "trials.csv"
-    assert main(["tolerance", str(DEMO), "--trials", "2000", "--seed", "1", "--format", "json", "--quiet",
+    assert main(["tolerance", str(demo_design_path), "--trials", "2000", "--seed", "1", "--format", "json", "--quiet",
                  "--csv", str(out)]) == 0
     cap = capsys.readouterr()
     s = json.loads(cap.out)
@@ -95,6 +94,7 @@ def test_matrix_choice_and_spec_options(small, capsys):
     assert s["spec"]["max_mean_delta_E00"] == 100 and s["yield"] == 1.0
 
 
+@pytest.mark.slow  # Monte Carlo with plots
 def test_table_with_units_and_files(small, tmp_path, capsys):
     """The table names units and methods; --plots and --trials-json write their files."""
     plots = tmp_path / "plots"

@@ -11,13 +11,14 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
+from workbench import demo_dir
 from workbench.model.design import CHANNELS, DesignError
 from workbench.fileio.design_toml import load_design, save_design
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.spectra_csv import read_spectra_csv
 
 ROOT = Path(__file__).resolve().parents[1]
-DEMO = ROOT / "spectra-demo" / "tern3_design.toml"
+DEMO = demo_dir() / "tern3_design.toml"  # module level: the fuzz strategies below are built at import
 BAD_DIR = ROOT / "tests" / "data" / "design_bad"
 
 # Exact messages, one bad file per validation rule (PATH stands for the file name).
@@ -450,6 +451,7 @@ def mangled(draw):
     return "\n".join(lines)
 
 
+@pytest.mark.slow  # 200 fuzzed design files, each loaded and evaluated
 @settings(max_examples=200, derandomize=True, deadline=None,
           suppress_health_check=[HealthCheck.too_slow])
 @given(text=mangled())

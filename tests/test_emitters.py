@@ -72,6 +72,7 @@ class TestBandShapes:
 
 
 class TestFit:
+    @pytest.mark.slow  # a full emitter fit
     def test_recovers_synthetic_set(self):
         """Fit recovers the parameters of a set generated from known parameters (issue check)."""
         truth = [Emitter("R", (Band("gaussian-wavenumber", 625, 30, 1.0),)),

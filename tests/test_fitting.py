@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import json
 import threading
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -23,7 +22,6 @@ from workbench.colorimetry.primaries import primaries_named
 from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
 from workbench.model.spectra import grid
 
-DEMO = Path(__file__).resolve().parents[1] / "spectra-demo" / "tern3_design.toml"
 BT709 = primaries_named("ITU-R BT.709")
 
 
@@ -216,9 +214,9 @@ class TestLutherCamera:
         # the curves after balance and matrix are the targets themselves
         np.testing.assert_allclose(m.curves, m.targets, atol=1e-9 * np.abs(m.targets).max())
 
-    def test_curves_integrate_to_the_matrix_white(self):
+    def test_curves_integrate_to_the_matrix_white(self, demo_design):
         """Σ curves·E = M·(1, 1, 1) and Σ targets·E = (1, 1, 1) under the curve illuminant."""
-        ev = DesignEvaluator(load_design(DEMO))
+        ev = DesignEvaluator(demo_design)
         m = ev.measures()
         j = m.illuminants.index(m.curve_illuminant)
         E = ev.bench.E[j]
@@ -313,9 +311,9 @@ class TestFit:
         r = ev.residuals(ev.start)[0]
         assert float(r @ r) == pytest.approx(1 - ev.measures().vora_value, abs=1e-12)
 
-    def test_demo_fit_improves_and_serialises(self):
+    def test_demo_fit_improves_and_serialises(self, demo_design):
         """The demo fit raises ν, keeps bounds, flags parameters at bounds and gives valid JSON."""
-        d = load_design(DEMO)
+        d = demo_design
         r = fit_design(d, progress=False)
         assert r.after.vora_value > r.before.vora_value
         for p in r.parameters:
@@ -330,11 +328,11 @@ class TestFit:
         # the fitted design carries its matrix and reloads with it
         assert r.design.matrix is not None and r.design.matrix.method == "least-squares"
 
-    def test_stop_event_keeps_best_so_far(self):
+    def test_stop_event_keeps_best_so_far(self, demo_design):
         """A set stop event ends the fit at once, reported as interrupted, with the start kept."""
         stop = threading.Event()
         stop.set()
-        r = fit_design(load_design(DEMO), progress=False, stop=stop)
+        r = fit_design(demo_design, progress=False, stop=stop)
         assert r.status == "interrupted" and not r.converged
         assert r.after.vora_value == pytest.approx(r.before.vora_value)
 
@@ -354,6 +352,7 @@ class TestFit:
         got = {q["name"]: q["value"] for q in r.parameters}
         assert got["edge.center_nm"] == pytest.approx(530.0, abs=0.05)
 
+    @pytest.mark.slow  # a fit with the ΔE00 matrix
     def test_delta_e_matrix_fitted_jointly(self, tmp_path):
         """With the ΔE00 objective and matrix, the matrix entries are fitted with the filters."""
         p = _recovery_design(tmp_path)
@@ -386,9 +385,9 @@ class TestFit:
 
 
 class TestBatch:
-    def test_batch_equals_single(self):
+    def test_batch_equals_single(self, demo_design):
         """A batch of parameter values gives each member's single-state measures."""
-        d = load_design(DEMO)
+        d = demo_design
         ev = DesignEvaluator(d)
         bg = np.array([520.0, 532.0, 545.0])
         b = ev.batch({"prism.blue_green_nm": bg})
@@ -398,21 +397,21 @@ class TestBatch:
             for ill in m.illuminants:
                 assert b["delta_E00"][ill]["mean"][i] == pytest.approx(m.delta_E00[ill]["mean"], abs=1e-10)
 
-    def test_fixed_matrix(self):
+    def test_fixed_matrix(self, demo_design):
         """A fixed matrix is used as given for every unit."""
-        ev = DesignEvaluator(load_design(DEMO))
+        ev = DesignEvaluator(demo_design)
         m = ev.measures()
         b = ev.batch({"prism.blue_green_nm": np.array([532.0, 540.0])}, matrices=m.matrices)
         np.testing.assert_allclose(b["matrices"][1], m.matrices)
 
 
 class TestLoadCamera:
-    def test_design_camera_renders_like_the_bench(self):
+    def test_design_camera_renders_like_the_bench(self, demo_design, demo_design_path):
         """A camera from the demo design reproduces the evaluator's camera Lab under D65."""
-        d = load_design(DEMO)
+        d = demo_design
         ev = DesignEvaluator(d)
         m = ev.measures()
-        cam = load_camera(DEMO)
+        cam = load_camera(demo_design_path)
         j = m.illuminants.index("daylight")
         lab = cam.Lab(ev.bench.R, ev.bench.E[j])
         np.testing.assert_allclose(lab, m.camera_Lab[j], atol=1e-9)

@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import colour
 import numpy as np
 import pytest
 
+from workbench import demo_dir
 from workbench.analysis.camera import Camera, ColourBench
 from workbench.colorimetry.cie import cmfs_on, illuminant_on
 from workbench.cli.commands._output import to_json
@@ -33,7 +33,7 @@ from workbench.colorimetry.primaries import primaries_from_xy, primaries_named
 from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
 from workbench.model.spectra import Spectra, grid
 
-DEMO = Path(__file__).resolve().parents[1] / "spectra-demo"
+DEMO = demo_dir()
 LED = DEMO / "luminaire_led_export.csv"
 HALOGEN = DEMO / "luminaire_halogen_3200K.csv"
 WL5 = grid(380, 780, 5)

@@ -6,6 +6,8 @@ import nbformat
 import pytest
 from nbclient import NotebookClient
 
+pytestmark = pytest.mark.slow  # each notebook starts a kernel and runs the analyses end to end
+
 NOTEBOOKS = sorted((Path(__file__).parents[1] / "notebooks").glob("*.ipynb"))
 
 

@@ -285,6 +285,7 @@ class TestFitReportHtml:
         for key, text in result.after.methods.items():
             assert f"<dd>{html.escape(str(text))}</dd>" in page, key
 
+    @pytest.mark.slow  # a second fit and a full report
     def test_not_converged_shown_and_escaped(self, fitted):
         """status 'not converged': a warning block with the message; markup in names and messages escaped."""
         _, ev, result = fitted
@@ -306,6 +307,7 @@ class TestFitReportHtml:
 
 
 class TestWriteFitReport:
+    @pytest.mark.slow  # a fit and a full report
     def test_interrupted_fit_written(self, fitted, tmp_path):
         """A fit stopped by its evaluation budget is reported INTERRUPTED; the file is the whole page."""
         design, ev, _ = fitted

@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from workbench import demo_dir
 from workbench.analysis.camera import Camera, ColourBench, least_squares_matrix, white_preserving_matrix
 from workbench.colorimetry.cie import cmfs_on, illuminant_on
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
@@ -37,7 +38,7 @@ from workbench.fileio.spectral_cube import (
 )
 from workbench.model.spectra import Spectra, grid
 
-DEMO = Path(__file__).resolve().parents[1] / "spectra-demo"
+DEMO = demo_dir()
 WL = grid(380, 780, 5)
 BT709 = primaries_named("ITU-R BT.709")
 

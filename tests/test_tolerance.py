@@ -486,6 +486,7 @@ class TestPlots:
         assert "ΔE00" in h.axes[0].get_ylabel()
 
 
+@pytest.mark.slow  # Monte Carlo through the panel
 class TestTolerancePanel:
     def test_run_and_error_line(self, design, tmp_path):
         """The panel runs with its controls' values; a bad tolerance shows one error line."""

@@ -501,6 +501,7 @@ class TestReadUploadedSpectra:
         assert s.source == "r.csv" and s.values[0].tolist() == [0.5, 0.6, 0.7]
 
 
+@pytest.mark.slow  # starts a kernel
 class TestPanelInKernel:
     """The notebook's panel inside a real kernel, driven cell by cell (nbclient)."""
 
