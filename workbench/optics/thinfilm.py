@@ -58,6 +58,7 @@ S. J. Byrnes, *Multilayer optical calculations*, arXiv:1603.02720 (2016)
 
 from __future__ import annotations
 
+import math
 import threading
 from dataclasses import dataclass
 
@@ -65,7 +66,14 @@ import numpy as np
 
 from workbench.errors import WorkbenchError
 
-__all__ = ["StackResponse", "stack_response", "normal_component", "half_points", "POLARISATIONS"]
+__all__ = [
+    "StackResponse",
+    "stack_response",
+    "normal_component",
+    "half_points",
+    "stop_band_edges",
+    "POLARISATIONS",
+]
 
 #: Order of the polarisation axis of every result.
 POLARISATIONS = ("s", "p")
@@ -222,45 +230,110 @@ def stack_response(
     if not np.all(np.isfinite(N)) or np.any(N.real <= 0) or np.any(N.imag < 0):
         raise WorkbenchError("'layer_indices' must be finite with n > 0 and k ≥ 0")
 
+    if back_surface and np.any(ns.imag != 0):
+        raise WorkbenchError("'substrate' must be lossless (k = 0) with back_surface (got an absorbing medium)")
+    ne = _as_medium(exit_medium, W, "exit_medium") if back_surface else None
+
     n0r = n0.real
     beta2 = (n0r[None, :] * np.sin(np.radians(theta))[:, None]) ** 2  # (A, W)
     q0 = n0r[None, :] * np.cos(np.radians(theta))[:, None]             # (A, W) real
-    eta0 = np.stack([q0, n0r[None, :] ** 2 / q0])                     # (2, A, W) real
-    qs = normal_component(ns[None, :] ** 2 - beta2)                    # (A, W)
-    eta_s = np.stack([qs, ns[None, :] ** 2 / qs])                      # (2, A, W)
+    media = _Media(beta2, q0, n0r, ns, ne)
 
-    core = _coherent(N, d, wl, beta2, eta0, eta_s, derivatives)
-    R, T, dR, dT = core
-    if back_surface:
-        if np.any(ns.imag != 0):
-            raise WorkbenchError("'substrate' must be lossless (k = 0) with back_surface (got an absorbing medium)")
-        ne = _as_medium(exit_medium, W, "exit_medium")
-        qe = normal_component(ne[None, :] ** 2 - beta2)
-        eta_e = np.stack([qe, ne[None, :] ** 2 / qe])
-        Ys = eta_s + eta_e
-        Rb = np.abs((eta_s - eta_e) / Ys) ** 2
-        Tb = 4.0 * eta_s.real * eta_e.real / np.abs(Ys) ** 2
-        # The stack seen from the substrate: layers reversed, substrate as incidence.
-        Nr = N[..., ::-1, :]
-        dr_ = d[..., ::-1]
-        ok = (qs.imag == 0) & (qs.real > 0)                           # substrate wave propagates
-        eta_s_in = np.where(ok[None], eta_s, 1.0).real
-        eta_0_out = np.stack([q0, n0r[None, :] ** 2 / q0]).astype(complex)
-        Rr, Tr, dRr, dTr = _coherent(Nr, dr_, wl, beta2, eta_s_in, eta_0_out, derivatives)
-        D = 1.0 - Rr * Rb
-        Rf, Tf = R, T
-        R = np.where(ok, Rf + Tf * Tr * Rb / D, Rf)
-        T = np.where(ok, Tf * Tb / D, 0.0)
+    batch = np.broadcast_shapes(N.shape[:-2], d.shape[:-1])
+    L = d.shape[-1]
+    n_stacks = math.prod(batch)
+    # Large batches go in chunks of about _CHUNK_ELEMENTS per layer array, so
+    # the working set stays in cache.
+    per_stack = L * 2 * theta.size * W
+    chunk = max(1, _CHUNK_ELEMENTS // per_stack)
+    if n_stacks <= chunk:
+        N = N.reshape((1,) * (len(batch) + 2 - N.ndim) + N.shape)
+        d = d.reshape((1,) * (len(batch) + 1 - d.ndim) + d.shape)
+        R, T, dR, dT = _stack(N, d, wl, media, derivatives)
+        return StackResponse(wl, theta, R, T, dR, dT)
+    Nf = np.broadcast_to(N, batch + N.shape[-2:]).reshape((n_stacks,) + N.shape[-2:])
+    df = np.broadcast_to(d, batch + (L,)).reshape(n_stacks, L)
+    out_shape = (n_stacks, 2, theta.size, W)
+    R = np.empty(out_shape)
+    T = np.empty(out_shape)
+    dR = np.empty((n_stacks, L) + out_shape[1:]) if derivatives else None
+    dT = np.empty((n_stacks, L) + out_shape[1:]) if derivatives else None
+    for start in range(0, n_stacks, chunk):
+        sl = slice(start, start + chunk)
+        r, t, dr, dt = _stack(Nf[sl], df[sl], wl, media, derivatives)
+        R[sl], T[sl] = r, t
         if derivatives:
-            dRr = dRr[..., ::-1, :, :, :]
-            dTr = dTr[..., ::-1, :, :, :]
-            Ex = lambda a: a[..., None, :, :, :]  # noqa: E731  (insert the layer axis)
-            dR_new = dR + Ex(Rb) * ((dT * Ex(Tr) + Ex(Tf) * dTr) / Ex(D)
-                                     + Ex(Tf * Tr * Rb) * dRr / Ex(D) ** 2)
-            dT_new = Ex(Tb) * (dT / Ex(D) + Ex(Tf * Rb) * dRr / Ex(D) ** 2)
-            dR = np.where(Ex(ok), dR_new, dR)
-            dT = np.where(Ex(ok), dT_new, 0.0)
+            dR[sl], dT[sl] = dr, dt
+    R = R.reshape(batch + out_shape[1:])
+    T = T.reshape(batch + out_shape[1:])
+    if derivatives:
+        dR = dR.reshape(batch + dR.shape[1:])
+        dT = dT.reshape(batch + dT.shape[1:])
     return StackResponse(wl, theta, R, T, dR, dT)
+
+
+#: Elements per layer array (stacks × 2 × angles × wavelengths) in one chunk.
+_CHUNK_ELEMENTS = 16384
+
+
+@dataclass(frozen=True)
+class _Media:
+    """The incidence medium, substrate and exit medium on the (angle, wavelength) grid."""
+
+    beta2: np.ndarray
+    q0: np.ndarray
+    n0r: np.ndarray
+    ns: np.ndarray
+    ne: np.ndarray | None
+
+    @property
+    def eta0(self):
+        return np.stack([self.q0, self.n0r[None, :] ** 2 / self.q0])          # (2, A, W) real
+
+    @property
+    def qs(self):
+        return normal_component(self.ns[None, :] ** 2 - self.beta2)          # (A, W)
+
+    @property
+    def eta_s(self):
+        qs = self.qs
+        return np.stack([qs, self.ns[None, :] ** 2 / qs])                   # (2, A, W)
+
+
+def _stack(N, d, wl, media, derivatives):
+    """R, T (and derivatives) of stacks with compatible leading axes, with the back surface if any."""
+    eta0, qs, eta_s = media.eta0, media.qs, media.eta_s
+    R, T, dR, dT = _coherent(N, d, wl, media.beta2, eta0, eta_s, derivatives)
+    if media.ne is None:
+        return R, T, dR, dT
+    ne, beta2 = media.ne, media.beta2
+    qe = normal_component(ne[None, :] ** 2 - beta2)
+    eta_e = np.stack([qe, ne[None, :] ** 2 / qe])
+    Ys = eta_s + eta_e
+    Rb = np.abs((eta_s - eta_e) / Ys) ** 2
+    Tb = 4.0 * eta_s.real * eta_e.real / np.abs(Ys) ** 2
+    # The stack seen from the substrate: layers reversed, substrate as incidence.
+    ok = (qs.imag == 0) & (qs.real > 0)                                # the substrate wave propagates
+    eta_s_in = np.where(ok[None], eta_s, 1.0).real
+    Rr, Tr, dRr, dTr = _coherent(N[..., ::-1, :], d[..., ::-1], wl, beta2, eta_s_in,
+                                 eta0.astype(complex), derivatives)
+    D = 1.0 - Rr * Rb
+    Rf, Tf = R, T
+    R = np.where(ok, Rf + Tf * Tr * Rb / D, Rf)
+    T = np.where(ok, Tf * Tb / D, 0.0)
+    if derivatives:
+        dRr = dRr[..., ::-1, :, :, :]
+        dTr = dTr[..., ::-1, :, :, :]
+
+        def Ex(a):  # insert the layer axis
+            return a[..., None, :, :, :]
+
+        dR_new = dR + Ex(Rb) * ((dT * Ex(Tr) + Ex(Tf) * dTr) / Ex(D) + Ex(Tf * Tr * Rb) * dRr / Ex(D) ** 2)
+        dT_new = Ex(Tb) * (dT / Ex(D) + Ex(Tf * Rb) * dRr / Ex(D) ** 2)
+        okp = np.broadcast_to(ok, eta_s.shape)
+        dR = np.where(Ex(okp), dR_new, dR)
+        dT = np.where(Ex(okp), dT_new, 0.0)
+    return R, T, dR, dT
 
 
 def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
@@ -324,30 +397,50 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     T = (4.0 * eta0.real * eta_s.real) / (Y.real ** 2 + Y.imag ** 2)
     if not derivatives:
         return R, T, None, None
-    # Adjoint row vectors: dr = u·d[B, C], dY = w·d[B, C]; x = (dM_j/dd_j) v_j.
+    # Adjoint row vectors: dr = u·d[B, C], dY = w·d[B, C]. With
+    # x_j = (∂M_j/∂δ_j) v_j:  ∂r/∂d_j = k_j u_j·x_j, k_j = ∂δ_j/∂d_j = 2π q_j/λ
+    # (real on the lossless path, applied after taking real parts).
     u0 = eta0 * (1.0 - r) / Y
     u1 = -(1.0 + r) / Y
     w0 = np.empty_like(B)
     w0[...] = eta0
     w1 = np.ones_like(B)
-    if sd.shape != shape:
-        sd = np.broadcast_to(sd, shape)
-    k = np.broadcast_to(k, shape)
-    ic = -1j * a
-    icq = ic / eta
-    icp = ic * eta
-    x0 = k * (icq * VC - sd * VB)                                      # (L, ..., 2, A, W)
-    x1 = k * (icp * VB - sd * VC)
-    dr = np.empty(shape, dtype=complex)
-    dY = np.empty(shape, dtype=complex)
+    x0, x1, etac, sdc = _workspace(shape, 4, slot="derivative")
+    etac[...] = eta
+    sdc[...] = sd
+    # x0 = −i cos δ V_C / η − sin δ V_B ;  x1 = −i η cos δ V_B − sin δ V_C
+    np.multiply(a, VC, out=x0)
+    x0 /= etac
+    x0 *= -1j
+    np.multiply(a, VB, out=x1)
+    x1 *= etac
+    x1 *= -1j
+    np.multiply(sdc, VB, out=VB)
+    np.multiply(sdc, VC, out=VC)
+    x0 -= VB
+    x1 -= VC
+    dr, dY = VB, VC                                                    # reuse as outputs
     for j in range(L):
-        dr[j] = u0 * x0[j] + u1 * x1[j]
-        dY[j] = w0 * x0[j] + w1 * x1[j]
+        x0j, x1j = x0[j], x1[j]
+        np.multiply(u0, x0j, out=dr[j])
+        dr[j] += u1 * x1j
+        np.multiply(w0, x0j, out=dY[j])
+        dY[j] += w1 * x1j
         a_j, b_j, c_j = a[j], b[j], c[j]
         u0, u1 = u0 * a_j + u1 * c_j, u0 * b_j + u1 * a_j
         w0, w1 = w0 * a_j + w1 * c_j, w0 * b_j + w1 * a_j
-    dR = 2.0 * (np.conj(r) * dr).real
-    dT = -2.0 * T * (dY / Y).real
+    dr *= np.conj(r)
+    dY /= Y
+    kk = k if np.isrealobj(k) else None
+    if kk is not None:
+        dR = dr.real * (2.0 * kk)
+        dT = dY.real * (-2.0 * kk)
+    else:
+        dr *= k
+        dY *= k
+        dR = 2.0 * dr.real
+        dT = -2.0 * dY.real
+    dT *= T
     # layer axis just before the polarisation axis
     return R, T, np.moveaxis(dR, 0, -4), np.moveaxis(dT, 0, -4)
 
@@ -425,3 +518,29 @@ def half_points(wavelengths_nm, values, level: float = 0.5) -> list[tuple[float,
         x = wl[i] + (wl[i + 1] - wl[i]) * (v0 / (v0 - v1)) if v1 != v0 else wl[i]
         out.append((float(x), "rising" if v1 > v0 else "falling"))
     return out
+
+
+def stop_band_edges(wavelengths_nm, reflectance, level: float = 0.5) -> tuple[float, float]:
+    """The 50 % points bounding the reflection band that holds the peak reflectance.
+
+    Parameters
+    ----------
+    wavelengths_nm : (n_λ,) array_like, nm
+    reflectance : (n_λ,) array_like, fraction 0-1
+    level : float
+
+    Returns
+    -------
+    (float, float), nm
+        Short- and long-wave edge; NaN where the band runs off the grid.
+    """
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    R = np.asarray(reflectance, dtype=float)
+    peak = int(np.argmax(R))
+    short, long_ = math.nan, math.nan
+    for x, _ in half_points(wl, R, level):
+        if x <= wl[peak]:
+            short = x
+        elif math.isnan(long_):
+            long_ = x
+    return short, long_
