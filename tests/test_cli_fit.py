@@ -77,7 +77,7 @@ def test_report_is_self_contained(fitted):
     """report.html embeds its figures and links nothing outside."""
     _, out = fitted
     html = (out / "report.html").read_text()
-    assert "data:image/png;base64," in html
+    assert "data:image/svg+xml;base64," in html
     assert "http://" not in html and "https://" not in html
 
 

@@ -180,21 +180,39 @@ def cie_d65_and_cmfs(wl):
 
 
 class TestFitReportHtml:
-    def test_four_embedded_png_figures(self, page):
-        """Each of the four figures is an <img> with a base64 PNG of the figure's size."""
+    def test_four_embedded_svg_figures(self, page):
+        """Each of the four figures is an <img> with a base64 SVG of the figure's size, texts kept as text."""
         srcs = re.findall(r'<img src="([^"]*)"', page)
         assert len(srcs) == 4
         for fig_id in ("sensitivities", "delta_e_bars", "chromaticity", "noise_accuracy"):
-            assert f'<figure id="fig-{fig_id}"><img src="data:image/png;base64,' in page
+            assert f'<figure id="fig-{fig_id}"><img src="data:image/svg+xml;base64,' in page
         sizes = []
         for s in srcs:
-            assert s.startswith("data:image/png;base64,")
-            data = base64.b64decode(s.split(",", 1)[1], validate=True)
-            assert data[:8] == PNG_SIGNATURE
-            sizes.append(png_size(data))
-        # figure size in inches × 100 dpi
-        assert sizes[0] == (900, 700)
-        assert sizes[3] == (750, 520)
+            assert s.startswith("data:image/svg+xml;base64,")
+            svg = base64.b64decode(s.split(",", 1)[1], validate=True).decode("utf-8")
+            sizes.append(re.search(r'<svg [^>]*width="([\d.]+)pt" height="([\d.]+)pt"', svg).groups())
+            assert "<text" in svg  # svg.fonttype 'none': text, not glyph outlines
+        # figure size in inches × 72 pt
+        assert sizes[0] == ("648", "504")
+        assert sizes[3] == ("540", "374.4")
+
+    def test_png_on_request(self, fitted):
+        """image_format='png' embeds PNGs of the figure's size at the dpi asked for; other formats are refused."""
+        _, ev, result = fitted
+        page = fit_report_html(result, ev, image_format="png", dpi=50)
+        srcs = re.findall(r'<img src="([^"]*)"', page)
+        assert len(srcs) == 4 and all(s.startswith("data:image/png;base64,") for s in srcs)
+        data = base64.b64decode(srcs[0].split(",", 1)[1], validate=True)
+        assert data[:8] == PNG_SIGNATURE
+        assert png_size(data) == (450, 350)  # 9 × 7 in at 50 dpi
+        with pytest.raises(WorkbenchError) as e:
+            fit_report_html(result, ev, image_format="gif")
+        assert str(e.value) == "image_format must be svg or png (got 'gif')"
+
+    def test_same_bytes_twice(self, fitted, page):
+        """The page is the same when written twice (no date, fixed SVG ids)."""
+        _, ev, result = fitted
+        assert fit_report_html(result, ev) == page
 
     def test_self_contained(self, page):
         """No http(s) reference, no external script, stylesheet or image: CSS inline, images data: URIs."""
@@ -202,7 +220,7 @@ class TestFitReportHtml:
         assert "<link" not in page and "<script" not in page
         assert "<style>" in page
         for attr in re.findall(r'(?:src|href)="([^"]*)"', page):
-            assert attr.startswith("data:image/png;base64,")
+            assert attr.startswith("data:image/svg+xml;base64,")
         assert page.startswith("<!DOCTYPE html>") and page.rstrip().endswith("</html>")
 
     def test_status_shown(self, fitted, page):
@@ -319,7 +337,7 @@ class TestWriteFitReport:
         status = parse(text).status
         assert status.startswith("INTERRUPTED: evaluation budget reached; best point so far kept.")
         assert "the fit did not finish" in status
-        assert text.count("data:image/png;base64,") == 4
+        assert text.count("data:image/svg+xml;base64,") == 4
         assert [p.name for p in tmp_path.iterdir()] == ["report.html"]  # no temporary file left
 
     def test_missing_folder(self, fitted, tmp_path):
@@ -407,7 +425,8 @@ class TestPlotDeltaEBars:
         axes = figures["delta_e_bars"].axes
         assert len(axes) == len(a.illuminants) == 2
         for j, ax in enumerate(axes):
-            heights = [r.get_height() for r in ax.patches]
+            bars = ax.collections[0]  # one collection of K rectangles
+            heights = [p.vertices[:, 1].max() for p in bars.get_paths()]
             np.testing.assert_allclose(heights, a.per_sample[j], rtol=1e-12)
             assert ax.get_ylabel() == "ΔE00 (CIEDE2000)"
             st = a.delta_E00[a.illuminants[j]]

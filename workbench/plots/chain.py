@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from workbench.plots._canvas import new_figure
+
 __all__ = ["plot_chain"]
 
 _COLOURS = {"R": "tab:red", "G": "tab:green", "B": "tab:blue"}
@@ -19,7 +21,8 @@ def plot_chain(wavelengths, curves, *, ax=None):
         From :meth:`workbench.model.design.Design.element_curves` (one set of
         values: each ``values`` is (3, n)).
     ax : sequence of three matplotlib Axes, optional
-        One per channel R, G, B; created in a new figure when None.
+        One per channel R, G, B; created in a new figure (Agg canvas, no
+        pyplot) when None.
 
     Returns
     -------
@@ -27,10 +30,8 @@ def plot_chain(wavelengths, curves, *, ax=None):
         Element curves dashed (only on the channels they sit on), the
         cumulative product solid.
     """
-    import matplotlib.pyplot as plt
-
     if ax is None:
-        _, ax = plt.subplots(3, 1, sharex=True, figsize=(7, 8), constrained_layout=True)
+        ax = new_figure(7, 8, layout="constrained").subplots(3, 1, sharex=True)
     wl = np.asarray(wavelengths, dtype=float)
     total = np.ones((3, wl.size))
     for j, c in enumerate(curves):

@@ -9,6 +9,7 @@ from workbench.colorimetry.coordinates import XYZ_to_uv_prime, XYZ_to_xy, xy_to_
 from workbench.colorimetry.gamut import gamut_vertices
 from workbench.colorimetry.primaries import Primaries
 from workbench.model.spectra import Spectra
+from workbench.plots._canvas import new_figure
 
 __all__ = ["plot_chromaticity_diagram", "plot_target_cmfs"]
 
@@ -42,13 +43,11 @@ def plot_chromaticity_diagram(primaries, *, diagram: str = "xy", observer="2", a
     -------
     matplotlib Axes
     """
-    import matplotlib.pyplot as plt
-
     d = "uv" if str(diagram).lower().replace("′", "").replace("'", "") == "uv" else "xy"
     key = observer_key(observer)
     sets = [primaries] if isinstance(primaries, Primaries) else list(primaries)
     if ax is None:
-        _, ax = plt.subplots(figsize=(6, 6), constrained_layout=True)
+        ax = new_figure(6, 6, layout="constrained").subplots()
     wl, locus = _spectral_locus(d, key)
     closed = np.vstack([locus, locus[:1]])
     ax.plot(closed[:, 0], closed[:, 1], color="0.2", lw=1.2,
@@ -88,10 +87,8 @@ def plot_target_cmfs(targets: Spectra, *, observer="2", ax=None, title: str | No
     -------
     matplotlib Axes
     """
-    import matplotlib.pyplot as plt
-
     if ax is None:
-        _, ax = plt.subplots(figsize=(7, 4), constrained_layout=True)
+        ax = new_figure(7, 4, layout="constrained").subplots()
     key = observer_key(observer)
     wl = targets.wavelengths
     for v, n, c in zip(targets.flat(), targets.names, ("tab:red", "tab:green", "tab:blue")):

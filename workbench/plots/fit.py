@@ -1,9 +1,12 @@
 """Figures of a camera fit: sensitivities against targets, per-sample ΔE00, u′v′ shifts, noise against accuracy.
 
-Every function builds its own :class:`matplotlib.figure.Figure` (no
-pyplot state, so it works under any backend, Agg included), returns it and
-never shows it. Axes carry quantity, unit and method; titles name the
-matrix rule and the illuminant.
+Every function builds its own :class:`matplotlib.figure.Figure` on the
+Agg canvas (no pyplot state, see :mod:`workbench.plots._canvas`), returns
+it and never shows it. Axes carry quantity, unit and method; titles name
+the matrix rule and the illuminant. The axes sit at fixed margins in
+inches, not under a layout engine, and titles at a fixed height (``y=1``;
+no tick labels sit above an axes here), so no drawing pass is spent
+measuring texts.
 
 The inputs are :class:`workbench.analysis.evaluator.Measures` values (one design
 state each) and, for :func:`plot_noise_vs_accuracy`, plain mappings
@@ -16,8 +19,13 @@ import math
 from collections.abc import Mapping, Sequence
 
 import numpy as np
+from matplotlib.collections import PolyCollection
+from matplotlib.lines import Line2D
+from matplotlib.patches import Rectangle
 
 from workbench.colorimetry.cie import observer_key, observer_label
+from workbench.errors import WorkbenchError
+from workbench.plots._canvas import new_figure, place_axes
 from workbench.plots.chromaticity import _AXIS, _spectral_locus
 
 __all__ = [
@@ -35,16 +43,6 @@ _DE_LABEL = "ΔE00 (CIEDE2000)"
 
 #: Factors the u′v′ arrows may be lengthened by (the first that makes them visible).
 ARROW_SCALES = (1, 2, 5, 10, 20, 50, 100, 200, 500, 1000)
-
-
-def _figure(width: float, height: float, fig=None):
-    """``fig`` when given (cleared), else a new constrained-layout Figure of the given size (inches)."""
-    if fig is not None:
-        fig.clear()
-        return fig
-    from matplotlib.figure import Figure
-
-    return Figure(figsize=(width, height), layout="constrained")
 
 
 def _matrix_text(measures) -> str:
@@ -88,7 +86,8 @@ def plot_sensitivities_vs_targets(measures, before=None, *, fig=None):
     scale = float(np.max(np.abs(T)))
     if not math.isfinite(scale) or scale <= 0:
         scale = 1.0
-    fig = _figure(9.0, 7.0, fig)
+    fig = new_figure(9.0, 7.0, fig)
+    place_axes(fig, left=1.0, right=0.12, top=0.55, bottom=0.5, hspace=0.45, rows=2)
     top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [2.2, 1.0]})
     B = None if before is None else np.asarray(before.curves, dtype=float)
     for i, (ch, col) in enumerate(zip(_CHANNELS, _COLOURS)):
@@ -115,8 +114,8 @@ def plot_sensitivities_vs_targets(measures, before=None, *, fig=None):
     top.set_title(
         f"Camera after white balance and the {_matrix_text(measures)} matrix under "
         f"{measures.curve_illuminant}\nagainst the target colour-matching functions of {target}",
-        fontsize="medium")
-    bottom.set_title("residual per wavelength", fontsize="small")
+        fontsize="medium", y=1.0)
+    bottom.set_title("residual per wavelength", fontsize="small", y=1.0)
     return fig
 
 
@@ -148,6 +147,19 @@ def _levels(positions, near: float) -> list[int]:
     return levels
 
 
+def _bars(ax, x, heights, colours, width: float = 0.8) -> PolyCollection:
+    """Bars of ``heights`` at ``x`` as one collection (one artist, not one patch per bar)."""
+    h = np.nan_to_num(np.asarray(heights, dtype=float), nan=0.0)
+    x0, x1 = x - width / 2, x + width / 2
+    z = np.zeros_like(h)
+    verts = np.stack([np.column_stack([x0, z]), np.column_stack([x0, h]),
+                      np.column_stack([x1, h]), np.column_stack([x1, z])], axis=1)
+    bars = PolyCollection(verts, facecolors=colours, edgecolors="none", label="_bars")
+    ax.add_collection(bars, autolim=True)
+    ax.autoscale_view()
+    return bars
+
+
 def plot_delta_e_bars(measures, *, label_worst: int = 3, fig=None):
     """Per-sample ΔE00 as bars, one row of axes per illuminant, samples in the design's set order.
 
@@ -173,7 +185,8 @@ def plot_delta_e_bars(measures, *, label_worst: int = 3, fig=None):
     J, K = d.shape
     names = tuple(measures.sample_names)
     runs = _set_runs(tuple(measures.sample_sets))
-    fig = _figure(10.0, 1.0 + 2.3 * J, fig)
+    fig = new_figure(10.0, 1.0 + 2.3 * J, fig)
+    place_axes(fig, left=0.75, right=0.3, top=0.55, bottom=0.85, hspace=0.45, rows=J)
     axes = np.atleast_1d(fig.subplots(J, 1, sharex=True, sharey=True, squeeze=False)[:, 0])
     x = np.arange(K)
     colour_of = np.empty(K, dtype=object)
@@ -182,7 +195,7 @@ def plot_delta_e_bars(measures, *, label_worst: int = 3, fig=None):
     top = float(np.nanmax(d)) if np.isfinite(d).any() else 1.0
     for j, ax in enumerate(axes):
         ill = measures.illuminants[j]
-        ax.bar(x, d[j], width=0.8, color=list(colour_of), edgecolor="none")
+        _bars(ax, x, d[j], list(colour_of))
         st = measures.delta_E00[ill]
         ax.axhline(st["mean"], color="k", lw=1.1, label=f"mean {st['mean']:.2f}")
         ax.axhline(st["p95"], color="k", lw=1.0, ls="--", label=f"95th percentile {st['p95']:.2f}")
@@ -195,7 +208,7 @@ def plot_delta_e_bars(measures, *, label_worst: int = 3, fig=None):
         ax.set_ylabel(_DE_LABEL)
         ax.set_ylim(0, top * 1.35 if top > 0 else 1.0)
         ax.set_title(f"{ill}: mean {st['mean']:.2f}, median {st['median']:.2f}, "
-                     f"p95 {st['p95']:.2f}, max {st['max']:.2f}", fontsize="small", loc="left")
+                     f"p95 {st['p95']:.2f}, max {st['max']:.2f}", fontsize="small", loc="left", y=1.0)
         ax.legend(fontsize="x-small", loc="upper right")
         ax.grid(axis="y", alpha=0.3)
     axes[-1].set_xlim(-0.8, K - 0.2)
@@ -288,13 +301,8 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
     balance and matrix, each converted from CIELAB (display white) to XYZ
     and u′ = 4X/(X + 15Y + 3Z), v′ = 9Y/(X + 15Y + 3Z) (CIE 15:2004 § 8.1).
     """
-    from matplotlib.lines import Line2D
-    from matplotlib.patches import Rectangle
-
     ill = illuminant or measures.curve_illuminant
     if ill not in measures.illuminants:
-        from workbench.errors import WorkbenchError
-
         raise WorkbenchError(f"illuminant must be one of {', '.join(measures.illuminants)} (got {ill!r})")
     j = measures.illuminants.index(ill)
     t = np.asarray(measures.true_uv, dtype=float)[j]
@@ -317,7 +325,8 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
     k = _arrow_scale(np.linalg.norm(dv, axis=1), side)
     corner, side = region(np.vstack([t, t + k * dv]) if len(t) else t)
 
-    fig = _figure(12.0, 5.8, fig)
+    fig = new_figure(12.0, 5.8, fig)
+    place_axes(fig, left=0.75, right=0.2, top=0.55, bottom=1.15, wspace=0.9, cols=2)
     full, zoom = fig.subplots(1, 2, gridspec_kw={"width_ratios": [1.0, 1.2]})
     observer = observer_key(observer)
     wl, locus = _spectral_locus("uv", observer)
@@ -336,7 +345,7 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
     full.set_xlabel(_AXIS["uv"][0])
     full.set_ylabel(_AXIS["uv"][1])
     full.legend(fontsize="x-small", loc="upper center", bbox_to_anchor=(0.5, -0.13), ncol=2)
-    full.set_title("CIE 1976 u′v′ diagram", fontsize="small")
+    full.set_title("CIE 1976 u′v′ diagram", fontsize="small", y=1.0)
     full.grid(alpha=0.3)
 
     zoom.plot(closed[:, 0], closed[:, 1], color="0.2", lw=1.1)
@@ -349,7 +358,7 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
     ]
     zoom.legend(handles=handles, fontsize="x-small", loc="upper center", bbox_to_anchor=(0.5, -0.13), ncol=2)
     zoom.grid(alpha=0.3)
-    zoom.set_title(f"{what}; colour = ΔE00", fontsize="small")
+    zoom.set_title(f"{what}; colour = ΔE00", fontsize="small", y=1.0)
     fig.suptitle(f"Colour shifts under {ill}: white balance and the {_matrix_text(measures)} matrix",
                  fontsize="medium")
     return fig
@@ -387,12 +396,11 @@ def plot_noise_vs_accuracy(points: Sequence[Mapping], *, noise: str = "row-norm"
     -------
     matplotlib.figure.Figure
     """
-    from workbench.errors import WorkbenchError
-
     if noise not in _NOISE_KEY:
         raise WorkbenchError(f"noise must be one of {', '.join(_NOISE_KEY)} (got {noise!r})")
     key = _NOISE_KEY[noise]
-    fig = _figure(7.5, 5.2, fig)
+    fig = new_figure(7.5, 5.2, fig)
+    place_axes(fig, left=0.75, right=0.2, top=0.4, bottom=0.55)
     ax = fig.subplots()
     markers = ("o", "s", "^", "D", "v", "P", "X")
     methods: dict = {}
@@ -414,5 +422,5 @@ def plot_noise_vs_accuracy(points: Sequence[Mapping], *, noise: str = "row-norm"
     ax.grid(alpha=0.3)
     ax.margins(0.15)
     ax.legend(fontsize="small", loc="best")
-    ax.set_title("Noise against accuracy (open: start, filled: fitted)", fontsize="medium")
+    ax.set_title("Noise against accuracy (open: start, filled: fitted)", fontsize="medium", y=1.0)
     return fig

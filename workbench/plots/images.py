@@ -6,9 +6,14 @@ Saving goes through a temporary file in the target's folder and
 
 from __future__ import annotations
 
+import textwrap
+
+import matplotlib
 import numpy as np
+from PIL import Image, PngImagePlugin
 
 from workbench.fileio.atomic import write_atomically
+from workbench.plots._canvas import new_figure
 
 __all__ = ["plot_delta_e_map", "save_rgb8_png", "save_figure"]
 
@@ -19,8 +24,6 @@ def save_rgb8_png(rgb8, path, *, description: str = "") -> None:
     ``description`` goes into the PNG's ``Description`` text chunk (how the
     pixels were encoded).
     """
-    from PIL import Image, PngImagePlugin
-
     a = np.asarray(rgb8)
     if a.ndim != 3 or a.shape[-1] != 3 or a.dtype != np.uint8:
         raise ValueError(f"expected an (h, w, 3) uint8 image (got {a.shape} {a.dtype})")
@@ -53,8 +56,6 @@ def plot_delta_e_map(delta_e, *, ax=None, vmax: float | None = None, title: str 
     -------
     Axes
     """
-    import matplotlib.pyplot as plt
-
     d = np.asarray(delta_e, dtype=float)
     finite = d[np.isfinite(d)]
     dmax = float(finite.max()) if finite.size else 0.0
@@ -64,8 +65,8 @@ def plot_delta_e_map(delta_e, *, ax=None, vmax: float | None = None, title: str 
     if ax is None:
         h, w = d.shape
         width = float(np.clip(1.8 + 4.6 * w / max(h, 1), 4.0, 11.0))
-        _, ax = plt.subplots(figsize=(width, 5.0), constrained_layout=True)
-    cmap = plt.get_cmap("magma").with_extremes(bad="0.6")
+        ax = new_figure(width, 5.0, layout="constrained").subplots()
+    cmap = matplotlib.colormaps["magma"].with_extremes(bad="0.6")
     im = ax.imshow(np.ma.masked_invalid(d), cmap=cmap, vmin=0.0, vmax=vmax, interpolation="nearest")
     extend = "max" if dmax > vmax else "neither"
     cb = ax.figure.colorbar(im, ax=ax, extend=extend)
@@ -76,7 +77,5 @@ def plot_delta_e_map(delta_e, *, ax=None, vmax: float | None = None, title: str 
     ax.set_xlabel("x (pixel)")
     ax.set_ylabel("y (pixel)")
     if title:
-        import textwrap
-
         ax.set_title(textwrap.fill(title, 80), fontsize="small")
     return ax

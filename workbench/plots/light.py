@@ -19,6 +19,7 @@ import numpy as np
 
 from workbench.colorimetry.cie import cmfs_on, observer_label
 from workbench.analysis.light import CAUTION, CameraFidelity, LightComparison, LightIndices, reference_illuminant
+from workbench.plots._canvas import new_figure
 from workbench.plots.chromaticity import _AXIS, _spectral_locus
 
 __all__ = [
@@ -39,12 +40,7 @@ from workbench.plots.fit import _arrow_scale, draw_shift_arrows  # noqa: E402  (
 
 def _figure(width: float, height: float, fig=None):
     """A constrained-layout figure with room for the caution line at the bottom."""
-    if fig is not None:
-        fig.clear()
-    else:
-        from matplotlib.figure import Figure
-
-        fig = Figure(figsize=(width, height), layout="constrained")
+    fig = new_figure(width, height, fig, layout="constrained")
     engine = fig.get_layout_engine()
     if engine is not None and hasattr(engine, "set"):
         engine.set(rect=(0, 0.045, 1, 0.955))

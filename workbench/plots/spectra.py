@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from workbench.model.spectra import Spectra
+from workbench.plots._canvas import new_figure
 
 _YLABEL = {
     "reflectance": "reflectance (0-1)",
@@ -18,12 +19,11 @@ def plot_spectra(spectra: Spectra, *, ax=None, colours=None, limit: int = 20):
     """Draw up to ``limit`` spectra of a set against wavelength; returns the axes.
 
     ``colours`` may give one RGB triple (0-1) per spectrum, e.g. each
-    sample's own display colour.
+    sample's own display colour. Without ``ax`` a new figure (Agg canvas,
+    no pyplot) is made; show it with ``display(ax.figure)``.
     """
-    import matplotlib.pyplot as plt
-
     if ax is None:
-        _, ax = plt.subplots(figsize=(7, 4), layout="constrained")
+        ax = new_figure(7, 4, layout="constrained").subplots()
     flat = spectra.flat()[:limit]
     for i, (name, row) in enumerate(zip(spectra.names, flat)):
         c = None if colours is None else np.clip(colours[i], 0, 1)

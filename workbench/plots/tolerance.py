@@ -13,6 +13,8 @@ import math
 
 import numpy as np
 
+from workbench.plots._canvas import new_figure
+
 __all__ = ["plot_histograms", "plot_ranking", "plot_field_shift"]
 
 _CHANNELS = ("R", "G", "B")
@@ -21,12 +23,7 @@ _DE = "ΔE00 (CIEDE2000 units)"
 
 
 def _figure(width: float, height: float, fig=None):
-    if fig is not None:
-        fig.clear()
-        return fig
-    from matplotlib.figure import Figure
-
-    return Figure(figsize=(width, height), layout="constrained")
+    return new_figure(width, height, fig, layout="constrained")
 
 
 def _bins(x, n_max=40):

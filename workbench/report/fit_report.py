@@ -1,8 +1,8 @@
 """The report of a camera fit: one self-contained HTML file.
 
 :func:`fit_report_html` turns a :class:`workbench.analysis.fit.FitResult` into a
-single HTML page — inline CSS, every figure embedded as a base64 PNG, no
-link to anything outside the file — that shows, in order:
+single HTML page — inline CSS, every figure embedded as a base64 SVG (or
+PNG), no link to anything outside the file — that shows, in order:
 
 1. the fit's status (converged, not converged or interrupted, with the
    optimiser's message; never hidden) and the parameters that ended at a
@@ -25,13 +25,14 @@ from __future__ import annotations
 
 import base64
 import html
-import io
 from pathlib import Path
 
 import numpy as np
 
 from workbench.analysis.camera import MATRIX_METHODS
+from workbench.errors import WorkbenchError
 from workbench.fileio.atomic import write_text_atomically
+from workbench.plots._canvas import png_bytes, svg_bytes
 
 __all__ = [
     "noise_accuracy_points",
@@ -142,10 +143,10 @@ def fit_report_figures(result, evaluator=None, *, points=None) -> dict:
     }
 
 
-def _png_data_uri(fig, dpi: int = 100) -> str:
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=dpi, metadata={"Software": None})
-    return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
+def _data_uri(fig, image_format: str = "svg", dpi: int = 100) -> str:
+    if image_format == "png":
+        return "data:image/png;base64," + base64.b64encode(png_bytes(fig, dpi=dpi)).decode("ascii")
+    return "data:image/svg+xml;base64," + base64.b64encode(svg_bytes(fig)).decode("ascii")
 
 
 # --------------------------------------------------------------------------
@@ -333,8 +334,8 @@ _ALT = {
 }
 
 
-def fit_report_html(result, evaluator=None, *, dpi: int = 100) -> str:
-    """One self-contained HTML page reporting a fit (inline CSS, figures as base64 PNG, no links).
+def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: int = 100) -> str:
+    """One self-contained HTML page reporting a fit (inline CSS, figures as base64 SVG or PNG, no links).
 
     Parameters
     ----------
@@ -342,8 +343,11 @@ def fit_report_html(result, evaluator=None, *, dpi: int = 100) -> str:
     evaluator : DesignEvaluator, optional
         Of ``result.start_design``, for the noise-against-accuracy points
         (built when None).
+    image_format : {'svg', 'png'}
+        How the figures are embedded: SVG (default; vector, texts as text,
+        smaller and about twice as fast to write as PNG) or PNG.
     dpi : int
-        Resolution of the embedded figures.
+        Resolution of PNG figures.
 
     Returns
     -------
@@ -353,11 +357,13 @@ def fit_report_html(result, evaluator=None, *, dpi: int = 100) -> str:
     """
     from workbench import __version__
 
+    if image_format not in ("svg", "png"):
+        raise WorkbenchError(f"image_format must be svg or png (got {image_format!r})")
     points = noise_accuracy_points(result, evaluator)
     figs = fit_report_figures(result, evaluator, points=points)
     images = {}
     for name, fig in figs.items():
-        images[name] = _png_data_uri(fig, dpi)
+        images[name] = _data_uri(fig, image_format, dpi)
         fig.clear()
     a = result.after
     d = result.design

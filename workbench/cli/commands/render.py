@@ -186,18 +186,10 @@ def run(args) -> int:
                       description=f"truth under {label}: {IMAGE_ENCODING}")
         save_rgb8_png(result.camera_sRGB8, out / "camera.png",
                       description=f"{camera.name} under {label}: {IMAGE_ENCODING}")
-        import matplotlib
-
-        matplotlib.use("Agg", force=False)
-        import matplotlib.pyplot as plt
-
         ax = plot_delta_e_map(result.delta_E00, title=(
             f"{camera.name} under {label}: ΔE00 mean {stats['mean']:.2f}, p95 {stats['p95']:.2f}, "
             f"max {stats['max']:.2f}"))
-        try:
-            save_figure(ax.figure, out / "delta_e00.png")
-        finally:
-            plt.close(ax.figure)
+        save_figure(ax.figure, out / "delta_e00.png")
         written += ["truth.png", "camera.png", "delta_e00.png"]
     _save_npy(out / "delta_e00.npy", result.delta_E00)
     written.append("delta_e00.npy")
