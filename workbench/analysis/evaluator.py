@@ -576,7 +576,7 @@ def fitted_matrix(m: Measures) -> FittedMatrix:
         method = "least-squares"
     if m.matrix_scope == "shared":
         return FittedMatrix(method, "shared", tuple(tuple(float(v) for v in r) for r in m.matrices[0]))
-    return FittedMatrix(method, "per-illuminant", tuple(
+    return FittedMatrix(method, "per-illuminant", per_illuminant=tuple(
         (ill, tuple(tuple(float(v) for v in r) for r in m.matrices[j])) for j, ill in enumerate(m.illuminants)))
 
 
