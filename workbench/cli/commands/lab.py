@@ -4,19 +4,38 @@ from __future__ import annotations
 
 import os
 import secrets
+import shutil
 import subprocess
 import sys
 from pathlib import Path
 
+from workbench import is_packaged, notebooks_dir
 from workbench.errors import WorkbenchError
 
 HELP = "start JupyterLab on the notebooks (bound to 127.0.0.1, token required)"
 
 
-def default_notebook_dir() -> Path:
-    """notebooks/ of the source tree when run from it, else ./notebooks."""
-    here = Path(__file__).resolve().parents[3] / "notebooks"
-    return here if here.is_dir() else Path.cwd() / "notebooks"
+#: Where ``workbench lab`` puts its working copy of the packaged notebooks (in the current folder).
+WORKING_COPY = "workbench-notebooks"
+
+
+def default_notebook_dir(*, cwd: Path | None = None) -> tuple[Path, str | None]:
+    """The folder to open, and a notice when it was made.
+
+    From a checkout: the source tree's ``notebooks/``. From an installed
+    wheel the notebooks lie inside the package, and they write their outputs
+    beside themselves, so JupyterLab opens on a working copy,
+    ``./workbench-notebooks``, made from the packaged ones when it does not
+    exist yet (an existing copy is used as it is, never overwritten).
+    """
+    source = notebooks_dir()
+    if not is_packaged(source):
+        return source, None
+    work = (cwd or Path.cwd()) / WORKING_COPY
+    if work.exists():
+        return work, None
+    shutil.copytree(source, work)
+    return work, f"copied the workbench's notebooks to {work}"
 
 
 def register(sub) -> None:
@@ -49,7 +68,14 @@ def lab_command(root: Path, *, port: int, token: str) -> list[str]:
 
 
 def run(args) -> int:
-    root = (args.dir or default_notebook_dir()).resolve()
+    notice = None
+    if args.dir is None:
+        root, notice = default_notebook_dir()
+    else:
+        root = args.dir
+    root = root.resolve()
+    if notice:
+        print(f"note: {notice}", file=sys.stderr)
     if not root.is_dir():
         raise WorkbenchError(f"{root}: no such folder of notebooks (expected the project's notebooks/)")
     if not 1 <= args.port <= 65535:
