@@ -1,0 +1,299 @@
+"""``workbench coating LAYERS.csv``: reflectance and transmittance of a layer stack, s and p, at several angles.
+
+The layer table has one row per layer from the incidence side, columns
+``material`` (a built-in name, a user material given with ``--material``, or
+a plain index such as ``2.35`` or ``2.1+0.001j``) and ``thickness_nm``
+(physical thickness). The stack is computed by the characteristic-matrix
+method (:mod:`workbench.optics.thinfilm`).
+
+Outputs (stdout): ``--format csv`` one row per wavelength, columns
+``wavelength_nm`` then for each angle A as given ``R_s_A, R_p_A, T_s_A,
+T_p_A`` (fractions 0-1); ``json`` the same arrays per angle with the 50 %
+points of T of every edge and the edges of the reflection band for s, p and their mean;
+``table`` the band edges
+and the same columns aligned. ``--figures DIR``: R/T against wavelength for
+each angle and the edge positions against angle, as PNG.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import shutil
+import uuid
+from pathlib import Path
+
+import numpy as np
+
+from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
+from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
+
+HELP = "reflectance and transmittance of a thin-film layer stack, s and p, at several angles"
+
+METHOD = ("characteristic-matrix method (H. A. Macleod, Thin-Film Optical Filters, 4th ed., 2010, ch. 2); "
+          "R, T fractions 0-1; angles in degrees in the incidence medium")
+
+
+def register(sub) -> None:
+    from workbench.optics.materials import built_in_names
+
+    p = sub.add_parser(
+        "coating",
+        help=HELP,
+        description=(
+            HELP + ". LAYERS.csv: one row per layer from the incidence side, columns 'material' and "
+            "'thickness_nm'. Materials: " + ", ".join(built_in_names()) + ", a user n,k table "
+            "(--material NAME=FILE.csv) or a plain index such as 2.35 or 2.1+0.001j."
+        ),
+    )
+    p.add_argument("layers", type=Path, metavar="LAYERS.csv", help="the layer table")
+    p.add_argument("--incident", default="air", metavar="MATERIAL",
+                   help="incidence medium, a lossless material or index (default: air; e.g. crown-517 "
+                   "inside a prism)")
+    p.add_argument("--substrate", default="crown-517", metavar="MATERIAL",
+                   help="substrate material or index (default: crown-517)")
+    p.add_argument("--angles", default="0", metavar="A1,A2,...",
+                   help="angles of incidence in the incidence medium, degrees, 0 ≤ A < 90 (default: 0)")
+    p.add_argument("--grid", default="380:780:1", metavar="START:STOP:STEP",
+                   help="wavelength grid in nm, STOP included (default: 380:780:1)")
+    p.add_argument("--material", action="append", default=[], metavar="NAME=FILE.csv",
+                   help="a user material from an n,k table (columns wavelength_nm, n, k); repeatable")
+    p.add_argument("--back-surface", action="store_true",
+                   help="add the substrate's uncoated back face incoherently (thick substrate, into air)")
+    p.add_argument("--format", choices=FORMATS, default="table", help="output format (default: table)")
+    p.add_argument("--figures", type=Path, metavar="DIR", default=None,
+                   help="write R/T per angle and the edge positions against angle as PNG into DIR")
+    p.set_defaults(run=run)
+
+
+def parse_grid(text: str) -> np.ndarray:
+    """``START:STOP:STEP`` in nm → the grid, STOP included."""
+    parts = text.replace(" ", "").split(":")
+    try:
+        start, stop, step = (float(x) for x in parts)
+    except ValueError:
+        raise WorkbenchError(f"--grid must be START:STOP:STEP in nm, e.g. 380:780:1 (got {text!r})") from None
+    if not all(np.isfinite([start, stop, step])) or start <= 0 or step <= 0 or stop <= start:
+        raise WorkbenchError(f"--grid must have 0 < START < STOP and STEP > 0 (got {text!r})")
+    n = (stop - start) / step
+    if abs(n - round(n)) > 1e-6 * max(1.0, n):
+        raise WorkbenchError(f"--grid must span a whole number of steps from START to STOP (got {text!r})")
+    if round(n) + 1 > 200_000:
+        raise WorkbenchError(f"--grid must have at most 200000 wavelengths (got {round(n) + 1})")
+    return start + step * np.arange(round(n) + 1)
+
+
+def parse_angles(text: str) -> list[float]:
+    """``0,22.5,45`` → angles in degrees, each 0 ≤ A < 90, no repeats."""
+    out = []
+    for cell in text.replace(" ", "").split(","):
+        try:
+            a = float(cell)
+        except ValueError:
+            raise WorkbenchError(f"--angles must be comma-separated degrees such as 0,45 (got {cell!r})") from None
+        if not np.isfinite(a) or a < 0 or a >= 90:
+            raise WorkbenchError(f"--angles must be 0 ≤ angle < 90 degrees (got {cell})")
+        if a in out:
+            raise WorkbenchError(f"--angles must not repeat an angle (got {cell} twice)")
+        out.append(a)
+    return out
+
+
+def _user_materials(specs) -> dict:
+    from workbench.optics.materials import read_nk_csv
+
+    user = {}
+    for spec in specs:
+        name, sep, path = spec.partition("=")
+        if not sep or not name.strip() or not path.strip():
+            raise WorkbenchError(f"--material must be NAME=FILE.csv (got {spec!r})")
+        user[name.strip()] = read_nk_csv(path.strip(), name=name.strip())
+    return user
+
+
+def _medium(text: str, option: str, user, wl):
+    from workbench.optics.materials import material_named
+
+    try:
+        m = material_named(text, user=user)
+        return m, m.index(wl)
+    except WorkbenchError as err:
+        raise WorkbenchError(f"{option}: {err}") from None
+
+
+def angle_label(a: float) -> str:
+    """An angle as it appears in column names: ``45``, ``22.5``."""
+    return f"{a:g}"
+
+
+def compute(args):
+    """Read, check and compute everything; returns (rows, media, response, wl, angles)."""
+    from workbench.fileio.layers_csv import read_layer_table
+    from workbench.optics.thinfilm import stack_response
+
+    wl = parse_grid(args.grid)
+    angles = parse_angles(args.angles)
+    user = _user_materials(args.material)
+    rows = read_layer_table(args.layers, user=user)
+    inc, n_inc = _medium(args.incident, "--incident", user, wl)
+    if np.any(n_inc.imag != 0):
+        raise WorkbenchError(f"--incident must be a lossless medium (k = 0) (got {args.incident!r})")
+    sub, n_sub = _medium(args.substrate, "--substrate", user, wl)
+    if args.back_surface and np.any(n_sub.imag != 0):
+        raise WorkbenchError(f"--substrate must be lossless (k = 0) with --back-surface (got {args.substrate!r})")
+    N = np.empty((len(rows), wl.size), dtype=complex)
+    for i, r in enumerate(rows):
+        try:
+            N[i] = r.material.index(wl)
+        except RangeCoverageError as err:
+            raise InputFileError(str(err), str(args.layers), r.line, "material") from None
+    d = np.array([r.thickness_nm for r in rows])
+    res = stack_response(N, d, wl, angles, incident=n_inc.real, substrate=n_sub,
+                         back_surface=args.back_surface, exit_medium=1.0)
+    return rows, (inc, sub), res, wl, angles
+
+
+def half_points_of(res, wl, ia: int) -> dict:
+    """Every 50 % point of T for s, p and their mean at angle ``ia``."""
+    from workbench.optics.thinfilm import half_points
+
+    curves = {"s": res.T[0, ia], "p": res.T[1, ia], "mean": res.T_mean[ia]}
+    return {pol: [{"wavelength_nm": round(w, 4), "T": direction} for w, direction in half_points(wl, T)]
+            for pol, T in curves.items()}
+
+
+def band_edges_of(res, wl, ia: int) -> dict:
+    """The 50 % points bounding the reflection band that holds the peak R, s, p and mean (None off the grid)."""
+    from workbench.optics.thinfilm import stop_band_edges
+
+    curves = {"s": res.R[0, ia], "p": res.R[1, ia], "mean": res.R_mean[ia]}
+    out = {}
+    for pol, R in curves.items():
+        short, long_ = stop_band_edges(wl, R)
+        out[pol] = {"short_wave_nm": None if np.isnan(short) else round(short, 4),
+                    "long_wave_nm": None if np.isnan(long_) else round(long_, 4)}
+    return out
+
+
+def _csv_columns(angles) -> list[str]:
+    cols = ["wavelength_nm"]
+    for a in angles:
+        A = angle_label(a)
+        cols += [f"R_s_{A}", f"R_p_{A}", f"T_s_{A}", f"T_p_{A}"]
+    return cols
+
+
+def _spectral_rows(res, wl, angles) -> list[dict]:
+    cols = _csv_columns(angles)
+    data = [wl]
+    for ia in range(len(angles)):
+        data += [res.R[0, ia], res.R[1, ia], res.T[0, ia], res.T[1, ia]]
+    M = np.column_stack(data)
+    out = []
+    for row in M:
+        d = {cols[0]: float(f"{row[0]:.6g}")}
+        for c, v in zip(cols[1:], row[1:]):
+            d[c] = float(f"{v:.8f}")
+        out.append(d)
+    return out
+
+
+def render_figures(res, title: str) -> dict[str, bytes]:
+    """Every figure as PNG bytes, keyed by file name (drawn before anything is written)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    from workbench.plots.coating import plot_half_points_vs_angle, plot_stack_spectra
+
+    figs = {}
+    for ia, a in enumerate(res.angles_deg):
+        figs[f"coating-RT-{angle_label(float(a))}deg.png"] = plot_stack_spectra(res, ia, title=title)
+    figs["coating-edges-vs-angle.png"] = plot_half_points_vs_angle(res, title=title)
+    out = {}
+    for name, fig in figs.items():
+        FigureCanvasAgg(fig)
+        buf = io.BytesIO()
+        fig.savefig(buf, format="png", dpi=110)
+        out[name] = buf.getvalue()
+    return out
+
+
+def write_folder(folder: Path, files: dict[str, bytes]) -> None:
+    """Write ``files`` into ``folder`` as one unit where possible.
+
+    A new folder is filled under a temporary name and renamed into place, so
+    it holds the whole set or does not exist. Into an existing folder each
+    file is written atomically (temporary file, then rename).
+    """
+    from workbench.fileio.atomic import write_bytes_atomically
+
+    folder = Path(folder)
+    if folder.exists() and not folder.is_dir():
+        raise InputFileError("must be a folder (got a file)", str(folder))
+    if folder.is_dir():
+        for name, data in files.items():
+            write_bytes_atomically(folder / name, data)
+        return
+    parent = folder.parent
+    tmp = parent / f".{folder.name}.{uuid.uuid4().hex[:12]}.tmp"
+    try:
+        parent.mkdir(parents=True, exist_ok=True)
+        tmp.mkdir()
+        for name, data in files.items():
+            (tmp / name).write_bytes(data)
+        os.replace(tmp, folder)
+    except OSError as err:
+        raise InputFileError(f"cannot write the folder: {err.strerror or err}", str(folder)) from None
+    finally:
+        if tmp.exists():
+            shutil.rmtree(tmp, ignore_errors=True)
+
+
+def run(args) -> int:
+    rows, (inc, sub), res, wl, angles = compute(args)
+    figures = render_figures(res, args.layers.name) if args.figures is not None else None
+    if args.format == "csv":
+        text = render_rows(_spectral_rows(res, wl, angles), _csv_columns(angles), "csv")
+    elif args.format == "json":
+        text = to_json({
+            "method": METHOD,
+            "layers_file": str(args.layers),
+            "layers": [{"line": r.line, "material": r.material.name, "thickness_nm": r.thickness_nm,
+                        "source": r.material.source} for r in rows],
+            "incident": {"material": inc.name, "source": inc.source},
+            "substrate": {"material": sub.name, "source": sub.source},
+            "back_surface": bool(args.back_surface),
+            "wavelength_nm": [float(f"{w:.6g}") for w in wl],
+            "angles": [
+                {"angle_deg": a,
+                 "R_s": res.R[0, ia].tolist(), "R_p": res.R[1, ia].tolist(),
+                 "T_s": res.T[0, ia].tolist(), "T_p": res.T[1, ia].tolist(),
+                 "band_edges_50": band_edges_of(res, wl, ia),
+                 "half_points_T": half_points_of(res, wl, ia)}
+                for ia, a in enumerate(angles)
+            ],
+        })
+    else:
+        total = sum(r.thickness_nm for r in rows)
+        header = [
+            f"# {args.layers}: {len(rows)} layers, {total:.1f} nm in all; incident {inc.name}, "
+            f"substrate {sub.name}{' with its back face' if args.back_surface else ''}",
+            f"# {METHOD}",
+        ]
+        header.append("# reflection band around the peak R, edges at R = 50 %, nm (short-wave / long-wave; "
+                      "- where off the grid):")
+        for ia, a in enumerate(angles):
+            be = band_edges_of(res, wl, ia)
+
+            def fmt(v):
+                return "-" if v is None else f"{v:.1f}"
+
+            header.append(f"#   {angle_label(a):>5}°  " + "   ".join(
+                f"{pol} {fmt(be[pol]['short_wave_nm'])} / {fmt(be[pol]['long_wave_nm'])}"
+                for pol in ("s", "p", "mean")))
+        text = render_rows(_spectral_rows(res, wl, angles), _csv_columns(angles), "table",
+                           header_lines=header, digits=4)
+    if figures is not None:
+        write_folder(args.figures, figures)
+        notice(f"wrote {len(figures)} figures into {args.figures}")
+    print(text)
+    return 0

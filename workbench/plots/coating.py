@@ -1,0 +1,98 @@
+"""Figures of a thin-film stack: R and T against wavelength per angle, 50 % points against angle.
+
+Every function builds its own :class:`matplotlib.figure.Figure` (no pyplot
+state), returns it and never shows it. Axes carry quantity, unit and method.
+The input is a :class:`workbench.optics.thinfilm.StackResponse`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from workbench.optics.thinfilm import StackResponse, stop_band_edges
+
+__all__ = ["plot_stack_spectra", "plot_half_points_vs_angle"]
+
+_WL_LABEL = "wavelength λ (nm)"
+_METHOD = "characteristic-matrix method"
+_POL_STYLE = {"s": ("tab:blue", "-"), "p": ("tab:red", "-"), "mean": ("0.2", "--")}
+
+
+def _figure(width: float, height: float):
+    from matplotlib.figure import Figure
+
+    return Figure(figsize=(width, height), layout="constrained")
+
+
+def plot_stack_spectra(response: StackResponse, angle_index: int = 0, *, title: str = ""):
+    """R and T (s, p and their mean) against wavelength at one angle.
+
+    Parameters
+    ----------
+    response : StackResponse
+        One stack (no batch axes).
+    angle_index : int
+        Which of ``response.angles_deg``.
+    title : str
+        Shown above the axes (e.g. the stack's file name).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    wl = response.wavelengths_nm
+    a = float(response.angles_deg[angle_index])
+    fig = _figure(7.0, 4.2)
+    ax = fig.add_subplot()
+    for ip, pol in enumerate(("s", "p")):
+        colour, _ = _POL_STYLE[pol]
+        ax.plot(wl, response.R[ip, angle_index], color=colour, lw=1.4, label=f"R {pol}")
+        ax.plot(wl, response.T[ip, angle_index], color=colour, lw=1.0, ls=":", label=f"T {pol}")
+    ax.plot(wl, response.T_mean[angle_index], color="0.2", lw=1.0, ls="--", label="T mean of s, p")
+    ax.axhline(0.5, color="0.6", lw=0.6)
+    ax.set_xlim(wl[0], wl[-1])
+    ax.set_ylim(-0.02, 1.02)
+    ax.set_xlabel(_WL_LABEL)
+    ax.set_ylabel("reflectance R, transmittance T (fraction 0-1)")
+    ax.set_title(f"{title + ': ' if title else ''}R and T at {a:g}° in the incidence medium ({_METHOD})",
+                 fontsize=9)
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=7, ncol=3, loc="best")
+    return fig
+
+
+def plot_half_points_vs_angle(response: StackResponse, *, title: str = ""):
+    """The edges of the reflection band (its 50 % points) against angle for s, p and their mean.
+
+    The band is the one that holds the peak reflectance at each angle
+    (:func:`workbench.optics.thinfilm.stop_band_edges`); an edge that runs
+    off the wavelength grid is left out.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    wl = response.wavelengths_nm
+    angles = response.angles_deg
+    fig = _figure(6.4, 4.2)
+    ax = fig.add_subplot()
+    curves = {"s": response.R[0], "p": response.R[1], "mean": response.R_mean}
+    any_edge = False
+    for pol, R in curves.items():
+        colour, ls = _POL_STYLE[pol]
+        edges = np.array([stop_band_edges(wl, R[ia]) for ia in range(angles.size)])
+        for k, side in enumerate(("short-wave", "long-wave")):
+            y = edges[:, k]
+            if np.any(np.isfinite(y)):
+                any_edge = True
+                ax.plot(angles, y, color=colour, ls=ls, marker="o" if k == 0 else "s", ms=4,
+                        label=f"{pol}, {side} edge")
+    ax.set_xlabel("angle of incidence in the incidence medium (°)")
+    ax.set_ylabel("50 % point of R, " + _WL_LABEL)
+    ax.set_title(f"{title + ': ' if title else ''}reflection-band edges against angle ({_METHOD})", fontsize=9)
+    ax.grid(alpha=0.3)
+    if any_edge:
+        ax.legend(fontsize=7, ncol=2)
+    else:
+        ax.text(0.5, 0.5, "R does not cross 50 % on this grid", transform=ax.transAxes, ha="center")
+    return fig
