@@ -19,9 +19,11 @@ _POL_STYLE = {"s": ("tab:blue", "-"), "p": ("tab:red", "-"), "mean": ("0.2", "--
 
 
 def _figure(width: float, height: float):
-    from matplotlib.figure import Figure
+    from workbench.plots._canvas import new_figure, place_axes
 
-    return Figure(figsize=(width, height), layout="constrained")
+    fig = new_figure(width, height)
+    place_axes(fig, left=0.75, right=0.15, top=0.35, bottom=0.55)
+    return fig
 
 
 def plot_stack_spectra(response: StackResponse, angle_index: int = 0, *, title: str = ""):

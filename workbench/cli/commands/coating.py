@@ -17,7 +17,6 @@ each angle and the edge positions against angle, as PNG.
 
 from __future__ import annotations
 
-import io
 import os
 import shutil
 import uuid
@@ -200,21 +199,14 @@ def _spectral_rows(res, wl, angles) -> list[dict]:
 
 def render_figures(res, title: str) -> dict[str, bytes]:
     """Every figure as PNG bytes, keyed by file name (drawn before anything is written)."""
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-
+    from workbench.plots._canvas import png_bytes
     from workbench.plots.coating import plot_half_points_vs_angle, plot_stack_spectra
 
     figs = {}
     for ia, a in enumerate(res.angles_deg):
         figs[f"coating-RT-{angle_label(float(a))}deg.png"] = plot_stack_spectra(res, ia, title=title)
     figs["coating-edges-vs-angle.png"] = plot_half_points_vs_angle(res, title=title)
-    out = {}
-    for name, fig in figs.items():
-        FigureCanvasAgg(fig)
-        buf = io.BytesIO()
-        fig.savefig(buf, format="png", dpi=110)
-        out[name] = buf.getvalue()
-    return out
+    return {name: png_bytes(fig, dpi=110) for name, fig in figs.items()}
 
 
 def write_folder(folder: Path, files: dict[str, bytes]) -> None:
