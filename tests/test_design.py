@@ -80,6 +80,14 @@ BAD = {
         'PATH: 1 problem in the design file (grid.step_nm)\n'
         '  grid.step_nm: expected a number in (0, 3000] nm (missing)'
     ),
+    'grid_past_1100': (
+        'PATH: 1 problem in the design file (grid.stop_nm)\n'
+        '  grid.stop_nm: expected a number in [300, 1100] nm (got 1200)'
+    ),
+    'grid_stop_before_start': (
+        'PATH: 1 problem in the design file (grid.stop_nm)\n'
+        '  grid.stop_nm: expected a number above start_nm = 700 nm (got 400)'
+    ),
     'grid_not_whole': (
         'PATH: 1 problem in the design file (grid)\n'
         "  grid: expected stop_nm - start_nm to be a positive whole number of step_nm steps (got '400-705 nm at 10 nm')"

@@ -4,7 +4,7 @@ import colour
 import numpy as np
 import pytest
 
-from workbench.colorimetry.cie import cmfs_on, illuminant_A, illuminant_names, illuminant_on
+from workbench.colorimetry.cie import D_SERIES_CCT, cmfs_on, illuminant_A, illuminant_names, illuminant_on
 from workbench.colorimetry.coordinates import XYZ_to_xy
 from workbench.errors import RangeCoverageError, WorkbenchError
 from workbench.model.spectra import Spectra, grid
@@ -22,7 +22,15 @@ def colour_illuminant(name, wl):
         return colour.sd_CIE_standard_illuminant_A(colour.SpectralShape(wl[0], wl[-1], wl[1] - wl[0]))
     sd = colour.SDS_ILLUMINANTS[name]
     f = colour.Extrapolator(colour.LinearInterpolator(sd.wavelengths, sd.values), method="Constant")
-    return colour.SpectralDistribution(f(wl), wl)
+    values = f(wl)
+    if name in D_SERIES_CCT:
+        # past the table's end the D series follows the daylight basis (CIE 15:2004, § 3.1),
+        # which colour-science computes over 300-830 nm
+        xy = colour.temperature.CCT_to_xy_CIE_D(D_SERIES_CCT[name])
+        basis = colour.colorimetry.sd_CIE_illuminant_D_series(xy)
+        past = wl > sd.wavelengths[-1]
+        values[past] = np.interp(wl[past], basis.wavelengths, basis.values)
+    return colour.SpectralDistribution(values, wl)
 
 
 def colour_XYZ(values, wl, illuminant, observer="2"):
@@ -134,9 +142,9 @@ class TestTables:
         assert "zero outside 360-830 nm" in t.note
 
     def test_illuminant_extension_is_noted(self):
-        """D65 past 780 nm repeats its end value and says so."""
-        name, t = illuminant_on(grid(380, 830, 10), "D65")
-        assert name == "D65" and t.values[-1] == t.values[-6]
+        """FL2 past 780 nm repeats its end value and says so."""
+        name, t = illuminant_on(grid(380, 830, 10), "FL2")
+        assert name == "FL2" and t.values[-1] == t.values[-6]
         assert "extended over 780-830 nm with its end values" in t.note
 
     def test_short_illuminant_name_and_unknown(self):

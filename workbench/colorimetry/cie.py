@@ -17,12 +17,21 @@ note:
   nothing beyond).
 * CIE illuminant A: computed from its defining formula on any grid
   (CIE 15:2004, Eq. 2.1), so it needs no interpolation.
+* CIE illuminant E: equal energy, 100 at every wavelength by definition.
 * every tabulated illuminant: linear interpolation. CIE 15:2004 recommends
   it for the D series (from memory); for the fluorescent, LED and other
   tables, whose narrow lines make higher-order interpolation ring, it is
   the safe choice and the one colour-science makes for all of them.
-* outside an illuminant table's range: its end values repeated (constant
-  extrapolation, CIE 167:2005), said in the note.
+* the D series (D50, D55, D65, D75) past the end of its table up to
+  830 nm: from the daylight basis S0 + M1 S1 + M2 S2 at its correlated
+  colour temperature (CIE 15:2004, § 3.1, Eqs. 3.3-3.5, M1 and M2 rounded
+  to three decimals), which the standard defines over 300-830 nm.
+* any other table, within 360-830 nm (the colour-matching functions'
+  table) only: its end values repeated (constant extrapolation,
+  CIE 167:2005), said in the note.
+* beyond that — below 300 nm or above 830 nm, where the camera may still
+  see light but no standard defines these illuminants — a tabulated
+  illuminant is refused: the user gives the SPD as a file.
 """
 
 from __future__ import annotations
@@ -47,6 +56,7 @@ __all__ = [
     "illuminant_table",
     "illuminant_chromaticity",
     "daylight_basis",
+    "daylight_M1_M2",
     "Tabulated",
 ]
 
@@ -217,6 +227,43 @@ def illuminant_A(wavelengths) -> np.ndarray:
     return 100.0 * (560.0 / wl) ** 5 * np.expm1(c2 / (2848 * 560)) / np.expm1(c2 / (2848 * wl))
 
 
+#: Nominal correlated colour temperatures of the CIE D series, K (CIE 15:2004, § 3.1:
+#: 5000, 5500, 6500, 7500 K times 1.4388/1.4380, rounded).
+D_SERIES_CCT = {"D50": 5003.0, "D55": 5503.0, "D65": 6504.0, "D75": 7504.0}
+#: The range the CIE daylight basis and colour-matching functions are tabulated over, nm.
+DAYLIGHT_RANGE = (300.0, 830.0)
+CMFS_RANGE = (360.0, 830.0)
+
+
+def daylight_M1_M2(cct: float) -> tuple[float, float]:
+    """The factors M1, M2 of the CIE daylight basis at a correlated colour temperature (K).
+
+    Notes
+    -----
+    x_D from CIE 15:2004 Eq. 3.3 (4000-7000 K and 7000-25000 K branches),
+    y_D = −3.000 x_D² + 2.870 x_D − 0.275 (Eq. 3.4), M1 and M2 from Eq. 3.5,
+    rounded to three decimals as the standard's tables are.
+    """
+    T = float(cct)
+    if not 4000.0 <= T <= 25000.0:
+        raise WorkbenchError(f"daylight correlated colour temperature must be 4000-25000 K (got {T:g})")
+    if T <= 7000.0:
+        x = -4.6070e9 / T**3 + 2.9678e6 / T**2 + 0.09911e3 / T + 0.244063
+    else:
+        x = -2.0064e9 / T**3 + 1.9018e6 / T**2 + 0.24748e3 / T + 0.237040
+    y = -3.000 * x * x + 2.870 * x - 0.275
+    M = 0.0241 + 0.2562 * x - 0.7341 * y
+    M1 = (-1.3515 - 1.7703 * x + 5.9114 * y) / M
+    M2 = (0.0300 - 31.4424 * x + 30.0717 * y) / M
+    return round(M1, 3), round(M2, 3)
+
+
+def _daylight_from_basis(wl: np.ndarray, cct: float) -> np.ndarray:
+    bwl, S = daylight_basis()
+    M1, M2 = daylight_M1_M2(cct)
+    return np.interp(wl, bwl, S[0] + M1 * S[1] + M2 * S[2])
+
+
 @lru_cache(maxsize=256)
 def _illuminant_on(key: bytes, name: str, interpolation: str = "linear") -> Tabulated:
     wl = np.frombuffer(key, dtype=float)
@@ -224,9 +271,28 @@ def _illuminant_on(key: bytes, name: str, interpolation: str = "linear") -> Tabu
         v = illuminant_A(wl)
         v.setflags(write=False)
         return Tabulated(v, "CIE illuminant A from its formula (CIE 15:2004, Eq. 2.1)")
+    if name == "E":
+        v = np.full(wl.size, 100.0)
+        v.setflags(write=False)
+        return Tabulated(v, "CIE illuminant E: equal energy, 100 at every wavelength")
     twl, tv = illuminant_table(name)
+    daylight = name in D_SERIES_CCT
+    lo_ok, hi_ok = DAYLIGHT_RANGE if daylight else CMFS_RANGE
+    lo_ok, hi_ok = min(lo_ok, twl[0]), max(hi_ok, twl[-1])
+    if wl[0] < lo_ok - 1e-9 or wl[-1] > hi_ok + 1e-9:
+        how = (f"is defined over {lo_ok:g}-{hi_ok:g} nm (the CIE daylight basis, CIE 15:2004)" if daylight
+               else f"is tabulated over {twl[0]:g}-{twl[-1]:g} nm (extended with its end values to "
+                    f"{lo_ok:g}-{hi_ok:g} nm at most)")
+        raise WorkbenchError(
+            f"illuminant {name} {how}, but the grid is "
+            f"{wl[0]:g}-{wl[-1]:g} nm; give its SPD over the grid as a CSV file "
+            "(an [[illuminants]] entry with file = ...)"
+        )
     values, used = resample_values(tv, twl, wl, method=interpolation, extrapolation="constant")
-    node = np.isin(wl, twl)
+    if daylight and (wl[0] < twl[0] or wl[-1] > twl[-1]):
+        outside = (wl < twl[0]) | (wl > twl[-1])
+        values[outside] = _daylight_from_basis(wl[outside], D_SERIES_CCT[name])
+    node = np.isin(wl, twl) | (wl < twl[0]) | (wl > twl[-1])
     parts = []
     if not node.all():
         parts.append(
@@ -238,7 +304,12 @@ def _illuminant_on(key: bytes, name: str, interpolation: str = "linear") -> Tabu
         ext.append(f"{wl[0]:g}-{lo:g} nm")
     if wl[-1] > hi:
         ext.append(f"{hi:g}-{wl[-1]:g} nm")
-    if ext:
+    if ext and daylight:
+        parts.append(
+            f"extended over {' and '.join(ext)} from the CIE daylight basis at "
+            f"{D_SERIES_CCT[name]:g} K (CIE 15:2004, § 3.1; the table covers {lo:g}-{hi:g} nm)"
+        )
+    elif ext:
         parts.append(
             f"extended over {' and '.join(ext)} with its end values (CIE 167:2005; "
             f"the table covers {lo:g}-{hi:g} nm)"

@@ -220,6 +220,10 @@ class _Checker:
         return Tolerance(dist, w)
 
 
+#: The range a design grid may span, nm: the near ultraviolet to the end of a silicon sensor's response.
+GRID_LIMITS_NM = (300.0, 1100.0)
+
+
 def _check_grid(c: _Checker, v) -> Grid | None:
     t = c.table(v, "grid")
     if t is None:
@@ -228,12 +232,18 @@ def _check_grid(c: _Checker, v) -> Grid | None:
     vals = {}
     for k in ("start_nm", "stop_nm", "step_nm"):
         f = _number(t.get(k))
-        if f is None or not (0 < f <= 3000):
-            c.bad(f"grid.{k}", "a number in (0, 3000] nm" + ("" if k in t else " (missing)"),
+        # the grid may reach past the CIE tables into the near infrared a silicon sensor sees
+        lo, hi, text = (0, 3000, "(0, 3000]") if k == "step_nm" else (GRID_LIMITS_NM + (
+            f"[{GRID_LIMITS_NM[0]:g}, {GRID_LIMITS_NM[1]:g}]",))
+        if f is None or not (lo < f <= hi if k == "step_nm" else lo <= f <= hi):
+            c.bad(f"grid.{k}", f"a number in {text} nm" + ("" if k in t else " (missing)"),
                   t.get(k), show_got=k in t)
         else:
             vals[k] = f
     if len(vals) < 3:
+        return None
+    if vals["stop_nm"] <= vals["start_nm"]:
+        c.bad("grid.stop_nm", f"a number above start_nm = {vals['start_nm']:g} nm", t.get("stop_nm"))
         return None
     g = Grid(vals["start_nm"], vals["stop_nm"], vals["step_nm"])
     try:
@@ -394,7 +404,7 @@ def _check_samples(c: _Checker, v):
     out = []
     for i, t in enumerate(_check_named_list(c, v, "samples")):
         key = f"samples[{i}]"
-        c.unknown(t, ("name", "source", "file"), key)
+        c.unknown(t, ("name", "source", "file", "extrapolation"), key)
         n0 = len(c.problems)
         name = c.string(t.get("name"), f"{key}.name")
         source = c.choice(t.get("source"), SAMPLE_SETS, f"{key}.source")
@@ -403,8 +413,9 @@ def _check_samples(c: _Checker, v):
             file = c.file(t.get("file"), f"{key}.file")
         elif "file" in t and source is not None:
             c.bad(f"{key}.file", f"no file for the built-in set {source!r}", t["file"])
+        extrapolation = c.choice(t.get("extrapolation", "none"), ("none", "constant"), f"{key}.extrapolation")
         if len(c.problems) == n0:
-            out.append(SampleSetSpec(name, source, file))
+            out.append(SampleSetSpec(name, source, file, extrapolation))
     return out
 
 
@@ -414,7 +425,7 @@ def _check_illuminants(c: _Checker, v):
     out = []
     for i, t in enumerate(_check_named_list(c, v, "illuminants")):
         key = f"illuminants[{i}]"
-        c.unknown(t, ("name", "cie", "file", "column"), key)
+        c.unknown(t, ("name", "cie", "file", "column", "extrapolation"), key)
         n0 = len(c.problems)
         name = c.string(t.get("name"), f"{key}.name")
         cie = file = column = None
@@ -430,12 +441,15 @@ def _check_illuminants(c: _Checker, v):
                     c.bad(f"{key}.cie", "a CIE illuminant name such as A, D50, D65, FL2, LED-B1", cie)
             if "column" in t:
                 c.bad(f"{key}.column", "no column with cie (only with file)", t["column"])
+            if "extrapolation" in t:
+                c.bad(f"{key}.extrapolation", "no extrapolation with cie (only with file)", t["extrapolation"])
         else:
             file = c.file(t["file"], f"{key}.file")
             if "column" in t:
                 column = c.string(t["column"], f"{key}.column")
+        extrapolation = c.choice(t.get("extrapolation", "none"), ("none", "constant"), f"{key}.extrapolation")
         if len(c.problems) == n0:
-            out.append(IlluminantSpec(name, cie, file, column))
+            out.append(IlluminantSpec(name, cie, file, column, extrapolation))
     return out
 
 
@@ -792,7 +806,8 @@ def design_to_dict(d: Design, rebase=None) -> dict:
     out["chain"] = chain
     if d.samples:
         out["samples"] = [
-            {"name": s.name, "source": s.source, **({"file": f(s.file)} if s.file else {})}
+            {"name": s.name, "source": s.source, **({"file": f(s.file)} if s.file else {}),
+             **({"extrapolation": s.extrapolation} if s.extrapolation != "none" else {})}
             for s in d.samples
         ]
     if d.illuminants:
@@ -805,6 +820,8 @@ def design_to_dict(d: Design, rebase=None) -> dict:
                 item["file"] = f(i.file)
             if i.column is not None:
                 item["column"] = i.column
+            if i.extrapolation != "none":
+                item["extrapolation"] = i.extrapolation
             ills.append(item)
         out["illuminants"] = ills
     fit: dict[str, Any] = {"objective": d.fit.objective}

@@ -23,7 +23,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from workbench.optics import elements as optics
-from workbench.errors import WorkbenchError
+from workbench.errors import RangeCoverageError, WorkbenchError
 from workbench.model.spectra import Spectra, grid as make_grid
 
 if TYPE_CHECKING:  # names for annotations only: the chain sits above the schema
@@ -178,9 +178,12 @@ class Target:
 
 @dataclass(frozen=True)
 class SampleSetSpec:
+    """A named sample set; ``extrapolation`` (``none``/``constant``) extends it past its table."""
+
     name: str
     source: str
     file: str | None = None
+    extrapolation: str = "none"
 
 
 @dataclass(frozen=True)
@@ -191,6 +194,7 @@ class IlluminantSpec:
     cie: str | None = None
     file: str | None = None
     column: str | None = None
+    extrapolation: str = "none"
 
 
 @dataclass(frozen=True)
@@ -361,14 +365,19 @@ class Design:
         wl = self.grid.wavelengths
         if name is None:
             return "equal energy (E)", np.ones(wl.size), ("equal-energy spectrum",)
-        spec = {i.name: i for i in self.illuminants}.get(name)
-        if spec is None:
+        index = {i.name: k for k, i in enumerate(self.illuminants)}.get(name)
+        if index is None:
             raise WorkbenchError(
                 f"no illuminant named {name!r} in the design (have "
                 f"{', '.join(i.name for i in self.illuminants) or 'none'})"
             )
+        spec = self.illuminants[index]
+        where = f"illuminants[{index}] {name!r}"
         if spec.cie is not None:
-            label, tab = illuminant_on(wl, spec.cie)
+            try:
+                label, tab = illuminant_on(wl, spec.cie)
+            except WorkbenchError as e:
+                raise WorkbenchError(f"{where}: {e}") from None
             return label, np.asarray(tab.values), (tab.note,)
         s = read_spectra_csv(self.resolve(spec.file), kind="emission")
         if spec.column is not None:
@@ -377,21 +386,34 @@ class Design:
             raise WorkbenchError(
                 f"illuminant {name!r}: expected a column, the file {spec.file} holds {len(s)} spectra"
             )
-        s = s.resample(wl)
+        if spec.extrapolation == "none" and not s.covers(wl[0], wl[-1]):
+            from workbench.optics.chain import uncovered
+
+            raise WorkbenchError(f"{where} ({spec.file}): " + uncovered(s, wl, "entry"))
+        s = s.resample(wl, extrapolation=spec.extrapolation)
         return f"{name} ({spec.file})", s.flat()[0], s.notes
 
     def sample_set(self, name: str) -> Spectra:
         """A ``[[samples]]`` entry on the design grid (reflectance 0-1, (count, n))."""
         from workbench.colorimetry.samples import open_sample_set
 
-        spec = {s.name: s for s in self.samples}.get(name)
-        if spec is None:
+        index = {s.name: k for k, s in enumerate(self.samples)}.get(name)
+        if index is None:
             raise WorkbenchError(
                 f"no sample set named {name!r} in the design (have "
                 f"{', '.join(s.name for s in self.samples) or 'none'})"
             )
+        spec = self.samples[index]
         file = None if spec.file is None else self.resolve(spec.file)
-        return open_sample_set(spec.source, self.grid.wavelengths, file=file)
+        wl = self.grid.wavelengths
+        try:
+            return open_sample_set(spec.source, wl, file=file, extrapolation=spec.extrapolation)
+        except RangeCoverageError as e:
+            what = spec.file or spec.source
+            text = str(e).split(" nm but ")[0]
+            raise WorkbenchError(
+                f"samples[{index}] {name!r} ({what}): {text} nm but the design grid is {wl[0]:g}-{wl[-1]:g} "
+                "nm; set extrapolation = \"constant\" on this entry to extend it (CIE 167)") from None
 
     # -- evaluation --------------------------------------------------------------
     def model(self) -> "ChainModel":

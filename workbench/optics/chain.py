@@ -16,7 +16,15 @@ from workbench.model.design import CHANNELS, Design, Element
 from workbench.model.spectra import Spectra
 from workbench.optics import elements as optics
 
-__all__ = ["ElementCurve", "ChainModel"]
+__all__ = ["ElementCurve", "ChainModel", "uncovered"]
+
+
+def uncovered(s: Spectra, wavelengths, what: str) -> str:
+    """The message for measured data that do not cover the design grid, naming the key that extends them."""
+    wl = np.asarray(wavelengths)
+    return (f"data cover {s.wavelengths[0]:g}-{s.wavelengths[-1]:g} nm but the design grid is "
+            f"{wl[0]:g}-{wl[-1]:g} nm; set extrapolation = \"constant\" on this {what} to extend it "
+            "(CIE 167)")
 
 
 
@@ -76,7 +84,12 @@ class ChainModel:
                 raise WorkbenchError(
                     f"{key}: expected column {missing[0]!r} in {file} (it holds {', '.join(s.names[:6])})"
                 )
-            s = s.select(names).resample(self.wavelengths, extrapolation=e.option("extrapolation", "none"))
+            s = s.select(names)
+            extrapolation = e.option("extrapolation", "none")
+            if extrapolation == "none" and not s.covers(self.wavelengths[0], self.wavelengths[-1]):
+                raise WorkbenchError(
+                    f"{key} {e.name!r} ({file}): " + uncovered(s, self.wavelengths, "element"))
+            s = s.resample(self.wavelengths, extrapolation=extrapolation)
             notes.extend(s.notes)
             self._tables[e.name] = s.values
         self.notes = tuple(notes)
