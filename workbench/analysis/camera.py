@@ -82,6 +82,18 @@ def bradford_matrix(white_source, white_destination) -> np.ndarray:
 
     M = B⁻¹ diag(B w_d / B w_s) B. Whites are XYZ (any common scale);
     broadcasts over leading axes of the whites.
+
+    References
+    ----------
+    Lam, K. M. (1985). *Metamerism and colour constancy*. PhD thesis,
+    University of Bradford; as tabulated in ICC.1:2010, Annex E.
+    docs/methods.md §9.
+
+    Examples
+    --------
+    >>> A, D65 = [1.09850, 1.0, 0.35585], [0.95047, 1.0, 1.08883]
+    >>> (bradford_matrix(A, D65) @ A).round(5).tolist()  # A's white goes to D65's
+    [0.95047, 1.0, 1.08883]
     """
     ws = np.asarray(white_source, dtype=float)
     wd = np.asarray(white_destination, dtype=float)
@@ -95,6 +107,19 @@ def least_squares_matrix(C, T, w=None) -> np.ndarray:
     """M (..., 3, 3) minimising Σ w_k ‖M c_k − t_k‖², for C, T (..., K, 3).
 
     M = Tᵀ W C (Cᵀ W C)⁻¹, batched over leading axes; ``w`` (K,) weights.
+
+    References
+    ----------
+    Finlayson, G. D. & Drew, M. S. (1997). Constrained least-squares
+    regression in color spaces. *J. Electronic Imaging* 6(4), 484-493.
+    docs/methods.md §10.
+
+    Examples
+    --------
+    >>> C = np.random.default_rng(1).random((10, 3))
+    >>> M0 = np.array([[1.6, -0.5, -0.1], [-0.2, 1.3, -0.1], [0.0, -0.2, 1.2]])
+    >>> np.allclose(least_squares_matrix(C, C @ M0.T), M0)  # exact data give the matrix back
+    True
     """
     C = np.asarray(C, dtype=float)
     T = np.asarray(T, dtype=float)
@@ -111,6 +136,12 @@ def white_preserving_matrix(C, T, w=None, white_camera=(1.0, 1.0, 1.0),
 
     M = M_LS + (w_t − M_LS w_c) w_cᵀ G⁻¹ / (w_cᵀ G⁻¹ w_c), G = Cᵀ W C.
     Batched over leading axes of C and T (..., K, 3).
+
+    References
+    ----------
+    Finlayson, G. D. & Drew, M. S. (1997). White-point preserving color
+    correction. *Proc. IS&T/SID 5th Color Imaging Conference*, 258-261.
+    docs/methods.md §10.
     """
     C = np.asarray(C, dtype=float)
     T = np.asarray(T, dtype=float)
@@ -194,6 +225,12 @@ class ColourBench:
     t = N⁻¹ A_j XYZ_jk with XYZ normalised to the white's Y = 1 and A_j
     the Bradford matrix from that white to the display white N·(1,1,1);
     so the perfect diffuser's target is exactly (1, 1, 1).
+
+    References
+    ----------
+    CIE 15:2004 § 7; CIE 142-2001 (ΔE00); SMPTE RP 177-1993;
+    Finlayson & Drew (1997); Lam (1985), Bradford.
+    docs/methods.md §§9-10.
     """
 
     def __init__(self, wavelengths, samples, illuminants: dict, primaries: Primaries,

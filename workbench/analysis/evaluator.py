@@ -87,6 +87,11 @@ def luther_residual(S, T, illuminant_rec=None, illuminant_view=None):
     -----
     M = diag(l_rec)S, A = diag(l_view)T; the best B is least squares, so the
     residual is (I − P_M)A with P_M = Q_M Q_Mᵀ from QR. 0 for a Luther camera.
+
+    References
+    ----------
+    Luther, R. (1927). Aus dem Gebiet der Farbreizmetrik. *Z. tech. Phys.* 8, 540.
+    docs/methods.md §8.
     """
     S = np.asarray(S, dtype=float)
     T = np.asarray(T, dtype=float)
@@ -119,6 +124,14 @@ def sensitivity_metamerism_index(S, wavelengths, samples, illuminant, *, observe
     squares from raw RGB to XYZ over the samples; ΔE*ab in CIELAB against
     the illuminant's white (CIE 15:2004 § 8.2.1). "-style": the sample set,
     illuminant and slope are parameters, not the standard's data.
+
+    References
+    ----------
+    ISO 17321-1:2012, *Graphic technology and photography - Colour
+    characterisation of digital still cameras (DSCs) - Part 1* (the slope 5.5
+    is from memory).
+    CIE 13.3-1995 (TCS01-TCS08).
+    docs/methods.md §11.
     """
     wl = np.asarray(wavelengths, dtype=float)
     R = np.atleast_2d(np.asarray(samples, dtype=float))
@@ -166,6 +179,12 @@ def noise_report(M, raw_white, noise) -> dict:
     e = grey·e_white electrons with variance e + read² (shot plus read
     noise); after white balance σ_in = √(e + read²)/e_white; after the
     matrix Σ_out = M diag(σ_in²) Mᵀ (independent channels), σ_out = √diag.
+
+    References
+    ----------
+    Vora, P. L. (2001). Inner products and orthogonality in color recording
+    filter design. *IEEE Trans. Image Process.* 10(4), 632-642.
+    docs/methods.md §12.
     """
     M = np.asarray(M, dtype=float)
     w = np.asarray(raw_white, dtype=float)

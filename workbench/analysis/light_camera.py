@@ -72,6 +72,12 @@ def camera_fidelity_score(delta_E00, axis=-1) -> tuple[np.ndarray, np.ndarray]:
     delta_E_a : (...) ndarray
         (mean ΔE00⁴)^¼ over ``axis``.
 
+    References
+    ----------
+    EBU Tech 3355 (2017), *Method for the assessment of the colorimetric
+    properties of luminaires*, § 1.5.1 (the scoring formula only).
+    docs/methods.md §18.
+
     Examples
     --------
     >>> [round(float(v), 6) for v in camera_fidelity_score([3.16, 3.16])]
@@ -238,6 +244,13 @@ def camera_fidelity(camera, spd: Spectra, *, cct: float | None = None, extrapola
     itself scores exactly 100. For a Luther camera (S = N⁻¹ x̄ȳz̄, M = I)
     the balance is a von Kries scaling in the display primaries' RGB, and
     the result equals that colorimetric computation.
+
+    References
+    ----------
+    EBU Tech 3355 (2017), *Method for the assessment of the colorimetric
+    properties of luminaires*, § 1.5.1 (the scoring formula only).
+    CIE 13.3-1995; CIE 224:2017; CIE 142-2001.
+    docs/methods.md §18.
     """
     w = working_spd(spd, extrapolation=extrapolation)
     label = light_label(spd)
@@ -455,6 +468,12 @@ def compare_lights(spd_a: Spectra, spd_b: Spectra, *, camera=None, match: float 
         of each of the 113 samples (CIE 13.3 TCS01-TCS14, CIE 224 CES01-99)
         between A and B, and the verdict compares their means with the
         thresholds.
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 8.2.1; CIE 142-2001.
+    Lam, K. M. (1985), the Bradford transform.
+    docs/methods.md §18.
     """
     from workbench.analysis.camera import bradford_matrix
     from workbench.colorimetry.primaries import white_chromaticity

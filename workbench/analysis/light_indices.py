@@ -76,6 +76,23 @@ def colour_sd(wl: np.ndarray, values: np.ndarray, name: str):
 
 
 def cct_duv(XYZ: np.ndarray) -> tuple[float, float]:
+    """CCT (K) and Duv of a light's XYZ (3,), by Ohno's method in CIE 1960 (u, v) (colour-science).
+
+    u = 4X/(X + 15Y + 3Z), v = 6Y/(X + 15Y + 3Z); Duv is the signed distance
+    from the Planckian locus, positive above it.
+
+    References
+    ----------
+    Ohno, Y. (2014). Practical use and calculation of CCT and Duv. *LEUKOS*
+    10(1), 47-55.
+    CIE 15:2004, *Colorimetry*, 3rd ed. (c₂ = 1.4388×10⁻² m·K).
+    docs/methods.md §17.
+
+    Examples
+    --------
+    >>> round(cct_duv([109.850, 100.0, 35.585])[0])  # illuminant A's white (ASTM E308), about 2856 K
+    2856
+    """
     import colour
 
     X, Y, Z = (float(v) for v in XYZ)
@@ -251,6 +268,14 @@ def light_indices(spd: Spectra, *, ssi_reference="auto", extrapolation: str = "n
     between 4000 and 5000 K. colour-science extends the SPD to 360-830 nm
     with its end values for CIE 13.3 and fills 375-380 nm with zeros for
     the SSI; both are said in the notes when they happen.
+
+    References
+    ----------
+    CIE 13.3-1995; CIE 224:2017; ANSI/IES TM-30-18.
+    Ohno, Y. (2014). *LEUKOS* 10(1), 47-55.
+    Holm, J. et al. (2016). A cinematographic spectral similarity index. SMPTE
+    Annual Technical Conference.
+    docs/methods.md §17.
     """
     import colour
 

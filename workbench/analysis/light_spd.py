@@ -153,6 +153,12 @@ def working_spd(spd: Spectra, *, extrapolation: str = "none", required=REQUIRED_
     Spectra
         (1, n), uniform 1 or 5 nm, covering ``required``; ``notes`` say
         what was done.
+
+    References
+    ----------
+    CIE 167:2005 (resampling, constant extrapolation).
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.2.
+    docs/methods.md §17.
     """
     _check_light(spd)
     if extrapolation not in ("none", "constant"):
@@ -236,6 +242,16 @@ def planckian_spd(wavelengths, temperature: float) -> np.ndarray:
     """Relative SPD (n,) of a Planckian radiator at ``temperature`` K, 100 at 560 nm.
 
     M(λ) ∝ λ⁻⁵ / (exp(c₂ / (λT)) − 1) with c₂ = 1.4388×10⁷ nm·K (CIE 15:2004).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed. (c₂ = 1.4388×10⁻² m·K).
+    docs/methods.md §2.
+
+    Examples
+    --------
+    >>> planckian_spd([560.0], 2856.0).tolist()
+    [100.0]
     """
     T = float(temperature)
     if not (T > 0 and math.isfinite(T)):
@@ -268,6 +284,11 @@ def daylight_spd(wavelengths, cct: float) -> np.ndarray:
     table is; from memory). colour-science's ``sd_CIE_illuminant_D_series``
     with a ``shape`` interpolates the basis by Sprague instead; the two
     agree at the 5 nm points.
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 3.1.
+    docs/methods.md §2.
     """
     T = float(cct)
     lo, hi = DAYLIGHT_CCT_RANGE
@@ -296,6 +317,17 @@ def reference_illuminant(cct: float, wavelengths, *, daylight_from: float = CIE_
 
     Planckian below ``daylight_from`` (5000 K, CIE 13.3-1995; 4000 K for
     the Academy SSI), CIE daylight at and above (up to 25000 K).
+
+    References
+    ----------
+    CIE 13.3-1995, *Method of measuring and specifying colour rendering
+    properties of light sources*.
+    docs/methods.md §17.
+
+    Examples
+    --------
+    >>> reference_illuminant(4000.0, [560.0])[0], reference_illuminant(6500.0, [560.0])[0]
+    ('Planckian 4000 K', 'CIE daylight 6500 K')
     """
     T = float(cct)
     if not math.isfinite(T) or T <= 0:

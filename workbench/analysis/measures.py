@@ -63,6 +63,12 @@ def orthonormal_basis(m, *, what: str = "matrix") -> np.ndarray:
     WorkbenchError
         When the three columns are linearly dependent (to 1e-10 relative),
         e.g. a dead channel, because the projector is then not of rank 3.
+
+    References
+    ----------
+    Golub, G. H. & Van Loan, C. F. (2013). *Matrix Computations*, 4th ed.,
+    § 5.2 (QR factorisation).
+    docs/methods.md §8.
     """
     q, r = np.linalg.qr(m)
     d = np.abs(np.diagonal(r, axis1=-2, axis2=-1))
@@ -98,6 +104,14 @@ def vora_value(S, X, illuminant_rec=None, illuminant_view=None):
     of Color Science and Technology*, "Vora value"). It is the mean squared
     cosine of the three principal angles between the two column spaces,
     independent of any sample set and of the scale of each channel.
+
+    References
+    ----------
+    Vora, P. L. & Trussell, H. J. (1993). Measure of goodness of a set of
+    color-scanning filters. *JOSA A* 10(7), 1499-1508.
+    Vora, P. L. (2016). Vora value. In *Encyclopedia of Color Science and
+    Technology*. Springer.
+    docs/methods.md §8.
 
     Examples
     --------
@@ -138,6 +152,20 @@ def neugebauer_q(S, X, illuminant_rec=None, illuminant_view=None):
     q = ‖Q_Aᵀ m‖² / ‖m‖² (Neugebauer, *JOSA* 46:821, 1956 — the citation
     is from memory; the concept is the squared cosine between the channel
     and the space of colour-matching functions).
+
+    References
+    ----------
+    Neugebauer, H. E. J. (1956). Quality factor for filters whose spectral
+    transmittances are different from color mixture curves. *JOSA* 46(10),
+    821-824 (citation from memory).
+    docs/methods.md §8.
+
+    Examples
+    --------
+    >>> from workbench.colorimetry.cie import cmfs_on
+    >>> X = cmfs_on(np.arange(400.0, 701.0, 10.0)).values
+    >>> neugebauer_q(X, X).round(12).tolist()  # each CIE function lies in the CIE space
+    [1.0, 1.0, 1.0]
     """
     M = _weight(_as_matrix(S, "S"), illuminant_rec, "illuminant_rec")
     A = _weight(_as_matrix(X, "X"), illuminant_view, "illuminant_view")

@@ -97,6 +97,12 @@ def srgb_encode(linear) -> np.ndarray:
 
     >>> srgb_encode([0.0, 0.18, 1.0]).round(4).tolist()
     [0.0, 0.4614, 1.0]
+
+    References
+    ----------
+    IEC 61966-2-1:1999, *Multimedia systems and equipment - Colour measurement
+    and management - Part 2-1: Default RGB colour space - sRGB*.
+    docs/methods.md §19.
     """
     L = np.asarray(linear, dtype=float)
     with np.errstate(invalid="ignore"):
@@ -109,6 +115,16 @@ def to_srgb8(linear) -> np.ndarray:
 
     Clipped to 0-1, encoded by :func:`srgb_encode`, × 255 and rounded to the
     nearest code; NaN becomes 0.
+
+    References
+    ----------
+    IEC 61966-2-1:1999.
+    docs/methods.md §19.
+
+    Examples
+    --------
+    >>> to_srgb8([0.18, 1.0, 0.0]).tolist()  # 18 % grey is code 118
+    [118, 255, 0]
     """
     L = np.clip(np.nan_to_num(np.asarray(linear, dtype=float), nan=0.0), 0.0, 1.0)
     return np.rint(srgb_encode(L) * 255.0).astype(np.uint8)

@@ -98,6 +98,12 @@ def distribution(x) -> dict:
 
     Percentiles by linear interpolation between order statistics (numpy's
     default, Hyndman & Fan type 7); ``std`` with ddof = 1 (0 for one value).
+
+    References
+    ----------
+    Hyndman, R. J. & Fan, Y. (1996). Sample quantiles in statistical packages.
+    *Am. Stat.* 50(4), 361-365 (type 7).
+    docs/methods.md §16.
     """
     x = np.asarray(x, dtype=float).ravel()
     if x.size == 0:
@@ -114,6 +120,18 @@ def wilson_interval(passed: int, n: int, z: float = _Z95) -> tuple[float, float]
     """Wilson score interval of a proportion ``passed``/``n`` (default 95 %).
 
     (p̂ + z²/2n ± z√(p̂(1−p̂)/n + z²/4n²)) / (1 + z²/n) (Wilson 1927).
+
+    References
+    ----------
+    Wilson, E. B. (1927). Probable inference, the law of succession, and
+    statistical inference. *J. Am. Stat. Assoc.* 22, 209-212.
+    Newcombe, R. G. (1998). *Stat. Med.* 17, 857-872.
+    docs/methods.md §16.
+
+    Examples
+    --------
+    >>> [round(v, 4) for v in wilson_interval(81, 263)]  # Newcombe (1998), from memory
+    [0.2553, 0.3662]
     """
     if n <= 0:
         return (math.nan, math.nan)
@@ -142,6 +160,13 @@ def correlation_ratio(X, y, bins: int | None = None, *, corrected: bool = False)
     in Kelley's ε²: (SS_between − (k − 1)·SS_within/(N − k)) / SS_total, so
     a parameter without effect scores about 0 (a small negative value is
     sampling noise) instead of about (k − 1)/(N − 1).
+
+    References
+    ----------
+    McKay, M. D. (1995). *Evaluating Prediction Uncertainty*. NUREG/CR-6311.
+    Kelley, T. L. (1935). An unbiased correlation ratio measure. *PNAS* 21, 554-559.
+    Saltelli, A. et al. (2008). *Global Sensitivity Analysis. The Primer*. Wiley, ch. 1.
+    docs/methods.md §16.
     """
     X = np.atleast_2d(np.asarray(X, dtype=float))
     y = np.asarray(y, dtype=float)
@@ -173,6 +198,12 @@ def standardized_regression(X, y) -> tuple[np.ndarray, float]:
 
     SRC_i = b_i·σ(X_i)/σ(y) of the least-squares fit y ≈ b₀ + Σ b_i X_i
     (Saltelli et al. 2008, ch. 1). NaN when y does not vary.
+
+    References
+    ----------
+    Saltelli, A. et al. (2008). *Global Sensitivity Analysis. The Primer*.
+    Wiley, ch. 1.
+    docs/methods.md §16.
     """
     X = np.atleast_2d(np.asarray(X, dtype=float))
     y = np.asarray(y, dtype=float)

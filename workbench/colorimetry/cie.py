@@ -147,7 +147,20 @@ def _cmfs_on(key: bytes, observer: str) -> Tabulated:
 
 
 def cmfs_on(wavelengths, observer="2") -> Tabulated:
-    """The colour-matching functions on ``wavelengths`` (nm) as ``(n, 3)``; see module notes."""
+    """The colour-matching functions on ``wavelengths`` (nm) as ``(n, 3)``; see module notes.
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 4 (the standard observers).
+    CIE 167:2005 (Sprague between tabulated points).
+    docs/methods.md §2.
+
+    Examples
+    --------
+    >>> cm = cmfs_on([555.0, 600.0, 650.0])
+    >>> cm.values.round(4).tolist()  # the CIE 1931 2° table at whole nanometres
+    [[0.5121, 1.0, 0.0057], [1.0622, 0.631, 0.0008], [0.2835, 0.107, 0.0]]
+    """
     wl = check_wavelengths(wavelengths)
     return _cmfs_on(wl.tobytes(), observer_key(observer))
 
@@ -221,6 +234,16 @@ def illuminant_A(wavelengths) -> np.ndarray:
     -----
     S_A(λ) = 100 (560/λ)^5 (exp(c₂/(2848·560)) − 1) / (exp(c₂/(2848·λ)) − 1),
     c₂ = 1.435e7 nm·K (CIE 15:2004, Eq. 2.1).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., Eq. 2.1.
+    docs/methods.md §2.
+
+    Examples
+    --------
+    >>> illuminant_A([560.0]).tolist()
+    [100.0]
     """
     wl = np.asarray(wavelengths, dtype=float)
     c2 = 1.435e7
@@ -338,6 +361,12 @@ def illuminant_on(wavelengths, illuminant, *, interpolation: str = "linear") -> 
     name : str
     table : Tabulated
         ``values`` (n,) and the note on how they were put on the grid.
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 3.
+    CIE 167:2005 (constant extrapolation).
+    docs/methods.md §2.
     """
     wl = check_wavelengths(wavelengths)
     if isinstance(illuminant, Spectra):

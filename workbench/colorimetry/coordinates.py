@@ -58,6 +58,11 @@ def XYZ_to_xy(XYZ) -> np.ndarray:
 
     >>> XYZ_to_xy([95.047, 100.0, 108.883]).round(5).tolist()
     [0.31273, 0.32902]
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.3.
+    docs/methods.md §4.
     """
     XYZ = _last3(XYZ, "XYZ")
     s = XYZ.sum(axis=-1, keepdims=True)
@@ -67,7 +72,13 @@ def XYZ_to_xy(XYZ) -> np.ndarray:
 
 
 def xy_to_XYZ(xy, Y=100.0) -> np.ndarray:
-    """XYZ (..., 3) with luminance ``Y`` from chromaticity ``xy`` (..., 2)."""
+    """XYZ (..., 3) with luminance ``Y`` from chromaticity ``xy`` (..., 2).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.3.
+    docs/methods.md §4.
+    """
     xy = _last2(xy, "xy")
     x, y = xy[..., 0], xy[..., 1]
     Y = np.broadcast_to(np.asarray(Y, dtype=float), x.shape)
@@ -79,6 +90,11 @@ def XYZ_to_uv_prime(XYZ) -> np.ndarray:
     """CIE 1976 UCS chromaticity (u′, v′) of ``XYZ`` (..., 3) → (..., 2).
 
     u′ = 4X / (X + 15Y + 3Z), v′ = 9Y / (X + 15Y + 3Z) (CIE 15:2004 § 8.1).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 8.1.
+    docs/methods.md §4.
     """
     XYZ = _last3(XYZ, "XYZ")
     X, Y, Z = XYZ[..., 0], XYZ[..., 1], XYZ[..., 2]
@@ -89,7 +105,18 @@ def XYZ_to_uv_prime(XYZ) -> np.ndarray:
 
 
 def xy_to_uv_prime(xy) -> np.ndarray:
-    """(u′, v′) from (x, y): u′ = 4x/(−2x + 12y + 3), v′ = 9y/(−2x + 12y + 3)."""
+    """(u′, v′) from (x, y): u′ = 4x/(−2x + 12y + 3), v′ = 9y/(−2x + 12y + 3).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 8.1.
+    docs/methods.md §4.
+
+    Examples
+    --------
+    >>> xy_to_uv_prime([0.3127, 0.3290]).round(4).tolist()  # D65
+    [0.1978, 0.4683]
+    """
     xy = _last2(xy, "xy")
     x, y = xy[..., 0], xy[..., 1]
     d = -2 * x + 12 * y + 3
@@ -97,7 +124,13 @@ def xy_to_uv_prime(xy) -> np.ndarray:
 
 
 def uv_prime_to_xy(uv) -> np.ndarray:
-    """(x, y) from (u′, v′): x = 9u′/(6u′ − 16v′ + 12), y = 4v′/(6u′ − 16v′ + 12)."""
+    """(x, y) from (u′, v′): x = 9u′/(6u′ − 16v′ + 12), y = 4v′/(6u′ − 16v′ + 12).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 8.1.
+    docs/methods.md §4.
+    """
     uv = _last2(uv, "u'v'")
     u, v = uv[..., 0], uv[..., 1]
     d = 6 * u - 16 * v + 12
@@ -105,7 +138,13 @@ def uv_prime_to_xy(uv) -> np.ndarray:
 
 
 def delta_uv_prime(uv_1, uv_2) -> np.ndarray:
-    """Euclidean distance Δu′v′ between chromaticities (..., 2) → (...)."""
+    """Euclidean distance Δu′v′ between chromaticities (..., 2) → (...).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 8.1.
+    docs/methods.md §4.
+    """
     a = _last2(uv_1, "u'v' (first)")
     b = _last2(uv_2, "u'v' (second)")
     return np.sqrt(((a - b) ** 2).sum(axis=-1))
@@ -129,6 +168,11 @@ def XYZ_to_Lab(XYZ, white) -> np.ndarray:
 
     >>> XYZ_to_Lab([95.047, 100.0, 108.883], [95.047, 100.0, 108.883]).round(6).tolist()
     [100.0, 0.0, 0.0]
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 8.2.1.
+    docs/methods.md §4.
     """
     XYZ = _last3(XYZ, "XYZ")
     white = _last3(white, "white")
@@ -140,7 +184,13 @@ def XYZ_to_Lab(XYZ, white) -> np.ndarray:
 
 
 def Lab_to_XYZ(Lab, white) -> np.ndarray:
-    """Inverse of :func:`XYZ_to_Lab`."""
+    """Inverse of :func:`XYZ_to_Lab`.
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 8.2.1.
+    docs/methods.md §4.
+    """
     Lab = _last3(Lab, "Lab")
     white = _last3(white, "white")
     fy = (Lab[..., 0] + 16) / 116
@@ -152,7 +202,18 @@ def Lab_to_XYZ(Lab, white) -> np.ndarray:
 
 
 def Lab_to_LCh(Lab) -> np.ndarray:
-    """L*, C*ab, h_ab (degrees 0-360) from L*a*b* (..., 3)."""
+    """L*, C*ab, h_ab (degrees 0-360) from L*a*b* (..., 3).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 8.2.1.
+    docs/methods.md §4.
+
+    Examples
+    --------
+    >>> Lab_to_LCh([50.0, 3.0, 4.0]).round(3).tolist()
+    [50.0, 5.0, 53.13]
+    """
     Lab = _last3(Lab, "Lab")
     C = np.hypot(Lab[..., 1], Lab[..., 2])
     h = np.degrees(np.arctan2(Lab[..., 2], Lab[..., 1])) % 360
@@ -174,6 +235,15 @@ def delta_E_CIE2000(Lab_1, Lab_2, *, k_L: float = 1.0, k_C: float = 1.0, k_H: fl
 
     >>> float(delta_E_CIE2000([50.0, 2.6772, -79.7751], [50.0, 0.0, -82.7485]).round(4))
     2.0425
+
+    References
+    ----------
+    CIE 142-2001, *Improvement to industrial colour-difference evaluation*;
+    ISO/CIE 11664-6:2014.
+    Sharma, G., Wu, W. & Dalal, E. N. (2005). The CIEDE2000 color-difference
+    formula: implementation notes, supplementary test data, and mathematical
+    observations. *Color Res. Appl.* 30(1), 21-30 (Table 1: the test pairs).
+    docs/methods.md §4.
     """
     x1 = _last3(Lab_1, "Lab_1")
     x2 = _last3(Lab_2, "Lab_2")

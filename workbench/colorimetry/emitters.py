@@ -71,6 +71,11 @@ def band_values(shape: str, wavelengths, peak_nm, width_nm, amplitude=1.0) -> np
 
     >>> float(band_values('gaussian-wavenumber', [500.0, 530.0, 560.0], 530.0, 60.0)[1])
     1.0
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., §§ 7, 8.1.
+    docs/methods.md §6.
     """
     if shape not in BAND_SHAPES:
         raise WorkbenchError(f"band shape must be one of {', '.join(BAND_SHAPES)} (got {shape!r})")
@@ -361,6 +366,14 @@ def fit_emitter_set(emitters, target: Primaries, wavelengths, *, observer="2",
     (``scipy.optimize.least_squares``, method 'trf'), with
     r = (u′v′ᵢ − u′v′ᵢ,target for i = R, G, B; u′v′_mix − u′v′_white;
     w_Y (Y_mix/Y_target − 1)), u′v′ from XYZ = Σ S x̄ȳz̄ Δλ (CIE 15:2004).
+
+    References
+    ----------
+    Branch, M. A., Coleman, T. F. & Li, Y. (1999). A subspace, interior, and
+    conjugate gradient method for large-scale bound-constrained minimization
+    problems. *SIAM J. Sci. Comput.* 21(1), 1-23.
+    CIE 15:2004, *Colorimetry*, 3rd ed., §§ 7, 8.1.
+    docs/methods.md §6.
     """
     emitters = tuple(emitters)
     if len(emitters) != 3 or not all(isinstance(e, Emitter) for e in emitters):

@@ -63,6 +63,13 @@ def clip_polygon_sutherland_hodgman(subject, clip) -> np.ndarray:
 
     Returns the intersection's vertices (j, 2), possibly empty (0, 2).
     Either orientation is accepted; ``clip`` must be convex (a triangle is).
+
+    References
+    ----------
+    Sutherland, I. E. & Hodgman, G. W. (1974). Reentrant polygon clipping.
+    *Comm. ACM* 17(1), 32-42.
+    CIE 15:2004, *Colorimetry*, 3rd ed., §§ 7.3, 8.1.
+    docs/methods.md §5.
     """
     out = np.asarray(subject, dtype=float)
     c = np.asarray(clip, dtype=float)
@@ -112,7 +119,20 @@ def gamut_vertices(primaries: Primaries, diagram: str = "xy") -> np.ndarray:
 
 
 def gamut_area(primaries: Primaries, diagram: str = "xy") -> float:
-    """Area of the primaries' triangle in the xy or u′v′ diagram (chromaticity units²)."""
+    """Area of the primaries' triangle in the xy or u′v′ diagram (chromaticity units²).
+
+    References
+    ----------
+    Sutherland, I. E. & Hodgman, G. W. (1974). Reentrant polygon clipping.
+    *Comm. ACM* 17(1), 32-42.
+    CIE 15:2004, *Colorimetry*, 3rd ed., §§ 7.3, 8.1.
+    docs/methods.md §5.
+
+    Examples
+    --------
+    >>> round(gamut_area(PRIMARIES["ITU-R BT.709"], "xy"), 5)  # from the BT.709-6 chromaticities
+    0.11205
+    """
     return polygon_area(gamut_vertices(primaries, diagram))
 
 
@@ -121,6 +141,13 @@ def gamut_coverage(primaries: Primaries, reference: Primaries, diagram: str = "x
 
     coverage = area(T_primaries ∩ T_reference) / area(T_reference), in the
     chosen diagram.
+
+    References
+    ----------
+    Sutherland, I. E. & Hodgman, G. W. (1974). Reentrant polygon clipping.
+    *Comm. ACM* 17(1), 32-42.
+    CIE 15:2004, *Colorimetry*, 3rd ed., §§ 7.3, 8.1.
+    docs/methods.md §5.
     """
     d = _diagram(diagram)
     ref = gamut_vertices(reference, d)
@@ -132,7 +159,15 @@ def gamut_coverage(primaries: Primaries, reference: Primaries, diagram: str = "x
 
 
 def coverage_of_named_sets(primaries: Primaries) -> dict[str, dict[str, float]]:
-    """``{set name: {'xy': coverage, 'uv': coverage}}`` for every named set."""
+    """``{set name: {'xy': coverage, 'uv': coverage}}`` for every named set.
+
+    References
+    ----------
+    Sutherland, I. E. & Hodgman, G. W. (1974). Reentrant polygon clipping.
+    *Comm. ACM* 17(1), 32-42.
+    CIE 15:2004, *Colorimetry*, 3rd ed., §§ 7.3, 8.1.
+    docs/methods.md §5.
+    """
     return {
         name: {d: gamut_coverage(primaries, ref, d) for d in DIAGRAMS}
         for name, ref in PRIMARIES.items()

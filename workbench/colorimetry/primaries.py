@@ -106,6 +106,11 @@ def matrix_RGB_to_XYZ_RP177(primaries_xy, white_xy) -> np.ndarray:
     W = (x_w/y_w, 1, z_w/y_w); C = P⁻¹W; NPM = P·diag(C) (SMPTE RP 177-1993,
     § 3.3). The second row is the luminance coefficients.
 
+    References
+    ----------
+    SMPTE RP 177-1993, *Derivation of Basic Television Color Equations*.
+    docs/methods.md §5.
+
     Examples
     --------
     >>> M = matrix_RGB_to_XYZ_RP177([[0.64, 0.33], [0.30, 0.60], [0.15, 0.06]], [0.3127, 0.3290])
@@ -126,7 +131,13 @@ def matrix_RGB_to_XYZ_RP177(primaries_xy, white_xy) -> np.ndarray:
 
 
 def matrix_XYZ_to_RGB_RP177(primaries_xy, white_xy) -> np.ndarray:
-    """Inverse of :func:`matrix_RGB_to_XYZ_RP177`: XYZ (white Y = 1) → linear RGB, (3, 3)."""
+    """Inverse of :func:`matrix_RGB_to_XYZ_RP177`: XYZ (white Y = 1) → linear RGB, (3, 3).
+
+    References
+    ----------
+    SMPTE RP 177-1993, *Derivation of Basic Television Color Equations*.
+    docs/methods.md §5.
+    """
     return np.linalg.inv(matrix_RGB_to_XYZ_RP177(primaries_xy, white_xy))
 
 
@@ -137,6 +148,11 @@ def luminance_coefficients(primaries_xy, white_xy) -> np.ndarray:
 
     >>> luminance_coefficients([[0.67, 0.33], [0.21, 0.71], [0.14, 0.08]], [0.31006, 0.31616]).round(3).tolist()
     [0.299, 0.587, 0.114]
+
+    References
+    ----------
+    SMPTE RP 177-1993, *Derivation of Basic Television Color Equations*.
+    docs/methods.md §5.
     """
     return matrix_RGB_to_XYZ_RP177(primaries_xy, white_xy)[1].copy()
 
@@ -268,6 +284,17 @@ def primaries_named(name: str) -> Primaries:
     """A named standard set; spelling is loose ('ITU-R-BT.709', 'bt709', 'DCI-P3').
 
     Raises :class:`WorkbenchError` listing the names when ``name`` is unknown.
+
+    References
+    ----------
+    ITU-R BT.709-6 (2015); ITU-R BT.2020-2 (2015); EBU Tech. 3213-E (1975);
+    ITU-R BT.470-6 (NTSC 1953); SMPTE RP 431-2:2011; SMPTE RP 145 / 170M-2004.
+    docs/methods.md §5.
+
+    Examples
+    --------
+    >>> primaries_named("ITU-R BT.709").luminance_coefficients.round(4).tolist()  # BT.709-6 item 3.2
+    [0.2126, 0.7152, 0.0722]
     """
     key = _squash(str(name))
     for canonical in PRIMARIES:
@@ -302,6 +329,11 @@ def white_chromaticity(white, *, observer="2") -> tuple[str, np.ndarray]:
     Named illuminants take the chromaticities colour-science tabulates
     (CIE 15:2004, Table T.3; D65 to four digits, 0.3127/0.3290); the DCI
     white is (0.314, 0.351) (SMPTE RP 431-2).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.3 and its tables of illuminant chromaticities.
+    docs/methods.md §3.
     """
     if isinstance(white, str):
         text = white.strip()
@@ -326,7 +358,13 @@ def white_chromaticity(white, *, observer="2") -> tuple[str, np.ndarray]:
 
 
 def primaries_from_xy(xy, white="D65", *, name: str = "custom", observer="2") -> Primaries:
-    """Primaries from chromaticities (3, 2) and a white (name or x, y)."""
+    """Primaries from chromaticities (3, 2) and a white (name or x, y).
+
+    References
+    ----------
+    SMPTE RP 177-1993, *Derivation of Basic Television Color Equations*.
+    docs/methods.md §5.
+    """
     wname, w = white_chromaticity(white, observer=observer)
     return Primaries(_xy_array(xy), w, wname, name, "chromaticities as given")
 
@@ -371,6 +409,12 @@ def primaries_from_emitters(spectra: Spectra, observer="2", *, white="D65", name
     -------
     Primaries
         x, y of each emitter (CIE 15:2004 § 7: X = Σ S x̄ Δλ, x = X/(X+Y+Z)).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7 (emitter XYZ).
+    SMPTE RP 177-1993, *Derivation of Basic Television Color Equations*.
+    docs/methods.md §5.
     """
     XYZ, _, notes = _emitter_XYZ(spectra, observer)
     wname, w = white_chromaticity(white, observer=observer)
@@ -430,6 +474,12 @@ def drive_levels_for_white(spectra: Spectra, white="D65", luminance: float = 100
     -----
     Solve Σ dᵢ XYZᵢ = XYZ_w with XYZ_w = (x_w/y_w, 1, z_w/y_w)·Y_w; the
     levels are linear in drive (additive mixing, no emitter non-linearity).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.
+    SMPTE RP 177-1993, *Derivation of Basic Television Color Equations*.
+    docs/methods.md §5.
     """
     if not (np.isfinite(luminance) and luminance > 0):
         raise WorkbenchError(f"luminance must be a positive number (got {luminance})")

@@ -82,6 +82,12 @@ def tcs_cie_13_3(wavelengths, *, extrapolation="none") -> Spectra:
     Spectra
         ``values`` (14, n), names ``TCS01`` ... ``TCS14``.
 
+    References
+    ----------
+    CIE 13.3-1995, *Method of measuring and specifying colour rendering
+    properties of light sources* (TCS01-TCS14).
+    docs/methods.md §17.
+
     Examples
     --------
     >>> s = tcs_cie_13_3(np.arange(400.0, 701.0, 10.0))
@@ -97,6 +103,12 @@ def ces_cie_224(wavelengths, *, extrapolation="none") -> Spectra:
 
     The 5 nm table is used when every grid point is a multiple of 5 nm, the
     1 nm table otherwise. Names ``CES01`` ... ``CES99``.
+
+    References
+    ----------
+    CIE 224:2017, *CIE 2017 colour fidelity index for accurate scientific use*
+    (the 99 colour evaluation samples).
+    docs/methods.md §17.
     """
     wl = check_wavelengths(wavelengths)
     step = 5 if np.all(np.mod(wl, 5.0) == 0) else 1

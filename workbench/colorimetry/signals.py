@@ -65,7 +65,14 @@ _BAR_RGB = {
 
 
 def luma_coefficients_of(system) -> tuple[str, np.ndarray]:
-    """(label, (K_R, K_G, K_B)) of a system name, a Primaries set or three numbers."""
+    """(label, (K_R, K_G, K_B)) of a system name, a Primaries set or three numbers.
+
+    References
+    ----------
+    ITU-R BT.601-7 (2011) § 2.5; ITU-R BT.709-6 (2015) Part 2, items 3.2-3.3;
+    ITU-R BT.2020-2 (2015) Table 4.
+    docs/methods.md §7.
+    """
     if isinstance(system, Primaries):
         return f"{system.name} (RP 177)", system.luminance_coefficients
     if isinstance(system, str):
@@ -92,25 +99,62 @@ def _rgb(RGB_prime) -> np.ndarray:
 
 
 def luma(RGB_prime, system="BT.709") -> np.ndarray:
-    """Luma Y′ (...) of R′G′B′ (..., 3): Y′ = K_R R′ + K_G G′ + K_B B′."""
+    """Luma Y′ (...) of R′G′B′ (..., 3): Y′ = K_R R′ + K_G G′ + K_B B′.
+
+    References
+    ----------
+    ITU-R BT.601-7 (2011) § 2.5; ITU-R BT.709-6 (2015) Part 2, items 3.2-3.3;
+    ITU-R BT.2020-2 (2015) Table 4.
+    docs/methods.md §7.
+
+    Examples
+    --------
+    >>> round(float(luma([1.0, 1.0, 0.0], "BT.601")), 3)  # 100 % yellow (ITU-R BT.801-1)
+    0.886
+    """
     return _rgb(RGB_prime) @ luma_coefficients_of(system)[1]
 
 
 def colour_difference_signals(RGB_prime, system="BT.709") -> np.ndarray:
-    """(Y′, B′−Y′, R′−Y′) as (..., 3) from R′G′B′ (..., 3)."""
+    """(Y′, B′−Y′, R′−Y′) as (..., 3) from R′G′B′ (..., 3).
+
+    References
+    ----------
+    ITU-R BT.601-7 (2011) § 2.5; ITU-R BT.709-6 (2015) Part 2, items 3.2-3.3;
+    ITU-R BT.2020-2 (2015) Table 4.
+    docs/methods.md §7.
+    """
     a = _rgb(RGB_prime)
     Y = a @ luma_coefficients_of(system)[1]
     return np.stack([Y, a[..., 2] - Y, a[..., 0] - Y], axis=-1)
 
 
 def UV_PAL(RGB_prime, system="BT.601") -> np.ndarray:
-    """(Y′, U, V) (..., 3): U = 0.493 (B′−Y′), V = 0.877 (R′−Y′) (BT.470-6)."""
+    """(Y′, U, V) (..., 3): U = 0.493 (B′−Y′), V = 0.877 (R′−Y′) (BT.470-6).
+
+    References
+    ----------
+    ITU-R BT.470-6 (1998); ITU-R BT.1700 (2005).
+    docs/methods.md §7.
+    """
     d = colour_difference_signals(RGB_prime, system)
     return np.stack([d[..., 0], PAL_UV_FACTORS[0] * d[..., 1], PAL_UV_FACTORS[1] * d[..., 2]], axis=-1)
 
 
 def YCbCr(RGB_prime, system="BT.709") -> np.ndarray:
-    """(Y′, Cb, Cr) (..., 3), Cb/Cr = 0.5 (B′−Y′)/(1−K_B), 0.5 (R′−Y′)/(1−K_R)."""
+    """(Y′, Cb, Cr) (..., 3), Cb/Cr = 0.5 (B′−Y′)/(1−K_B), 0.5 (R′−Y′)/(1−K_R).
+
+    References
+    ----------
+    ITU-R BT.601-7 (2011) § 2.5; ITU-R BT.709-6 (2015) Part 2, items 3.2-3.3;
+    ITU-R BT.2020-2 (2015) Table 4.
+    docs/methods.md §7.
+
+    Examples
+    --------
+    >>> YCbCr([0.0, 0.0, 1.0], "BT.709").round(4).tolist()  # blue: Cb = +0.5
+    [0.0722, 0.5, -0.0458]
+    """
     K = luma_coefficients_of(system)[1]
     d = colour_difference_signals(RGB_prime, K)
     return np.stack([d[..., 0], 0.5 * d[..., 1] / (1 - K[2]), 0.5 * d[..., 2] / (1 - K[0])], axis=-1)
@@ -122,6 +166,17 @@ def code_values_narrow_range(YCbCr_values, bits: int = 8) -> np.ndarray:
     D_Y = round((219 Y′ + 16)·2^(n−8)), D_C = round((224 C + 128)·2^(n−8))
     (ITU-R BT.709-6 item 6.10; round half up as the standard's INT).
     Values outside the coded range are an error, never clipped.
+
+    References
+    ----------
+    ITU-R BT.601-7 (2011); ITU-R BT.709-6 (2015) item 6.10;
+    ITU-R BT.2020-2 (2015) Table 5.
+    docs/methods.md §7.
+
+    Examples
+    --------
+    >>> code_values_narrow_range([[0.0, 0.0, 0.0], [1.0, 0.5, -0.5]], 10).tolist()
+    [[64, 512, 512], [940, 960, 64]]
     """
     if bits not in (8, 10):
         raise WorkbenchError(f"bits must be 8 or 10 (got {bits})")
@@ -155,6 +210,13 @@ def colour_bars(amplitude: float = 1.0, system="BT.709", *, white_amplitude: flo
     list of dict
         Keys: bar, R', G', B', Y', B'-Y', R'-Y', U, V, Cb, Cr (signal units
         0-1), Y8, Cb8, Cr8, Y10, Cb10, Cr10 (code values).
+
+    References
+    ----------
+    ITU-R BT.601-7 (2011) § 2.5; ITU-R BT.709-6 (2015) Part 2, items 3.2-3.3;
+    ITU-R BT.2020-2 (2015) Table 4.
+    docs/methods.md §7.
+    ITU-R BT.801-1 (1995), *Test signals for digitally encoded colour television signals*.
     """
     if not (0 < amplitude <= 1):
         raise WorkbenchError(f"amplitude must be in (0, 1] (got {amplitude})")

@@ -49,6 +49,12 @@ def target_cmfs(primaries: Primaries, wavelengths, observer="2") -> Spectra:
     Notes
     -----
     r̄ḡb̄(λ) = M⁻¹ x̄ȳz̄(λ), M the RP 177 normalised primary matrix.
+
+    References
+    ----------
+    SMPTE RP 177-1993 (the matrix).
+    Luther, R. (1927). Aus dem Gebiet der Farbreizmetrik. *Z. tech. Phys.* 8, 540.
+    docs/methods.md §5.
     """
     if not isinstance(primaries, Primaries):
         raise WorkbenchError(f"primaries must be a Primaries (got {type(primaries).__name__})")
@@ -82,6 +88,12 @@ def RGB_of_emission(values, targets: Spectra) -> np.ndarray:
 
     ``targets`` are three sensitivities on a uniform grid, the same as the
     values'. Returns (..., 3).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.
+    SMPTE RP 177-1993.
+    docs/methods.md §5.
     """
     if targets.kind != "sensitivity" or len(targets) != 3:
         raise WorkbenchError("targets must be 3 sensitivity curves (from target_cmfs)")

@@ -260,6 +260,15 @@ def object_weights(wavelengths, *, illuminant="D65", observer="2", method="integ
     Weights
         ``W`` (n, 3) with ``W.sum(axis=0)`` the white XYZ (Y = 100).
 
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.
+    ASTM E308-15, *Standard Practice for Computing the Colors of Objects by Using
+    the CIE System*.
+    ASTM E2022-11, *Standard Practice for Calculation of Weighting Factors for
+    Tristimulus Integration*.
+    docs/methods.md §3.
+
     Examples
     --------
     >>> w = object_weights(grid(360, 780, 10), illuminant="D65", method="astm-e308")
@@ -282,7 +291,13 @@ def _emission_weights(key: bytes, observer: str) -> Weights:
 
 
 def emission_weights(wavelengths, *, observer="2") -> Weights:
-    """Weighting matrix x̄ȳz̄·Δλ for emission spectra (no normalisation)."""
+    """Weighting matrix x̄ȳz̄·Δλ for emission spectra (no normalisation).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.1.
+    docs/methods.md §3.
+    """
     wl = np.asarray(wavelengths, dtype=float)
     return _emission_weights(wl.tobytes(), observer_key(observer))
 
@@ -292,6 +307,12 @@ def extend_to_required(spectra: Spectra, *, required=REQUIRED_RANGE) -> Spectra:
 
     The grid keeps its step; new points repeat the nearest value (constant
     extrapolation, CIE 167:2005), and the note says which part was added.
+
+    References
+    ----------
+    CIE 167:2005 (constant extrapolation).
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.2 (380-780 nm).
+    docs/methods.md §1.
     """
     wl = spectra.wavelengths
     step = _uniform_step(wl, "data")
@@ -367,6 +388,22 @@ def tristimulus(
     Returns
     -------
     Tristimulus
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 7.
+    ASTM E308-15, *Standard Practice for Computing the Colors of Objects by Using
+    the CIE System*.
+    ASTM E2022-11, *Standard Practice for Calculation of Weighting Factors for
+    Tristimulus Integration*.
+    docs/methods.md §3.
+
+    Examples
+    --------
+    >>> wl = grid(380, 780, 5)
+    >>> t = tristimulus(Spectra(wl, np.ones(wl.size)), illuminant="D65")
+    >>> t.XYZ.round(3).tolist()  # the perfect diffuser: D65's white, 5 nm summation over 380-780 nm
+    [95.043, 100.0, 108.88]
     """
     if not isinstance(spectra, Spectra):
         raise WorkbenchError(f"spectra must be a Spectra (got {type(spectra).__name__})")

@@ -234,6 +234,14 @@ def resampling_matrix(
     M : (m, n) ndarray, read-only
     method : str
         The method actually used (``'auto'`` resolved).
+
+    References
+    ----------
+    Sprague, T. B. (1880). Explanation of a new formula for interpolation.
+    *J. Inst. Actuaries* 22, 270-285.
+    CIE 167:2005, *Recommended practice for tabulating spectral data for use
+    in colour computations*.
+    docs/methods.md §1.
     """
     x = check_wavelengths(wavelengths, what="source wavelengths")
     xt = check_wavelengths(target, what="target wavelengths", min_points=1)
@@ -272,6 +280,22 @@ def resample_values(values, wavelengths, target, *, method="auto", extrapolation
     """Resample ``values`` (..., n) from ``wavelengths`` onto ``target``.
 
     Returns ``(values, method_used)``; see :func:`resampling_matrix`.
+
+    References
+    ----------
+    Sprague, T. B. (1880). Explanation of a new formula for interpolation.
+    *J. Inst. Actuaries* 22, 270-285.
+    CIE 167:2005, *Recommended practice for tabulating spectral data for use
+    in colour computations*.
+    docs/methods.md §1.
+
+    Examples
+    --------
+    >>> x = grid(500, 600, 20)
+    >>> y = [0.0651, 0.0705, 0.0772, 0.0870, 0.1128, 0.1360]
+    >>> v, used = resample_values(y, x, [501.0, 502.0])
+    >>> used, v.round(6).tolist()  # 0.0653522, 0.0656105 in colour-science's SpragueInterpolator docs
+    ('sprague', [0.065352, 0.065611])
     """
     M, used = resampling_matrix(wavelengths, target, method=method, extrapolation=extrapolation)
     v = np.asarray(values, dtype=float)

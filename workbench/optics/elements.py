@@ -120,6 +120,13 @@ def angle_shift_factor(theta_deg, n_eff, n0=1.0):
     λ(θ) = λ₀ √(1 − (n₀ sinθ / n_eff)²) (Smith, *Modern Optical Engineering*,
     4th ed., Ch. 11). A shortcut for the characteristic-matrix calculation,
     good at small to moderate tilt.
+
+    References
+    ----------
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed., Ch. 11.
+    Macleod, H. A. (2010). *Thin-Film Optical Filters*, 4th ed., chapter on
+    tilted coatings.
+    docs/methods.md §14.
     """
     s = _arr(n0) * np.sin(np.radians(_arr(theta_deg))) / _arr(n_eff)
     arg = 1.0 - s * s
@@ -138,6 +145,11 @@ def angle_shifted_wavelength(lambda0_nm, theta_deg, n_eff, n0=1.0):
 
     >>> round(float(angle_shifted_wavelength(550.0, 20.0, 1.8)), 1)
     540.0
+
+    References
+    ----------
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed., Ch. 11.
+    docs/methods.md §14.
     """
     return _arr(lambda0_nm) * angle_shift_factor(theta_deg, n_eff, n0)
 
@@ -157,13 +169,31 @@ def reflection_factor(n):
     -----
     From the exact form with τ = 1: (1−R)²/(1−R²) = (1−R)/(1+R) = 2n/(n²+1),
     R = ((n−1)/(n+1))² at normal incidence (Smith, Eqs. 10.2-10.6; TIE-35).
+
+    References
+    ----------
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed., Eqs. 10.2-10.6.
+    SCHOTT Technical Information TIE-35, *Transmittance of optical glass*.
+    docs/methods.md §14.
     """
     n = _arr(n)
     return 2.0 * n / (n * n + 1.0)
 
 
 def surface_reflectance(n):
-    """Normal-incidence Fresnel reflectance R = ((n−1)/(n+1))² of one glass-air surface."""
+    """Normal-incidence Fresnel reflectance R = ((n−1)/(n+1))² of one glass-air surface.
+
+    References
+    ----------
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed., Eqs. 10.2-10.6.
+    SCHOTT Technical Information TIE-35, *Transmittance of optical glass*.
+    docs/methods.md §14.
+
+    Examples
+    --------
+    >>> round(float(surface_reflectance(1.52)), 5)  # uncoated glass
+    0.04258
+    """
     n = _arr(n)
     return ((n - 1.0) / (n + 1.0)) ** 2
 
@@ -182,6 +212,12 @@ def internal_transmittance_at(tau0, d0_mm, d_mm):
     -------
     (..., n) ndarray
         τ(d) = τ(d₀)^(d/d₀).
+
+    References
+    ----------
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed., Eqs. 10.2-10.6.
+    SCHOTT Technical Information TIE-35, *Transmittance of optical glass*.
+    docs/methods.md §14.
     """
     ratio = _arr(d_mm) / _arr(d0_mm)
     return np.power(_arr(tau0), ratio[..., None])
@@ -241,6 +277,12 @@ def glass_transmittance(measured, measured_mm, thickness_mm, refractive_index=1.
     *Modern Optical Engineering*, Eqs. 10.2-10.6; SCHOTT TIE-35). The
     published example: T(1 mm) = 59.8 % with P_d = 0.911 gives 36.1 % at
     2.2 mm.
+
+    References
+    ----------
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed., Eqs. 10.2-10.6.
+    SCHOTT Technical Information TIE-35, *Transmittance of optical glass*.
+    docs/methods.md §14.
 
     Examples
     --------
@@ -313,6 +355,10 @@ def edge(wl, center_nm, width_nm, *, kind="long-pass", shape="logistic",
     (..., n) ndarray
         T(λ) = block + (pass − block)·f(±(λ − centre)).
 
+    References
+    ----------
+    docs/methods.md §14 (a parametric model of an edge, not a coating; common practice).
+
     Examples
     --------
     >>> T = edge([590.0, 600.0, 610.0], 600.0, 20.0)
@@ -339,6 +385,10 @@ def band_pass(wl, low_nm, high_nm, width_nm, *, shape="logistic", pass_level=1.0
 
     T(λ) = block + (pass − block)·f(λ − low)·f(high − λ); ``width_nm`` is the
     10-90 % width of each edge. Shapes as for :func:`edge`.
+
+    References
+    ----------
+    docs/methods.md §14.
     """
     _choice(shape, EDGE_SHAPES, "edge shape")
     wl = _arr(wl)
@@ -352,7 +402,19 @@ def band_pass(wl, low_nm, high_nm, width_nm, *, shape="logistic", pass_level=1.0
 
 
 def neutral_density(wl, density):
-    """Flat transmittance 10^(−D) of a neutral density filter of optical density ``density`` (...)."""
+    """Flat transmittance 10^(−D) of a neutral density filter of optical density ``density`` (...).
+
+    References
+    ----------
+    ISO 5-2:2009, *Photography and graphic technology - Density measurements -
+    Part 2: Geometric conditions for transmittance density* (D = −log₁₀ T).
+    docs/methods.md §14.
+
+    Examples
+    --------
+    >>> neutral_density([500.0, 600.0], 0.3).round(4).tolist()
+    [0.5012, 0.5012]
+    """
     d = _arr(density)[..., None]
     return np.broadcast_to(10.0 ** (-d), d.shape[:-1] + (np.size(wl),)).copy()
 
@@ -382,6 +444,13 @@ def colour_correction(wl, mired_shift, *, peak_level=1.0):
     Planckian at T₂ (up to scale): P(λ,T₂)/P(λ,T₁) = exp(−c₂/λ·(1/T₂ − 1/T₁)),
     c₂ = 1.4388×10⁷ nm·K (CIE 15:2004). The mired scale is common practice
     for colour-correction filters.
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed. (c₂).
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed. (colour-correction filters; the mired scale is
+    common practice).
+    docs/methods.md §14.
     """
     wl = _arr(wl)
     mu = _arr(mired_shift)[..., None]
@@ -404,6 +473,12 @@ def cone_quadrature(rings: int = 4, azimuths: int = 8):
     (``rings`` nodes) times the periodic trapezoid rule in φ (``azimuths``
     nodes), exact for polynomials in u of degree 2·rings − 1 and for
     trigonometric polynomials in φ of degree < azimuths.
+
+    References
+    ----------
+    Abramowitz, M. & Stegun, I. A. (1964). *Handbook of Mathematical
+    Functions*, § 25.4.29 (Gauss-Legendre).
+    docs/methods.md §14.
     """
     if rings < 1 or azimuths < 1:
         raise WorkbenchError(f"cone quadrature needs rings >= 1 and azimuths >= 1 (got {rings}, {azimuths})")
@@ -530,6 +605,13 @@ def dichroic_splitter(
     weights, :func:`cone_quadrature`) and over s and p. The two surfaces
     are taken to tilt in the same plane and sense, so a ray meets both with
     the same pupil coordinates, and s stays s between them.
+
+    References
+    ----------
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed., Ch. 11.
+    Macleod, H. A. (2010). *Thin-Film Optical Filters*, 4th ed., chapter on
+    tilted coatings (s and p).
+    docs/methods.md §14.
     """
     _choice(order, SPLITTER_ORDERS, "order")
     _choice(shape, EDGE_SHAPES, "edge shape")
