@@ -1,0 +1,64 @@
+"""From an idealised edge to a layer recipe: the starting stack and its refinement."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from workbench.analysis.recipe import refine_recipe, starting_stack
+from workbench.errors import WorkbenchError
+from workbench.optics.elements import edge
+from workbench.optics.thinfilm import stack_response, stop_band_edges
+
+
+class TestStartingStack:
+    @pytest.mark.parametrize("reflects, side, first", [("short", 1, "L"), ("long", 0, "H")])
+    def test_edge_lands_where_asked(self, reflects, side, first):
+        """The unpolarised 50 % point of the synthesised stack at 30° in glass is the asked edge."""
+        rec = starting_stack(560.0, reflects=reflects, periods=8, aoi_deg=30.0, incident="crown-517",
+                             substrate="crown-517")
+        assert rec.symbols[0] == first and len(rec.symbols) == 17
+        wl = np.arange(420.0, 780.0, 0.05)
+        # independent check through the engine itself, s and p averaged by hand
+        res = stack_response(rec.indices(wl), rec.thicknesses_nm, wl, 30.0,
+                             incident=rec.incident.index(wl).real, substrate=rec.substrate.index(wl))
+        assert stop_band_edges(wl, res.R_mean[0])[side] == pytest.approx(560.0, abs=0.05)
+
+    def test_symmetric_period_thicknesses(self):
+        """(0.5L H 0.5L)^N: outer L layers are half QWOTs, inner ones whole QWOTs, H whole QWOTs."""
+        rec = starting_stack(500.0, reflects="short", periods=4)
+        q = rec.qwots()
+        # H. A. Macleod, Thin-Film Optical Filters, 4th ed. (2010), ch. 6, symmetric periods; from memory
+        np.testing.assert_allclose(q, [0.5, 1, 1, 1, 1, 1, 1, 1, 0.5], atol=1e-12)
+        assert rec.table()[0]["material"] == "SiO2" and rec.formula().startswith("L[")
+
+    def test_rejects_bad_side(self):
+        """'reflects' must be short or long."""
+        with pytest.raises(WorkbenchError) as err:
+            starting_stack(500.0, reflects="blue")
+        assert str(err.value) == "'reflects' must be one of short, long (got 'blue')"
+
+
+class TestRefineRecipe:
+    def test_refinement_moves_towards_target(self):
+        """Refining a detuned stack to its own original curve brings the curve back (rms ↓ tenfold)."""
+        rec = starting_stack(520.0, reflects="short", periods=6, aoi_deg=20.0)
+        wl = np.arange(440.0, 640.0, 2.0)
+        target, _, _, _ = rec.response(wl)
+        rng = np.random.default_rng(4)
+        detuned = type(rec)(rec.symbols, rec.materials, rec.thicknesses_nm * rng.uniform(0.95, 1.05, len(rec.symbols)),
+                            rec.reference_nm, rec.incident, rec.substrate, rec.aoi_deg)
+        refined, report = refine_recipe(detuned, wl, target, max_evaluations=100)
+        assert report.rms_after < report.rms_before / 10
+        R, _, _, _ = refined.response(wl)
+        assert np.sqrt(np.mean((R - target) ** 2)) == pytest.approx(report.rms_after, rel=1e-6)
+
+    def test_target_edge_curve(self):
+        """Refined to an idealised 15 nm edge, the stack's 50 % point stays at the edge."""
+        rec = starting_stack(500.0, reflects="short", periods=8)
+        wl = np.arange(430.0, 650.0, 2.0)
+        target = 1.0 - edge(wl, 500.0, 15.0, kind="long-pass")
+        refined, report = refine_recipe(rec, wl, target, max_evaluations=60)
+        assert report.rms_after <= report.rms_before
+        R, _, _, _ = refined.response(np.arange(430.0, 650.0, 0.1))
+        assert stop_band_edges(np.arange(430.0, 650.0, 0.1), R)[1] == pytest.approx(500.0, abs=3.0)
