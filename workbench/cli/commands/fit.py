@@ -114,10 +114,6 @@ def run(args) -> int:
     write_spectra_csv(sens, out / "sensitivities.csv")
     atomic_write_text(out / "matrix.csv", matrix_csv(result.after))
     atomic_write_text(out / "metrics.json", to_json(metrics(result)) + "\n")
-    if not args.no_report:
-        from workbench.report.fit_report import write_fit_report
-
-        write_fit_report(result, out / "report.html")
     b, a = result.before, result.after
     header = [
         f"design: {design.name} ({design.source})",
@@ -131,7 +127,11 @@ def run(args) -> int:
              "median": a.delta_E00[ill]["median"], "p95": a.delta_E00[ill]["p95"], "max": a.delta_E00[ill]["max"]}
             for ill in a.illuminants]
     print(render_rows(rows, ["illuminant", "mean_before", "mean", "median", "p95", "max"], "table",
-                      header_lines=header))
+                      header_lines=header), flush=True)
+    if not args.no_report:  # after the summary, which needs none of it; matplotlib only imported here
+        from workbench.report.fit_report import write_fit_report
+
+        write_fit_report(result, out / "report.html")
     at = [p["name"] for p in result.parameters if p["at_bound"]]
     if at:
         notice("parameters at a bound: " + ", ".join(at))
