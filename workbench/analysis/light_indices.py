@@ -58,6 +58,18 @@ _TCS_NAMES = (
 # --------------------------------------------------------------------------
 
 
+def _colour():
+    """colour-science, imported on first use.
+
+    Late on purpose, the one place it is imported on the light path: its
+    import alone takes seconds (it loads its plotting module, matplotlib
+    and pandas), and only these published indices need it.
+    """
+    import colour
+
+    return colour
+
+
 @contextlib.contextmanager
 def quiet_colour():
     """colour-science warns on every reshape; what it assumed is said in our own notes instead."""
@@ -68,11 +80,9 @@ def quiet_colour():
 
 def colour_sd(wl: np.ndarray, values: np.ndarray, name: str):
     """A colour-science SpectralDistribution that interpolates linearly (emission lines do not ring)."""
-    import colour
-    from colour.algebra import LinearInterpolator
-
+    colour = _colour()
     return colour.SpectralDistribution(np.asarray(values, dtype=float), np.asarray(wl, dtype=float), name=name,
-                                       interpolator=LinearInterpolator)
+                                       interpolator=colour.algebra.LinearInterpolator)
 
 
 def cct_duv(XYZ: np.ndarray) -> tuple[float, float]:
@@ -93,8 +103,7 @@ def cct_duv(XYZ: np.ndarray) -> tuple[float, float]:
     >>> round(cct_duv([109.850, 100.0, 35.585])[0])  # illuminant A's white (ASTM E308), about 2856 K
     2856
     """
-    import colour
-
+    colour = _colour()
     X, Y, Z = (float(v) for v in XYZ)
     d = X + 15 * Y + 3 * Z
     uv = np.array([4 * X / d, 6 * Y / d])
@@ -215,8 +224,7 @@ class LightIndices:
 
 def _ssi_reference(ssi_reference, cct: float) -> tuple[str, object, tuple[str, ...]]:
     """(label, colour SpectralDistribution, notes) of the SSI reference."""
-    import colour
-
+    colour = _colour()
     wl = grid(375.0, 675.0, 1.0)
     if isinstance(ssi_reference, Spectra):
         w = working_spd(ssi_reference, required=None)
@@ -277,8 +285,7 @@ def light_indices(spd: Spectra, *, ssi_reference="auto", extrapolation: str = "n
     Annual Technical Conference.
     docs/methods.md §17.
     """
-    import colour
-
+    colour = _colour()
     w = working_spd(spd, extrapolation=extrapolation)
     wl = w.wavelengths
     v = w.flat()[0]

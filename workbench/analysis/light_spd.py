@@ -16,10 +16,10 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import replace
-from functools import lru_cache
 
 import numpy as np
 
+from workbench.colorimetry.cie import daylight_basis
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
 from workbench.model.spectra import Spectra, grid, is_uniform
 
@@ -260,15 +260,9 @@ def planckian_spd(wavelengths, temperature: float) -> np.ndarray:
     return 100.0 * (560.0 / wl) ** 5 * np.expm1(C2_NM_K / (560.0 * T)) / np.expm1(C2_NM_K / (wl * T))
 
 
-@lru_cache(maxsize=1)
 def _daylight_basis() -> tuple[np.ndarray, np.ndarray]:
-    from colour.colorimetry.datasets.illuminants import SDS_BASIS_FUNCTIONS_CIE_ILLUMINANT_D_SERIES as B
-
-    wl = np.array(B["S0"].wavelengths, dtype=float)
-    S = np.stack([np.array(B[k].values, dtype=float) for k in ("S0", "S1", "S2")])
-    wl.setflags(write=False)
-    S.setflags(write=False)
-    return wl, S
+    """S0, S1, S2 from the package's CIE tables (colour-science's, checked equal; no colour import)."""
+    return daylight_basis()
 
 
 def daylight_spd(wavelengths, cct: float) -> np.ndarray:

@@ -45,7 +45,6 @@ from __future__ import annotations
 from functools import lru_cache
 
 import numpy as np
-from scipy.special import ndtr, ndtri
 
 from workbench.errors import WorkbenchError
 
@@ -317,7 +316,9 @@ def glass_transmittance(measured, measured_mm, thickness_mm, refractive_index=1.
 # --------------------------------------------------------------------------
 
 _LN9 = float(np.log(9.0))
-_Z90 = float(ndtri(0.9))
+#: z₀.₉ = Φ⁻¹(0.9), the standard normal's 90 % point: scipy.special.ndtri(0.9) written out, so that
+#: importing this module (and every command's parser, through the design schema) needs no scipy.
+_Z90 = 1.2815515655446004
 
 
 def _rise(x, width, shape):
@@ -328,6 +329,8 @@ def _rise(x, width, shape):
         return 0.5 * (1.0 + np.tanh(x / (2.0 * s)))
     # Normal cumulative: 10-90 % width = 2 z₀.₉ σ.
     sigma = width / (2.0 * _Z90)
+    from scipy.special import ndtr  # late: only normal-shaped edges need scipy (~0.1 s to import)
+
     return ndtr(x / sigma)
 
 

@@ -1,0 +1,69 @@
+"""Start-up: the common commands import none of the heavy libraries they do not use.
+
+Each command runs as its own process under ``python -X importtime`` (which
+lists every module a process imports, on stderr); the test fails naming any
+heavy module imported. Timings are in tests/benchmarks/bench_startup.py, not here.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+#: Libraries that take a large part of a second or more to import (common practice: measured with -X importtime).
+HEAVY = ("colour", "matplotlib", "pandas", "dask", "distributed", "scipy.optimize", "ipywidgets", "IPython")
+
+
+def imported_modules(*args: str, cwd: Path = ROOT) -> tuple[list[str], subprocess.CompletedProcess]:
+    """Names of every module a ``python -m workbench ARGS`` process imports, in order."""
+    proc = subprocess.run([sys.executable, "-X", "importtime", "-m", "workbench", *args], cwd=cwd,
+                          capture_output=True, text=True, timeout=300)
+    names = [line.split("|")[-1].strip() for line in proc.stderr.splitlines() if line.startswith("import time:")]
+    return [n for n in names if n != "package"], proc
+
+
+def heavy(names: list[str], heavy=HEAVY) -> list[str]:
+    """The names among ``names`` that are, or are inside, one of ``heavy``."""
+    return sorted({n for n in names for h in heavy if n == h or n.startswith(h + ".")})
+
+
+class TestImportedModules:
+    @pytest.mark.parametrize("args", [
+        ("--help",),
+        ("evaluate", "spectra-demo/tern3_design.toml"),
+        ("tristimulus", "spectra-demo/studio_reflectances.csv"),
+        ("primaries", "ITU-R BT.709"),
+    ], ids=["help", "evaluate", "tristimulus", "primaries"])
+    def test_no_heavy_module(self, args):
+        """The command runs and imports none of colour, matplotlib, pandas, dask, scipy.optimize, ipywidgets."""
+        names, proc = imported_modules(*args)
+        assert proc.returncode == 0, proc.stderr[-2000:]
+        assert "numpy" in names or args == ("--help",)  # the listing really is of this process
+        assert heavy(names) == [], f"workbench {' '.join(args)} imported {', '.join(heavy(names))}"
+
+    def test_help_imports_no_command_module(self):
+        """``--help`` lists the commands without importing their modules (nor numpy)."""
+        names, proc = imported_modules("--help")
+        assert proc.returncode == 0 and "tristimulus" in proc.stdout
+        assert [n for n in names if n.startswith("workbench.cli.commands.")] == []
+        assert "numpy" not in names
+
+    def test_fit_without_report(self, tmp_path):
+        """``fit --no-report`` uses scipy.optimize but draws nothing: no matplotlib, pandas, colour, dask."""
+        names, proc = imported_modules("fit", str(ROOT / "spectra-demo/tern3_design.toml"), "--out",
+                                       str(tmp_path / "out"), "--no-report", "--quiet")
+        assert proc.returncode == 0, proc.stderr[-2000:]
+        assert "scipy.optimize" in names
+        assert heavy(names, ("colour", "matplotlib", "pandas", "dask", "ipywidgets")) == []
+
+    def test_detects_heavy(self):
+        """The check itself: a process that imports pandas is caught (so the tests above can fail)."""
+        proc = subprocess.run([sys.executable, "-X", "importtime", "-c", "import pandas"],
+                              capture_output=True, text=True, timeout=300)
+        names = [line.split("|")[-1].strip() for line in proc.stderr.splitlines()
+                 if line.startswith("import time:")]
+        assert "pandas" in heavy(names)
