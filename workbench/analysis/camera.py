@@ -397,6 +397,11 @@ class Camera:
     ``primaries``; ``per_illuminant`` optionally holds one matrix per
     illuminant name (used by :meth:`display_rgb` when ``illuminant_name``
     matches, else ``matrix``).
+
+    References
+    ----------
+    SMPTE RP 177-1993; Lam (1985), Bradford; CIE 15:2004 § 7.
+    docs/methods.md §9.
     """
 
     name: str

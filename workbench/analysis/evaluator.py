@@ -208,7 +208,13 @@ def noise_report(M, raw_white, noise) -> dict:
 
 
 def design_primaries(design: Design) -> Primaries:
-    """The display primaries the design's ``[target]`` names (CIE XYZ for ``kind = 'observer'``)."""
+    """The display primaries the design's ``[target]`` names (CIE XYZ for ``kind = 'observer'``).
+
+    References
+    ----------
+    SMPTE RP 177-1993.
+    docs/methods.md §5.
+    """
     t = design.target
     if t.kind == "observer":
         return primaries_XYZ()
@@ -319,6 +325,13 @@ class DesignEvaluator:
     model : ChainModel; bench : ColourBench; primaries : Primaries;
     targets : (3, n) target colour-matching functions; free : tuple of free
     parameter keys with ``lower``, ``upper`` (n_free,) bounds and ``start``.
+
+    References
+    ----------
+    Vora & Trussell (1993), *JOSA A* 10(7), 1499-1508 (ν); Neugebauer (1956),
+    *JOSA* 46(10), 821-824 (q); Luther (1927); CIE 142-2001 (ΔE00);
+    Finlayson & Drew (1997) (matrices); ISO 17321-1:2012 (SMI, in style).
+    docs/methods.md §§8-12.
     """
 
     def __init__(self, design: Design):
@@ -623,6 +636,11 @@ def load_camera(path, *, primaries: Primaries | str = "ITU-R BT.709", observer="
     under D65 to the linear RGB of ``primaries`` (white balance on the
     perfect diffuser first), on the file's own uniform grid (or resampled
     to 5 nm when irregular, said in the notes).
+
+    References
+    ----------
+    SMPTE RP 177-1993; Lam (1985), Bradford.
+    docs/methods.md §9.
     """
     p = Path(path)
     if p.suffix.lower() == ".toml":

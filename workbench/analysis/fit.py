@@ -230,6 +230,17 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     Returns
     -------
     FitResult
+
+    References
+    ----------
+    Branch, M. A., Coleman, T. F. & Li, Y. (1999). A subspace, interior, and
+    conjugate gradient method for large-scale bound-constrained minimization
+    problems. *SIAM J. Sci. Comput.* 21(1), 1-23 (``least_squares``, 'trf').
+    Storn, R. & Price, K. (1997). Differential evolution. *J. Global Optim.*
+    11, 341-359 (the optional global start).
+    McKay, M. D., Beckman, R. J. & Conover, W. J. (1979). *Technometrics* 21(2),
+    239-245 (Latin hypercube starts).
+    docs/methods.md §13.
     """
     if evaluator is None:
         ev = DesignEvaluator(design)

@@ -185,6 +185,13 @@ def light_report(spd: Spectra, *, camera=None, compare: Spectra | None = None, s
     See :func:`light_indices`, :func:`camera_fidelity` and
     :func:`compare_lights` for the parts; the camera part uses the CCT
     found for the indices.
+
+    References
+    ----------
+    CIE 13.3-1995; CIE 224:2017; ANSI/IES TM-30-18; Ohno (2014), *LEUKOS*
+    10(1), 47-55; EBU Tech 3355 (2017) § 1.5.1 (scoring only); IEC 62471:2006
+    (the caution).
+    docs/methods.md §§17-18.
     """
     ind = light_indices(spd, ssi_reference=ssi_reference, extrapolation=extrapolation)
     fid = None

@@ -198,6 +198,11 @@ class BatchPipeline:
     (then the resampling matrix Pᵀ on the left for another grid). The
     camera's XYZ (display white Y = 100) is raw·Kᵀ with
     K = 100 N M diag(1/raw_white).
+
+    References
+    ----------
+    CIE 15:2004 § 7; CIE 142-2001; Lam (1985), Bradford; IEC 61966-2-1:1999.
+    docs/methods.md §§9, 19.
     """
 
     def __init__(self, camera: Camera, illuminant, *, illuminant_name: str | None = None,

@@ -192,6 +192,12 @@ def run_tolerance(design: Design, *, trials: int = 2000, seed: int = 0, matrix: 
     Returns
     -------
     ToleranceResult
+
+    References
+    ----------
+    Saltelli, A. et al. (2008). *Global Sensitivity Analysis. The Primer*. Wiley.
+    Wilson, E. B. (1927). *J. Am. Stat. Assoc.* 22, 209-212 (yield interval).
+    docs/methods.md §16.
     """
     from workbench.analysis.evaluator import DesignEvaluator
 

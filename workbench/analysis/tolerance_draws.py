@@ -151,6 +151,13 @@ def sample_parameters(design: Design, trials: int, seed: int, *, tolerances=None
         Bad ``trials``/``seed``, or a draw outside the parameter's domain
         (e.g. a thickness ≤ 0): the tolerance is too wide for the model, and
         no value is clipped.
+
+    References
+    ----------
+    O'Neill, M. E. (2014). PCG: a family of simple fast space-efficient
+    statistically good algorithms for random number generation. HMC-CS-2014-0905
+    (numpy's default bit generator).
+    docs/methods.md §16.
     """
     check_trials_seed(trials, seed)
     tol = toleranced_parameters(design, tolerances, scale=scale)

@@ -128,6 +128,12 @@ def field_shift(design: Design, *, evaluator=None, matrices=None, positions=None
     CIELAB there and at the centre (CIE 142-2001); the white's and the
     grey's (the design's ``[noise] grey``, a spectrally flat reflectance)
     likewise — a white that is not neutral at the edge is colour shading.
+
+    References
+    ----------
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed., Ch. 11 (the
+    angle shift of an interference edge).
+    docs/methods.md §§14, 16.
     """
     from workbench.analysis.evaluator import DesignEvaluator
 
