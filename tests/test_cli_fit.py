@@ -41,7 +41,7 @@ def test_metrics_contract(fitted, demo_design):
     for s in m["delta_E00"].values():
         assert {"mean", "p95", "max"} <= set(s)
         assert 0 <= s["mean"] <= s["p95"] <= s["max"]
-    assert m["status"] == "converged"
+    assert m["status"] == 0 and m["status_name"] == "converged"
     assert m["vora_value"] > m["before"]["vora_value"]
 
 
@@ -81,14 +81,80 @@ def test_report_is_self_contained(fitted):
     assert "http://" not in html and "https://" not in html
 
 
-def test_not_converged_exits_1(tmp_path, capsys, demo_design_path):
-    """A fit stopped by its evaluation budget still writes the files, says so and exits 1."""
-    rc = main(["fit", str(demo_design_path), "--out", str(tmp_path / "o"), "--quiet", "--max-evaluations", "10",
-               "--no-report"])
-    assert rc == 1
-    m = json.loads((tmp_path / "o" / "metrics.json").read_text())
-    assert m["status"] == "interrupted"
-    assert "did not converge" in capsys.readouterr().err
+class TestFitStatus:
+    """Each reason that ends a fit has its own status code in metrics.json and its own exit status."""
+
+    def _run(self, tmp_path, capsys, design, *extra):
+        out = tmp_path / "o"
+        rc = main(["fit", str(design), "--out", str(out), "--quiet", "--no-report", *extra])
+        m = json.loads((out / "metrics.json").read_text())
+        return rc, m, capsys.readouterr()
+
+    def test_budget_spent(self, tmp_path, capsys, demo_design_path):
+        """A budget too small for one Jacobian: status 1 'budget spent', never more evaluations, exit 3."""
+        rc, m, cap = self._run(tmp_path, capsys, demo_design_path, "--max-evaluations", "10")
+        assert (rc, m["status"], m["status_name"]) == (3, 1, "budget spent")
+        assert m["budget"] == 10 and 1 <= m["evaluations"] <= 10
+        assert ("note: the fit ended without converging: budget spent (status 1) — the evaluation budget "
+                "was spent before the best point passed the local convergence test; the best point found "
+                "is kept; exit status 3") in cap.err
+
+    def test_time_limit(self, tmp_path, capsys, demo_design_path):
+        """A time limit shorter than one evaluation: status 2 'time limit', exit 4, the start kept."""
+        rc, m, cap = self._run(tmp_path, capsys, demo_design_path, "--time-limit", "1e-9")
+        assert (rc, m["status"], m["status_name"]) == (4, 2, "time limit")
+        assert m["time_limit_s"] == 1e-9 and m["evaluations"] == 1
+        assert m["vora_value"] == pytest.approx(m["before"]["vora_value"], abs=1e-12)
+        assert "time limit (status 2)" in cap.err and "exit status 4" in cap.err
+
+    def test_stopped_by_the_user(self, tmp_path, capsys, demo_design_path, monkeypatch):
+        """Ctrl-C during the search: status 3 'stopped', the best point so far written, exit 130."""
+        from workbench.analysis.evaluator import DesignEvaluator as Ev
+
+        calls = {"n": 0}
+        residuals = Ev.residuals
+
+        def interrupted(self, x):
+            calls["n"] += 1
+            if calls["n"] == 3:
+                raise KeyboardInterrupt
+            return residuals(self, x)
+
+        monkeypatch.setattr(Ev, "residuals", interrupted)
+        rc, m, cap = self._run(tmp_path, capsys, demo_design_path)
+        assert (rc, m["status"], m["status_name"]) == (130, 3, "stopped")
+        assert "stopped (status 3)" in cap.err
+
+    def test_infeasible(self, tmp_path, capsys, demo_design_path, monkeypatch):
+        """No evaluation gives a finite residual: status 4 'infeasible', exit 5."""
+        from workbench.analysis.evaluator import DesignEvaluator as Ev
+
+        monkeypatch.setattr(Ev, "residuals", lambda self, x: np.full((np.atleast_2d(x).shape[0], 4), np.nan))
+        rc, m, cap = self._run(tmp_path, capsys, demo_design_path)
+        assert (rc, m["status"], m["status_name"]) == (5, 4, "infeasible")
+        assert "infeasible (status 4)" in cap.err
+
+    def test_status_table_is_the_one_source(self):
+        """Codes 0-4 each have a name, a message and an exit status; only 'converged' exits 0."""
+        from workbench.analysis.fit import FIT_STATUS_TABLE, FitStatus
+
+        assert [int(s) for s in FIT_STATUS_TABLE] == [0, 1, 2, 3, 4] == [int(s) for s in FitStatus]
+        exits = [FIT_STATUS_TABLE[s][2] for s in FitStatus]
+        assert exits == [0, 3, 4, 130, 5]
+        assert 2 not in exits  # 2 is bad input
+
+    @pytest.mark.parametrize("extra, message", [
+        (["--max-evaluations", "0"], "error: '--max-evaluations' must be a whole number >= 1 (got 0)"),
+        (["--max-evaluations", "-5"], "error: '--max-evaluations' must be a whole number >= 1 (got -5)"),
+        (["--time-limit", "0"], "error: '--time-limit' must be a number of seconds > 0 (got 0)"),
+        (["--time-limit", "nan"], "error: '--time-limit' must be a number of seconds > 0 (got nan)"),
+    ])
+    def test_bad_budget(self, tmp_path, capsys, demo_design_path, extra, message):
+        """A budget or time limit <= 0: one line, exit 2, nothing written."""
+        rc = main(["fit", str(demo_design_path), "--out", str(tmp_path / "o"), "--quiet", *extra])
+        assert rc == 2
+        assert capsys.readouterr().err.strip().splitlines() == [message]
+        assert not (tmp_path / "o").exists()
 
 
 def test_missing_design_is_one_line(tmp_path, capsys):

@@ -16,7 +16,7 @@ from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.evaluator import (DesignEvaluator, load_camera, luther_residual, noise_report,
                                           sensitivity_metamerism_index)
-from workbench.analysis.fit import fit_design
+from workbench.analysis.fit import FitStatus, fit_design
 from workbench.analysis.measures import neugebauer_q, vora_value
 from workbench.colorimetry.primaries import primaries_named
 from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
@@ -329,11 +329,12 @@ class TestFit:
         assert r.design.matrix is not None and r.design.matrix.method == "least-squares"
 
     def test_stop_event_keeps_best_so_far(self, demo_design):
-        """A set stop event ends the fit at once, reported as interrupted, with the start kept."""
+        """A set stop event ends the fit at once, reported as stopped (status 3), with the start kept."""
         stop = threading.Event()
         stop.set()
         r = fit_design(demo_design, progress=False, stop=stop)
-        assert r.status == "interrupted" and not r.converged
+        assert r.status == FitStatus.STOPPED == 3 and not r.converged
+        assert r.evaluations == 1
         assert r.after.vora_value == pytest.approx(r.before.vora_value)
 
     def test_global_start_is_seeded(self, tmp_path):

@@ -22,7 +22,7 @@ from scipy.linalg import subspace_angles
 from workbench.fileio.design_toml import load_design
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.analysis.evaluator import DesignEvaluator
-from workbench.analysis.fit import fit_design
+from workbench.analysis.fit import FitStatus, fit_design
 from workbench.plots.fit import (ARROW_SCALES, plot_chromaticity_shifts, plot_delta_e_bars,
                                  plot_noise_vs_accuracy, plot_sensitivities_vs_targets)
 from workbench.report.fit_report import fit_report_figures, fit_report_html, noise_accuracy_points, write_fit_report
@@ -79,7 +79,6 @@ viewing_illuminant = "daylight"
 """
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG (ISO/IEC 15948:2004) § 5.2
-STATUS_HEAD = {"converged": "Converged", "not converged": "NOT CONVERGED", "interrupted": "INTERRUPTED"}
 
 
 @pytest.fixture(scope="module")
@@ -224,10 +223,13 @@ class TestFitReportHtml:
         assert page.startswith("<!DOCTYPE html>") and page.rstrip().endswith("</html>")
 
     def test_status_shown(self, fitted, page):
-        """The status block names the fit's status and the optimiser's message."""
+        """The status block names the fit's status, its message from the one table and the solver's words."""
         _, _, result = fitted
         status = parse(page).status
-        assert status.startswith(STATUS_HEAD[result.status] + ":")
+        head = ("Converged" if result.converged
+                else f"NOT CONVERGED — {result.status_name.upper()} (status {int(result.status)})")
+        assert status.startswith(head + ":")
+        assert result.status_message.rstrip(" .") in status
         assert result.message.rstrip(" .") in status
         assert f"{result.evaluations} evaluations" in status
 
@@ -305,16 +307,17 @@ class TestFitReportHtml:
 
     @pytest.mark.slow  # a second fit and a full report
     def test_not_converged_shown_and_escaped(self, fitted):
-        """status 'not converged': a warning block with the message; markup in names and messages escaped."""
+        """status 'budget spent': a warning block with the reason; markup in names and messages escaped."""
         _, ev, result = fitted
         params = list(result.parameters)
         params[0] = {**params[0], "value": params[0]["max"], "at_bound": "max"}
-        bad = replace(result, status="not converged", message="max_nfev <reached> & 'stopped'",
+        bad = replace(result, status=FitStatus.BUDGET_SPENT, message="max_nfev <reached> & 'stopped'",
                       parameters=tuple(params),
                       design=replace(result.design, name='Rig <img src=x onerror="alert(1)"> & Co'))
         page = fit_report_html(bad, ev)
         parsed = parse(page)
-        assert parsed.status.startswith("NOT CONVERGED: max_nfev <reached> & 'stopped'.")
+        assert parsed.status.startswith("NOT CONVERGED — BUDGET SPENT (status 1): the evaluation budget was spent")
+        assert "Local solver: max_nfev <reached> & 'stopped'." in parsed.status
         assert '<div class="status warn" id="status">' in page
         assert "max_nfev &lt;reached&gt; &amp; &#x27;stopped&#x27;" in page
         assert "<reached>" not in page and "<img src=x" not in page
@@ -327,16 +330,18 @@ class TestFitReportHtml:
 class TestWriteFitReport:
     @pytest.mark.slow  # a fit and a full report
     def test_interrupted_fit_written(self, fitted, tmp_path):
-        """A fit stopped by its evaluation budget is reported INTERRUPTED; the file is the whole page."""
+        """A fit stopped by its evaluation budget is reported BUDGET SPENT; the file is the whole page."""
         design, ev, _ = fitted
         result = fit_design(design, progress=False, evaluator=ev, max_evaluations=12)
-        assert result.status == "interrupted"
+        assert result.status == FitStatus.BUDGET_SPENT
         out = write_fit_report(result, tmp_path / "report.html", evaluator=ev)
         assert out == tmp_path / "report.html"
         text = out.read_text(encoding="utf-8")
         status = parse(text).status
-        assert status.startswith("INTERRUPTED: evaluation budget reached; best point so far kept.")
-        assert "the fit did not finish" in status
+        assert status.startswith("NOT CONVERGED — BUDGET SPENT (status 1): the evaluation budget was spent "
+                                 "before the best point passed the local convergence test; the best point "
+                                 "found is kept.")
+        assert "evaluations of a budget of 12 in" in status
         assert text.count("data:image/svg+xml;base64,") == 4
         assert [p.name for p in tmp_path.iterdir()] == ["report.html"]  # no temporary file left
 

@@ -256,7 +256,7 @@ class TestDesignPanelFit:
         assert "Fit of" in panel.fit_report.value
 
     def test_stop_keeps_the_best_point(self, panel, monkeypatch):
-        """Stop during a fit ends it as 'interrupted' with the best point so far."""
+        """Stop during a fit ends it as 'stopped' (status 3) with the best point so far."""
         from workbench.analysis.evaluator import DesignEvaluator
 
         started = threading.Event()
@@ -273,8 +273,9 @@ class TestDesignPanelFit:
         assert panel.fitting and panel.sliders[EDGE].disabled
         panel.stop_button.click()
         assert panel.wait(60)
-        assert panel.result.status == "interrupted"
-        assert "best point so far kept" in panel.result.message
+        assert panel.result.status == 3 and panel.result.status_name == "stopped"
+        assert "the best point found is kept" in panel.result.status_message
+        assert "stopped" in panel.fit_status.value
         assert panel.result.after.vora_value >= panel.result.before.vora_value - 1e-12
         assert not panel.sliders[EDGE].disabled
 

@@ -4,8 +4,9 @@
 single HTML page — inline CSS, every figure embedded as a base64 SVG (or
 PNG), no link to anything outside the file — that shows, in order:
 
-1. the fit's status (converged, not converged or interrupted, with the
-   optimiser's message; never hidden) and the parameters that ended at a
+1. the fit's status (its code and reason from
+   :data:`workbench.analysis.fit.FIT_STATUS_TABLE`, with the local solver's
+   words; never hidden) and the parameters that ended at a
    bound;
 2. the objective, the search and the method of every measure;
 3. the headline measures at the start and after the fit (Vora value ν,
@@ -189,23 +190,16 @@ def _triple(v, fmt: str) -> str:
 
 
 def _status_html(result) -> str:
-    status = str(result.status)
-    msg = str(result.message).rstrip(" .")
+    msg = str(result.status_message).rstrip(" .")
     at = [p["name"] for p in result.parameters if p.get("at_bound")]
-    if status == "converged":
+    if result.converged:
         cls, head = "ok", "Converged"
-        tail = ""
-    elif status == "interrupted":
-        cls, head = "warn", "INTERRUPTED"
-        tail = " The values shown are the best point found before the stop; the fit did not finish."
-    elif status == "not converged":
-        cls, head = "warn", "NOT CONVERGED"
-        tail = " The values shown are the best point found; the optimiser's stopping test was not met."
     else:
-        cls, head = "warn", f"Status {status!r}"
-        tail = ""
+        cls, head = "warn", f"NOT CONVERGED — {result.status_name.upper()} (status {int(result.status)})"
+    tail = f" Local solver: {str(result.message).rstrip(' .')}." if result.message else ""
+    budget = f" of a budget of {result.budget}" if getattr(result, "budget", 0) else ""
     out = (f'<div class="status {cls}" id="status"><b>{_esc(head)}</b>: {_esc(msg)}.{_esc(tail)} '
-           f'({_esc(result.evaluations)} evaluations in {_f(result.seconds, ".2f")} s)</div>')
+           f'({_esc(result.evaluations)} evaluations{_esc(budget)} in {_f(result.seconds, ".2f")} s)</div>')
     if at:
         out += (f'<p class="flag">{len(at)} parameter{"s" if len(at) != 1 else ""} ended at a bound: '
                 f'{_esc(", ".join(at))} — the optimum may lie outside the allowed range.</p>')
@@ -353,7 +347,7 @@ def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: i
     -------
     str
         The HTML document. The status block (``id="status"``) says
-        converged, NOT CONVERGED or INTERRUPTED with the optimiser's message.
+        Converged, or NOT CONVERGED with the reason from the status table.
     """
     from workbench import __version__
 

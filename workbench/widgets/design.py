@@ -542,8 +542,9 @@ class DesignPanel(W.VBox):
             b, a = res.before, res.after
             self.fit_status.value = (
                 f'<span style="font-size:12px;line-height:1.35" class="wb-fit-done">'
-                f'<b>{html.escape(res.status)}</b>: '
-                f"{html.escape(res.message)}; {res.evaluations} evaluations in {res.seconds:.2f} s; "
+                f'<b>{html.escape(res.status_name)}</b>: '
+                f"{html.escape(res.status_message)}; {res.evaluations} of {res.budget} evaluations "
+                f"in {res.seconds:.2f} s; "
                 f"objective {html.escape(res.objective)}; Vora value ν {b.vora_value:.4f} → "
                 f"{a.vora_value:.4f}; weighted mean ΔE00 {b.weighted_mean_delta_E00:.3f} → "
                 f"{a.weighted_mean_delta_E00:.3f}</span>")

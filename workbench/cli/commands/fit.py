@@ -12,15 +12,32 @@ Writes into DIR (created if needed; each file replaced atomically):
   before and after, the parameters with their bounds, status and methods;
 - ``report.html`` — a self-contained report with the figures.
 
-Exit status: 0 when the fit converged, 1 when it did not converge or was
-interrupted (the best point found is still written and the report says
-so), 2 for bad input.
+The evaluation budget (``--max-evaluations``, default the design's
+``[fit] max_evaluations``) and ``--time-limit`` cap the whole fit; the
+progress bar counts against the budget. The fit always writes the best
+point found; the reason it ended is printed, stored in metrics.json
+(``status`` code, ``status_name``, ``status_message``) and sets the exit
+status — one table, :data:`workbench.analysis.fit.FIT_STATUS_TABLE`:
+
+====  ============  ===========
+code  reason        exit status
+====  ============  ===========
+0     converged     0
+1     budget spent  3
+2     time limit    4
+3     stopped       130 (Ctrl-C)
+4     infeasible    5
+====  ============  ===========
+
+Bad input (a missing or invalid design, conflicting options) exits 2 with
+one line.
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import math
 from pathlib import Path
 
 from workbench.model.design import CHANNELS, GLOBAL_STARTS
@@ -44,7 +61,9 @@ def register(subparsers) -> None:
                    help="global search before the local fit (default: the design's [fit] global_start)")
     p.add_argument("--seed", type=int, default=None, help="seed of the global search (default: the design's)")
     p.add_argument("--max-evaluations", type=int, default=None, metavar="N",
-                   help="evaluation budget (default: the design's [fit] max_evaluations)")
+                   help="evaluation budget of the whole fit (default: the design's [fit] max_evaluations)")
+    p.add_argument("--time-limit", type=float, default=None, metavar="S",
+                   help="wall-time limit of the whole fit in seconds (default: none)")
     p.add_argument("--no-report", action="store_true", help="skip report.html")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(run=run)
@@ -70,7 +89,11 @@ def metrics(result) -> dict:
     out = {
         "design": d["design"],
         "status": d["status"],
+        "status_name": d["status_name"],
+        "status_message": d["status_message"],
         "message": d["message"],
+        "budget": d["budget"],
+        "time_limit_s": d["time_limit_s"],
         "vora_value": a["vora_value"],
         "neugebauer_q": a["neugebauer_q"],
         "luther_residual": a["luther_residual"],
@@ -98,14 +121,16 @@ def run(args) -> int:
     from workbench.analysis.fit import fit_design
     from workbench.fileio.spectra_csv import write_spectra_csv
 
+    if args.max_evaluations is not None and args.max_evaluations < 1:
+        raise WorkbenchError(f"'--max-evaluations' must be a whole number >= 1 (got {args.max_evaluations})")
+    if args.time_limit is not None and not (math.isfinite(args.time_limit) and args.time_limit > 0):
+        raise WorkbenchError(f"'--time-limit' must be a number of seconds > 0 (got {args.time_limit:g})")
     design = load_design(args.design)
-    if args.max_evaluations is not None and args.max_evaluations < 10:
-        raise WorkbenchError(f"--max-evaluations: expected a whole number >= 10 (got {args.max_evaluations})")
     out: Path = args.out
     if out.exists() and not out.is_dir():
         raise WorkbenchError(f"--out {out}: expected a folder, found a file")
     result = fit_design(design, progress=not args.quiet, global_start=args.global_start,
-                        seed=args.seed, max_evaluations=args.max_evaluations)
+                        seed=args.seed, max_evaluations=args.max_evaluations, time_limit=args.time_limit)
     for n in result.notes:
         notice(n)
     out.mkdir(parents=True, exist_ok=True)
@@ -117,8 +142,9 @@ def run(args) -> int:
     b, a = result.before, result.after
     header = [
         f"design: {design.name} ({design.source})",
-        f"fit: {result.status} — {result.message}; objective {result.objective}; "
-        f"{result.evaluations} evaluations, {result.seconds:.2f} s",
+        f"fit: {result.status_name} — {result.status_message}; objective {result.objective}; "
+        f"{result.evaluations} of {result.budget} evaluations, {result.seconds:.2f} s"
+        + (f" (time limit {result.time_limit_s:g} s)" if result.time_limit_s else ""),
         f"Vora value {b.vora_value:.4f} → {a.vora_value:.4f} ({a.methods['vora_value']})",
         "Neugebauer q R/G/B " + " / ".join(f"{v:.4f}" for v in a.neugebauer_q),
         f"matrix: {a.matrix_method}, {a.matrix_scope}; ΔE00 = CIEDE2000 after white balance and matrix",
@@ -138,6 +164,6 @@ def run(args) -> int:
     notice(f"wrote design.toml, sensitivities.csv, matrix.csv, metrics.json"
            f"{'' if args.no_report else ', report.html'} to {out}")
     if not result.converged:
-        notice(f"the fit did not converge ({result.status}: {result.message}); exit status 1")
-        return 1
-    return 0
+        notice(f"the fit ended without converging: {result.status_name} (status {int(result.status)}) — "
+               f"{result.status_message}; exit status {result.exit_status}")
+    return result.exit_status
