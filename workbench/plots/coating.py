@@ -11,7 +11,7 @@ import numpy as np
 
 from workbench.optics.thinfilm import StackResponse, stop_band_edges
 
-__all__ = ["plot_stack_spectra", "plot_half_points_vs_angle"]
+__all__ = ["plot_stack_spectra", "plot_half_points_vs_angle", "plot_stack_angles"]
 
 _WL_LABEL = "wavelength λ (nm)"
 _METHOD = "characteristic-matrix method"
@@ -97,4 +97,47 @@ def plot_half_points_vs_angle(response: StackResponse, *, title: str = ""):
         ax.legend(fontsize=7, ncol=2)
     else:
         ax.text(0.5, 0.5, "R does not cross 50 % on this grid", transform=ax.transAxes, ha="center")
+    return fig
+
+
+def plot_stack_angles(response: StackResponse, *, quantity: str = "T", title: str = "", fig=None):
+    """R or T against wavelength at every angle: s and p thin, their mean thick, one colour per angle.
+
+    Parameters
+    ----------
+    response : StackResponse
+        One stack (no batch axes).
+    quantity : {'R', 'T'}
+    title : str
+    fig : Figure, optional
+        Drawn into (cleared) instead of a new figure.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    from workbench.plots._canvas import new_figure, place_axes
+
+    fig = new_figure(7.0, 4.0, fig)
+    place_axes(fig, left=0.75, right=0.15, top=0.35, bottom=0.55)
+    ax = fig.add_subplot()
+    wl = response.wavelengths_nm
+    Q = response.R if quantity == "R" else response.T
+    mean = response.R_mean if quantity == "R" else response.T_mean
+    colours = ["tab:blue", "tab:green", "tab:orange", "tab:red", "tab:purple", "tab:brown", "tab:pink"]
+    for ia, a in enumerate(response.angles_deg):
+        c = colours[ia % len(colours)]
+        ax.plot(wl, mean[ia], color=c, lw=1.6, label=f"{a:g}°, mean of s and p")
+        ax.plot(wl, Q[0, ia], color=c, lw=0.7, ls="--", label=f"{a:g}°, s" if ia == 0 else None)
+        ax.plot(wl, Q[1, ia], color=c, lw=0.7, ls=":", label=f"{a:g}°, p" if ia == 0 else None)
+    ax.axhline(0.5, color="0.6", lw=0.6)
+    ax.set_xlim(wl[0], wl[-1])
+    ax.set_ylim(-0.02, 1.02)
+    ax.set_xlabel(_WL_LABEL)
+    name = "reflectance R" if quantity == "R" else "transmittance T"
+    ax.set_ylabel(f"{name} (fraction 0-1)")
+    ax.set_title(f"{title + ': ' if title else ''}{name} at each angle ({_METHOD}; s dashed, p dotted)",
+                 fontsize=9)
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=7, ncol=2, loc="best")
     return fig

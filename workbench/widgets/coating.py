@@ -1,0 +1,166 @@
+"""A notebook panel to edit a thin-film stack and see R and T at several angles and polarisations live.
+
+The panel wires ipywidgets controls to :func:`workbench.optics.stacks.parse_layer_formula`,
+:func:`workbench.optics.thinfilm.stack_response` and the figures of
+:mod:`workbench.plots.coating`. The stack is a layer formula over material
+symbols (``(0.5L H 0.5L)^10`` with ``H=TiO2, L=SiO2``, QWOTs at the
+reference wavelength); a slider scales every thickness (a systematic
+thickness error, or a quick shift of the whole design). Figures are PNG
+images in ``ipywidgets.Output`` widgets; a bad entry shows as one line,
+``error: …``, never a traceback.
+
+>>> from workbench.widgets.coating import CoatingPanel   # doctest: +SKIP
+>>> CoatingPanel()                                       # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+import ipywidgets as W
+import numpy as np
+
+from workbench.errors import WorkbenchError
+from workbench.widgets.common import ErrorLine, guard, html_table, show_png
+
+__all__ = ["CoatingPanel", "coating_panel", "parse_material_symbols"]
+
+
+def parse_material_symbols(text: str) -> dict:
+    """``'H=TiO2, L=SiO2'`` → ``{'H': 'TiO2', 'L': 'SiO2'}``."""
+    out = {}
+    for part in text.replace(";", ",").split(","):
+        if not part.strip():
+            continue
+        sym, sep, name = part.partition("=")
+        if not sep or not sym.strip() or not name.strip():
+            raise WorkbenchError(f"materials must be SYMBOL=MATERIAL pairs such as H=TiO2, L=SiO2 (got {part.strip()!r})")
+        out[sym.strip()] = name.strip()
+    if not out:
+        raise WorkbenchError("materials must be SYMBOL=MATERIAL pairs such as H=TiO2, L=SiO2 (got nothing)")
+    return out
+
+
+def _angles(text: str) -> list[float]:
+    out = []
+    for cell in text.replace(" ", "").split(","):
+        try:
+            a = float(cell)
+        except ValueError:
+            raise WorkbenchError(f"angles must be comma-separated degrees such as 0,30,45 (got {cell!r})") from None
+        if not (0 <= a < 90):
+            raise WorkbenchError(f"angles must be 0 ≤ angle < 90 degrees (got {cell})")
+        out.append(a)
+    return out
+
+
+class CoatingPanel(W.VBox):
+    """Controls and views of one thin-film stack.
+
+    Parameters
+    ----------
+    layers : str
+        Layer formula (see :mod:`workbench.optics.stacks`).
+    materials : str
+        ``SYMBOL=MATERIAL`` pairs.
+    reference_nm : float
+        Reference wavelength of the QWOTs, nm.
+    incident, substrate : str
+        Materials or indices.
+    angles : str
+        Angles in the incidence medium, degrees, comma-separated.
+
+    Attributes
+    ----------
+    response : StackResponse or None
+        The last computed response.
+    status : ErrorLine
+    """
+
+    def __init__(self, layers: str = "(0.5L H 0.5L)^10", materials: str = "H=TiO2, L=SiO2",
+                 reference_nm: float = 440.0, incident: str = "crown-517", substrate: str = "crown-517",
+                 angles: str = "0, 30, 45"):
+        wide = W.Layout(width="460px")
+        short = W.Layout(width="230px")
+        self.layers = W.Text(value=layers, description="layers", layout=wide, continuous_update=False)
+        self.materials = W.Text(value=materials, description="materials", layout=wide, continuous_update=False)
+        self.reference = W.FloatText(value=reference_nm, description="λ ref (nm)", layout=short)
+        self.incident = W.Text(value=incident, description="incident", layout=short, continuous_update=False)
+        self.substrate = W.Text(value=substrate, description="substrate", layout=short, continuous_update=False)
+        self.angles = W.Text(value=angles, description="angles (°)", layout=short, continuous_update=False)
+        self.scale = W.FloatSlider(value=1.0, min=0.8, max=1.2, step=0.002, description="thickness ×",
+                                   readout_format=".3f", continuous_update=True, layout=wide)
+        self.quantity = W.ToggleButtons(options=["T", "R"], value="T", description="show")
+        self.status = ErrorLine()
+        self.figure = W.Output()
+        self.recipe = W.HTML()
+        self.response = None
+        self._fig = None
+        for w in (self.layers, self.materials, self.reference, self.incident, self.substrate, self.angles,
+                  self.scale, self.quantity):
+            w.observe(lambda _change: self.update(), names="value")
+        super().__init__([
+            W.HTML("<b>Thin-film stack</b> — characteristic-matrix method; s, p and their mean at each angle "
+                   "(angles in the incidence medium)"),
+            self.layers, self.materials,
+            W.HBox([self.reference, self.angles]), W.HBox([self.incident, self.substrate]),
+            self.scale, self.quantity, self.status, self.figure, self.recipe,
+        ])
+        self.update()
+
+    def stack(self):
+        """``(symbols, materials, thicknesses_nm)`` of the current entries (thickness scale applied)."""
+        from workbench.optics.stacks import parse_layer_formula, physical_thicknesses, resolve_materials
+
+        mats = resolve_materials(parse_material_symbols(self.materials.value), what="materials")
+        layers = parse_layer_formula(self.layers.value, mats, what="layers")
+        ref = float(self.reference.value)
+        if not ref > 0:
+            raise WorkbenchError(f"λ ref must be > 0 nm (got {ref:g})")
+        d = physical_thicknesses(layers, mats, ref) * float(self.scale.value)
+        return [x.symbol for x in layers], mats, d
+
+    def update(self) -> None:
+        """Recompute and redraw from the current entries; errors go to the status line."""
+        from workbench.optics.materials import material_named
+        from workbench.optics.thinfilm import stack_response, stop_band_edges
+        from workbench.plots._canvas import png_bytes
+        from workbench.plots.coating import plot_stack_angles
+
+        with guard(self.status):
+            symbols, mats, d = self.stack()
+            angles = _angles(self.angles.value)
+            lo = max([m.range_nm[0] for m in mats.values() if m.range_nm] + [380.0])
+            hi = min([m.range_nm[1] for m in mats.values() if m.range_nm] + [780.0])
+            wl = np.arange(lo, hi + 1e-9, 1.0)
+            inc = material_named(self.incident.value)
+            sub = material_named(self.substrate.value)
+            n_inc = inc.index(wl)
+            if np.any(n_inc.imag != 0):
+                raise WorkbenchError(f"incident must be lossless (k = 0) (got {self.incident.value!r})")
+            by_sym = {s: m.index(wl) for s, m in mats.items()}
+            N = np.stack([by_sym[s] for s in symbols])
+            self.response = res = stack_response(N, d, wl, angles, incident=n_inc.real, substrate=sub.index(wl))
+            self._fig = plot_stack_angles(res, quantity=self.quantity.value, fig=self._fig)
+            show_png(self.figure, png_bytes(self._fig, dpi=90), alt="R or T at each angle")
+            rows = []
+            for ia, a in enumerate(angles):
+                cells = {"angle": f"{a:g}°"}
+                for ip, p in enumerate(("s", "p")):
+                    short, long_ = stop_band_edges(wl, res.R[ip, ia])
+                    cells[p] = f"{short:.1f} / {long_:.1f}".replace("nan", "–")
+                short, long_ = stop_band_edges(wl, res.R_mean[ia])
+                cells["mean"] = f"{short:.1f} / {long_:.1f}".replace("nan", "–")
+                rows.append(cells)
+            edges = html_table(rows, ["angle", "s", "p", "mean"],
+                               caption="reflection-band edges at R = 50 %, nm (short-wave / long-wave)")
+            ref = float(self.reference.value)
+            n_ref = {s: m.index([ref])[0].real for s, m in mats.items()}
+            layer_rows = [{"#": i + 1, "material": mats[s].name, "nm": f"{t:.2f}",
+                           "QWOT": f"{t * n_ref[s] * 4 / ref:.3f}"} for i, (s, t) in enumerate(zip(symbols, d))]
+            recipe = html_table(layer_rows, ["#", "material", "nm", "QWOT"],
+                                caption=f"{len(symbols)} layers, {d.sum():.1f} nm; QWOT at {ref:g} nm")
+            self.recipe.value = edges + recipe
+
+
+def coating_panel(**kw) -> CoatingPanel:
+    """Build a :class:`CoatingPanel` (for a notebook cell)."""
+    return CoatingPanel(**kw)
