@@ -171,3 +171,25 @@ def test_out_is_a_file(tmp_path, capsys, demo_design_path):
     f.write_text("x")
     assert main(["fit", str(demo_design_path), "--out", str(f), "--quiet"]) == 2
     assert "expected a folder" in capsys.readouterr().err
+
+
+class TestParameterTable:
+    def test_before_after_table(self, tmp_path, capsys, demo_design_path, demo_design):
+        """stdout lists every free parameter: unit, start → fitted, change, bounds and the at-bound flag."""
+        out = tmp_path / "o"
+        main(["fit", str(demo_design_path), "--out", str(out), "--quiet", "--no-report", "--max-evaluations", "40"])
+        text = capsys.readouterr().out
+        assert "fitted parameters (start → fitted; bounds from the design file):" in text
+        m = json.loads((out / "metrics.json").read_text())
+        lines = {ln.split()[0]: ln.split() for ln in text.splitlines() if ln.split() and "." in ln.split()[0]}
+        free = demo_design.free_parameters()
+        assert len(m["parameters"]) == len(free)
+        for p in m["parameters"]:
+            cells = lines[p["name"]]
+            spec = free[p["name"]]
+            assert cells[1] == p["unit"] == ("mm" if p["name"].endswith("_mm") else "nm")
+            assert float(cells[2]) == pytest.approx(spec.value, rel=1e-6)
+            assert cells[3] == "→"
+            assert float(cells[4]) == pytest.approx(p["value"], rel=1e-5)
+            assert [float(cells[6]), float(cells[7])] == [spec.min, spec.max]
+            assert (cells[-2:] == ["at", p["at_bound"]]) == (p["at_bound"] is not None)

@@ -74,8 +74,8 @@ class FitStopped(Exception):
 class FitResult:
     """The outcome of :func:`fit_design`: a frozen value that renders and serialises.
 
-    ``parameters`` rows: name, start, value, min, max, at_bound ('min',
-    'max' or None). ``status`` a :class:`FitStatus` (its words in
+    ``parameters`` rows: name, unit, start, value, min, max, at_bound
+    ('min', 'max' or None). ``status`` a :class:`FitStatus` (its words in
     :data:`FIT_STATUS_TABLE`: :attr:`status_name`, :attr:`status_message`);
     ``message`` the local solver's own words for its last run;
     ``budget`` the evaluation budget and ``time_limit_s`` the wall-time
@@ -173,6 +173,19 @@ class FitResult:
             f"<table><tr><th>parameter</th><th>start</th><th>fitted</th><th>bounds</th><th>at bound</th></tr>"
             f"{rows}</table><table><tr><th>illuminant</th><th>mean ΔE00 before</th><th>mean ΔE00 after</th>"
             f"<th>p95 after</th><th>max after</th></tr>{stats}</table>")
+
+
+def parameter_unit(design: Design, name: str) -> str:
+    """The unit of the chain parameter ``element.key`` from the element type's schema ('°' for degrees)."""
+    from workbench.model.design import ELEMENT_TYPES
+
+    element, _, key = name.rpartition(".")
+    for e in design.chain:
+        if e.name == element:
+            spec = ELEMENT_TYPES.get(e.type, ({}, {}))[0].get(key)
+            if spec is not None:
+                return {"deg": "°"}.get(spec.unit, spec.unit) or "1"
+    return ""
 
 
 def _jsonable(v):
@@ -469,8 +482,8 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     for i, k in enumerate(ev.free):
         v = values[k]
         at = "min" if v - ev.lower[i] <= span_tol * span[i] else ("max" if ev.upper[i] - v <= span_tol * span[i] else None)
-        rows.append({"name": k, "start": float(start[i]), "value": v, "min": float(ev.lower[i]),
-                     "max": float(ev.upper[i]), "at_bound": at})
+        rows.append({"name": k, "unit": parameter_unit(design, k), "start": float(start[i]), "value": v,
+                     "min": float(ev.lower[i]), "max": float(ev.upper[i]), "at_bound": at})
     return FitResult(
         design=fitted, start_design=design, parameters=tuple(rows), before=before, after=after,
         objective=fit.objective, cost_before=cost_before, cost_after=float(track.best_cost),

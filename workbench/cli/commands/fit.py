@@ -82,6 +82,20 @@ def matrix_csv(measures) -> str:
     return buf.getvalue()
 
 
+def parameter_table(result) -> str:
+    """The fitted parameters, start → fitted, with their unit, bounds and an at-bound flag, as text."""
+    rows = []
+    for p in result.parameters:
+        rows.append({
+            "parameter": p["name"], "unit": p.get("unit") or "1", "start": f"{p['start']:.6g}", "→": "→",
+            "fitted": f"{p['value']:.6g}", "change": f"{p['value'] - p['start']:+.4g}",
+            "min": f"{p['min']:.6g}", "max": f"{p['max']:.6g}",
+            "at bound": {"min": "at min", "max": "at max"}.get(p["at_bound"], ""),
+        })
+    return render_rows(rows, ["parameter", "unit", "start", "→", "fitted", "change", "min", "max", "at bound"],
+                       "table", header_lines=["fitted parameters (start → fitted; bounds from the design file):"])
+
+
 def metrics(result) -> dict:
     """The metrics.json object."""
     d = result.to_dict()
@@ -154,6 +168,8 @@ def run(args) -> int:
             for ill in a.illuminants]
     print(render_rows(rows, ["illuminant", "mean_before", "mean", "median", "p95", "max"], "table",
                       header_lines=header), flush=True)
+    print()
+    print(parameter_table(result), flush=True)
     if not args.no_report:  # after the summary, which needs none of it; matplotlib only imported here
         from workbench.report.fit_report import write_fit_report
 
