@@ -2,6 +2,8 @@
 
 Any refactoring must leave every figure the command prints unchanged; numbers are
 compared to 1e-12 relative so that a different BLAS summation order cannot fail it.
+The method texts of ``vora_value`` and ``neugebauer_q`` are the one wording of
+workbench/report/methods.py (the command once wrote its own, drifted copy).
 """
 
 import json

@@ -52,6 +52,8 @@ from workbench.colorimetry.primaries import (
 )
 from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
 from workbench.model.spectra import Spectra, grid, is_uniform
+from workbench.report.html import measures_html
+from workbench.report.methods import METHODS, noise_method, smi_method
 from workbench.fileio.spectra_csv import read_spectra_csv
 from workbench.colorimetry.targets import primaries_XYZ, target_cmfs
 
@@ -151,8 +153,7 @@ def sensitivity_metamerism_index(S, wavelengths, samples, illuminant, *, observe
         "smi": 100.0 - slope * mean,
         "mean_delta_E_ab": mean,
         "matrix": M,
-        "method": (f"ISO 17321-1-style SMI = 100 − {slope:g} × mean ΔE*ab over {R.shape[0]} samples, "
-                   "least-squares raw RGB → XYZ matrix"),
+        "method": smi_method(slope, R.shape[0]),
     }
 
 
@@ -301,16 +302,7 @@ class Measures:
         return rows
 
     def _repr_html_(self) -> str:
-        rows = "".join(
-            f"<tr><td>{ill}</td><td>{d['mean']:.3f}</td><td>{d['median']:.3f}</td>"
-            f"<td>{d['p95']:.3f}</td><td>{d['max']:.3f}</td></tr>"
-            for ill, d in self.delta_E00.items())
-        q = " / ".join(f"{v:.4f}" for v in self.neugebauer_q)
-        return (f"<p>Vora value ν = {self.vora_value:.4f}; Neugebauer q (R/G/B) = {q}; "
-                f"Luther residual {self.luther_residual:.4f}; "
-                f"{self.smi['method'].split(' =')[0]} {self.smi['smi']:.1f}</p>"
-                f"<table><tr><th>illuminant</th><th>mean ΔE00</th><th>median</th><th>p95</th>"
-                f"<th>max</th></tr>{rows}</table>")
+        return measures_html(self)
 
 
 class DesignEvaluator:
@@ -386,8 +378,9 @@ class DesignEvaluator:
                                  weights=np.asarray(w), sample_sets=sets)
         notes.extend(self.bench.notes)
         # recording / viewing illuminants for ν
-        _, self.rec, _ = design.illuminant_values(design.fit.recording_illuminant)
-        _, self.view, _ = design.illuminant_values(design.fit.viewing_illuminant)
+        self.recording_label, self.rec, rec_notes = design.illuminant_values(design.fit.recording_illuminant)
+        self.viewing_label, self.view, view_notes = design.illuminant_values(design.fit.viewing_illuminant)
+        self.illuminant_notes = tuple(dict.fromkeys((*rec_notes, *view_notes)))
         self._QA = orthonormal_basis(self.view[:, None] * self.cmfs, what="X")
         A_t = self.view[:, None] * self.targets.T
         self._A_t = A_t / np.linalg.norm(A_t)
@@ -488,22 +481,13 @@ class DesignEvaluator:
         cam_uv = XYZ_to_uv_prime(Lab_to_XYZ(res.camera_Lab, display_white))
         true_uv = XYZ_to_uv_prime(Lab_to_XYZ(res.true_Lab, display_white))
         methods = {
-            "vora_value": "Tr(P_A P_M)/3, QR projectors, A = diag(l_view)·x̄ȳz̄, M = diag(l_rec)·S "
-                          "(Vora & Trussell 1993), 0-1",
-            "neugebauer_q": "‖P_A m‖²/‖m‖² per channel (Neugebauer 1956), 0-1",
-            "luther_residual": "‖(I − P_M)·diag(l_view)·T‖_F / ‖diag(l_view)·T‖_F, T the target "
-                               "colour-matching functions, 0 = Luther",
-            "delta_E00": "CIEDE2000 (CIE 142-2001) between the camera (white balance on the perfect "
-                         "diffuser, then the matrix) and the truth adapted to the display white "
-                         "(linear Bradford), CIELAB against the display white; over the samples of "
-                         "each illuminant",
+            "vora_value": METHODS["vora_value"],
+            "neugebauer_q": METHODS["neugebauer_q"],
+            "luther_residual": METHODS["luther_residual"],
+            "delta_E00": METHODS["delta_E00"],
             "matrix": f"{method}, {scope}",
             "smi": smi["method"] + ", CIE 13.3 TCS01-08 under D65",
-            "noise": (f"shot + read noise: full well {self.design.noise.full_well_e:g} e⁻, read "
-                      f"{self.design.noise.read_noise_e:g} e⁻ rms, white at "
-                      f"{self.design.noise.exposure:g} of full well in the strongest channel, grey "
-                      f"{self.design.noise.grey:g}; σ_out in display RGB (white = 1); row norms = "
-                      "noise gain for independent channel noise"),
+            "noise": noise_method(self.design.noise),
             "recording_illuminant": self.design.fit.recording_illuminant or "equal energy",
             "viewing_illuminant": self.design.fit.viewing_illuminant or "equal energy",
             "observer": observer_label(self.design.observer),

@@ -12,7 +12,6 @@ objectives are those of :meth:`workbench.analysis.evaluator.DesignEvaluator.resi
 
 from __future__ import annotations
 
-import json
 import math
 import threading
 import time
@@ -24,6 +23,8 @@ import numpy as np
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
 from workbench.errors import WorkbenchError
 from workbench.model.design import CHANNELS, Design
+from workbench.report.html import fit_result_html
+from workbench.report.json_text import json_text
 
 __all__ = ["FitResult", "FitStatus", "FIT_STATUS_TABLE", "fit_design", "FitStopped"]
 
@@ -153,26 +154,10 @@ class FitResult:
         }
 
     def to_json(self) -> str:
-        return json.dumps(_jsonable(self.to_dict()), indent=2, ensure_ascii=False, allow_nan=False)
+        return json_text(self.to_dict())
 
     def _repr_html_(self) -> str:
-        rows = "".join(
-            f"<tr><td>{p['name']}</td><td>{p['start']:.4g}</td><td>{p['value']:.4g}</td>"
-            f"<td>[{p['min']:.4g}, {p['max']:.4g}]</td><td>{p['at_bound'] or ''}</td></tr>"
-            for p in self.parameters)
-        b, a = self.before, self.after
-        stats = "".join(
-            f"<tr><td>{ill}</td><td>{b.delta_E00[ill]['mean']:.3f}</td><td>{a.delta_E00[ill]['mean']:.3f}</td>"
-            f"<td>{a.delta_E00[ill]['p95']:.3f}</td><td>{a.delta_E00[ill]['max']:.3f}</td></tr>"
-            for ill in a.illuminants)
-        return (
-            f"<p><b>Fit of {self.design.name}</b>: {self.status_name} ({self.status_message}); objective "
-            f"{self.objective}; {self.evaluations} evaluations in {self.seconds:.2f} s.</p>"
-            f"<p>Vora value ν {b.vora_value:.4f} → {a.vora_value:.4f}; matrix {a.matrix_method}, "
-            f"{a.matrix_scope}.</p>"
-            f"<table><tr><th>parameter</th><th>start</th><th>fitted</th><th>bounds</th><th>at bound</th></tr>"
-            f"{rows}</table><table><tr><th>illuminant</th><th>mean ΔE00 before</th><th>mean ΔE00 after</th>"
-            f"<th>p95 after</th><th>max after</th></tr>{stats}</table>")
+        return fit_result_html(self)
 
 
 def parameter_unit(design: Design, name: str) -> str:
@@ -186,21 +171,6 @@ def parameter_unit(design: Design, name: str) -> str:
             if spec is not None:
                 return {"deg": "°"}.get(spec.unit, spec.unit) or "1"
     return ""
-
-
-def _jsonable(v):
-    if isinstance(v, dict):
-        return {str(k): _jsonable(x) for k, x in v.items()}
-    if isinstance(v, (list, tuple)):
-        return [_jsonable(x) for x in v]
-    if isinstance(v, np.ndarray):
-        return _jsonable(v.tolist())
-    if isinstance(v, (np.floating, float)):
-        f = float(v)
-        return f if math.isfinite(f) else None
-    if isinstance(v, np.integer):
-        return int(v)
-    return v
 
 
 class _Tracker:

@@ -79,6 +79,8 @@ from workbench.analysis.light_spd import (
     CAUTION, REQUIRED_RANGE, absolute_scale, daylight_spd, parse_light, planckian_spd,
     read_light, reference_illuminant, working_spd,
 )
+from workbench.report.html import light_report_html
+from workbench.report.light import report_rows
 
 __all__ = [
     "CAUTION",
@@ -102,6 +104,7 @@ __all__ = [
     "compare_lights",
     "LightReport",
     "light_report",
+    "report_rows",
 ]
 
 
@@ -141,40 +144,7 @@ class LightReport:
         return d
 
     def _repr_html_(self) -> str:
-        import html
-
-        rows = "".join(
-            f"<tr><td>{html.escape(str(r['quantity']))}</td><td style='text-align:right'>{_fmt(r['value'])}</td>"
-            f"<td>{html.escape(str(r['unit']))}</td><td style='font-size:85%'>{html.escape(r['method'])}</td></tr>"
-            for r in report_rows(self))
-        warn = "".join(f"<p style='color:#a50'>warning: {html.escape(w)}</p>" for w in self.indices.warnings)
-        return (f"<p style='color:#a00'><b>Caution:</b> {html.escape(self.caution)}</p>{warn}"
-                f"<table><tr><th>quantity</th><th>value</th><th>unit</th><th>method</th></tr>{rows}</table>")
-
-
-def _fmt(v) -> str:
-    if v is None:
-        return "n/a"
-    if isinstance(v, float):
-        return f"{v:.4f}" if abs(v) < 0.1 else f"{v:.1f}" if abs(v) >= 1000 else f"{v:.2f}"
-    return str(v)
-
-
-def report_rows(report: LightReport) -> list[dict]:
-    """Rows (quantity, value, unit, method) of a report: the indices, then the camera fidelity index."""
-    rows = report.indices.rows()
-    if report.camera is not None:
-        c = report.camera
-        rows.append({"quantity": "camera fidelity index", "value": c.index, "unit": "1 (0-100)",
-                     "method": f"{c.camera} vs {c.reference}, 113 samples; Tech 3355 scoring formula on "
-                               "open samples (not the EBU's index)"})
-        for s, v in c.by_set.items():
-            rows.append({"quantity": f"  over {s}", "value": v["camera_fidelity_index"], "unit": "1 (0-100)",
-                         "method": f"the same on the {v['count']} samples of the set"})
-        st = c.stats
-        rows.append({"quantity": "camera ΔE00 mean / max", "value": f"{st['mean']:.2f} / {st['max']:.2f}",
-                     "unit": "ΔE00", "method": f"CIEDE2000 per sample, test vs reference; worst {st['worst']}"})
-    return rows
+        return light_report_html(self)
 
 
 def light_report(spd: Spectra, *, camera=None, compare: Spectra | None = None, ssi_reference="auto",

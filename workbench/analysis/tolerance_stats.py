@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import csv
 import io
-import json
 import math
 from dataclasses import dataclass, field as dc_field
 
@@ -30,6 +29,9 @@ from workbench.model.design import CHANNELS, Design, ToleranceSpec
 from workbench.errors import WorkbenchError
 from workbench.analysis.tolerance_draws import parameter_unit
 from workbench.analysis.tolerance_field import FieldShift
+from workbench.report.html import tolerance_html
+from workbench.report.json_text import json_text, jsonable
+from workbench.report.methods import METHODS
 
 __all__ = [
     "PERCENTILES",
@@ -230,22 +232,6 @@ def passes_spec(arr: dict, case: str, vora, spec: ToleranceSpec) -> np.ndarray:
 # --------------------------------------------------------------------------
 
 
-def _clean(v):
-    if isinstance(v, dict):
-        return {str(k): _clean(x) for k, x in v.items()}
-    if isinstance(v, (list, tuple)):
-        return [_clean(x) for x in v]
-    if isinstance(v, np.ndarray):
-        return _clean(v.tolist())
-    if isinstance(v, (float, np.floating)):
-        f = float(v)
-        return f if math.isfinite(f) else None
-    if isinstance(v, (np.integer,)):
-        return int(v)
-    if isinstance(v, np.bool_):
-        return bool(v)
-    return v
-
 
 @dataclass(frozen=True, eq=False)
 class ToleranceResult:
@@ -422,7 +408,7 @@ class ToleranceResult:
                 "width_means": "standard deviation" if t.distribution == "normal" else "half-width",
                 "sampled": distribution(x),
             })
-        return _clean({
+        return jsonable({
             "design": self.design.name,
             "file": self.design.source,
             "trials": self.trials,
@@ -447,7 +433,7 @@ class ToleranceResult:
             "parameters": params,
             "field": None if self.field is None else self.field.to_dict(),
             "units": {**_UNITS, **{k: parameter_unit(self.design, k) for k in self.tolerances}},
-            "methods": {**_METHODS, "delta_E00": _DE_METHOD, "vora_value": _NU_METHOD,
+            "methods": {**_METHODS, "delta_E00": METHODS["delta_E00"], "vora_value": METHODS["vora_value"],
                         "matrix_cases": {c: _METHODS[c] for c in self.cases}},
             "notes": list(self.notes),
         })
@@ -456,8 +442,8 @@ class ToleranceResult:
         """The summary as JSON text; with ``trials=True`` also every trial's values (column arrays)."""
         d = self.summary()
         if trials:
-            d["trials_data"] = _clean(self.trial_columns())
-        return json.dumps(d, indent=2, ensure_ascii=False, allow_nan=False)
+            d["trials_data"] = jsonable(self.trial_columns())
+        return json_text(d)
 
     def trial_columns(self) -> dict:
         """Every trial as columns: ``trial``, the parameters, ``vora_value``, then per case and illuminant."""
@@ -491,42 +477,5 @@ class ToleranceResult:
         return buf.getvalue()
 
     def _repr_html_(self) -> str:
-        s = self.summary()
-        rows = []
-        for c in self.cases:
-            cs = s["cases"][c]
-            for ill, d in cs["illuminants"].items():
-                m = d["delta_E00_mean"]
-                rows.append(f"<tr><td>{c}</td><td>{ill}</td><td>{d['nominal']['delta_E00_mean']:.3f}</td>"
-                            f"<td>{m['p5']:.3f}</td><td>{m['p50']:.3f}</td><td>{m['p95']:.3f}</td>"
-                            f"<td>{d['delta_E00_max']['p95']:.3f}</td></tr>")
-        ys = "; ".join(
-            f"{c}: {100 * s['cases'][c]['yield']:.1f} % (95 % Wilson {100 * s['cases'][c]['yield_interval_95'][0]:.1f}"
-            f"–{100 * s['cases'][c]['yield_interval_95'][1]:.1f} %)" for c in self.cases)
-        rk = s["ranking"]["parameters"][:5]
-        rank = "".join(f"<tr><td>{r['name']}</td><td>{'σ' if r['distribution'] == 'normal' else '±'} "
-                       f"{r['width']:g} {r['unit']}</td>"
-                       f"<td>{100 * (r['variance_contribution'] or 0):.1f} %</td>"
-                       f"<td>{(r['oat_minus'] or 0):+.3f} / {(r['oat_plus'] or 0):+.3f}</td></tr>" for r in rk)
-        v = s["vora_value"]
-        stop = " <b>Interrupted</b>: statistics over the finished trials." if self.interrupted else ""
-        return (
-            f"<p><b>Tolerance analysis of {self.design.name}</b>: {self.trials} trials (seed {self.seed}).{stop}</p>"
-            f"<p>Yield (mean ΔE00 ≤ {self.spec.max_mean_delta_E00:g} under every illuminant and "
-            f"ν ≥ {self.spec.min_vora:g}): {ys}.</p>"
-            f"<p>Vora value ν (0-1): nominal {v['nominal']:.4f}, p5 {v['p5']:.4f}, p50 {v['p50']:.4f}, "
-            f"p95 {v['p95']:.4f}. The nominal design {'passes' if s['nominal_passes'] else 'fails'} the spec "
-            f"({self.primary} matrix).</p>"
-            "<p>ΔE00: CIEDE2000 units, over the design's samples; percentiles over the trials (linear "
-            "interpolation); p95 of max ΔE00 = 95th percentile over the units of each unit's largest ΔE00.</p>"
-            "<table><tr><th>matrix</th><th>illuminant</th><th>nominal mean ΔE00</th><th>p5</th><th>p50</th>"
-            f"<th>p95</th><th>p95 of max ΔE00</th></tr>{''.join(rows)}</table>"
-            f"<p>What drives the worst-illuminant mean ΔE00 ({self.primary} matrix): variance contribution "
-            "(correlation ratio η²) and one-at-a-time change at ∓1 width (ΔE00).</p>"
-            f"<table><tr><th>parameter</th><th>tolerance</th><th>η²</th><th>∓1 width</th></tr>{rank}</table>")
+        return tolerance_html(self)
 
-
-_DE_METHOD = ("CIEDE2000 (CIE 142-2001) between the camera (white balance on the perfect diffuser, then the "
-              "matrix) and the truth adapted to the display white (linear Bradford), over the design's samples "
-              "under each illuminant (workbench.analysis.evaluator.DesignEvaluator)")
-_NU_METHOD = "Vora value Tr(P_A P_M)/3 with the design's recording and viewing illuminants (Vora & Trussell 1993), 0-1"

@@ -42,6 +42,7 @@ from scipy.optimize import least_squares
 
 from workbench.colorimetry.coordinates import XYZ_to_uv_prime, XYZ_to_xy, xy_to_uv_prime
 from workbench.errors import WorkbenchError
+from workbench.report.html import emitter_fit_html
 from workbench.colorimetry.primaries import Primaries
 from workbench.model.spectra import Spectra, check_wavelengths
 from workbench.colorimetry.tristimulus import emission_weights
@@ -322,12 +323,7 @@ class EmitterFit:
         }
 
     def _repr_html_(self) -> str:
-        rows = "".join(
-            f"<tr><td>{n}</td><td>{xy[0]:.4f}, {xy[1]:.4f}</td><td>{d:.5f}</td></tr>"
-            for n, xy, d in zip(_PRIMARY_NAMES, self.primaries_xy, self.delta_uv_primaries)
-        )
-        return (f"<p><b>{'converged' if self.success else 'NOT reached'}</b>: {self.message}</p>"
-                f"<table><tr><th>primary</th><th>x, y</th><th>Δu′v′</th></tr>{rows}</table>")
+        return emitter_fit_html(self, _PRIMARY_NAMES)
 
 
 def fit_emitter_set(emitters, target: Primaries, wavelengths, *, observer="2",

@@ -5,7 +5,7 @@
   :class:`~workbench.errors.WorkbenchError`), never a traceback;
 - :func:`uploaded_files` / :func:`read_uploaded_spectra`: the files of a
   ``FileUpload`` widget, read by the CSV rules of ``workbench.fileio.spectra_csv``;
-- :func:`figure_png`, :func:`show_png`, :func:`html_table`, :func:`guard`.
+- :func:`figure_png`, :func:`show_png`, :func:`html_table` (from :mod:`workbench.report.html`), :func:`guard`.
 
 Figures are drawn by matplotlib's Agg renderer into PNG images held by
 ``ipywidgets.Output`` widgets, so a picture is part of the widget state:
@@ -24,6 +24,7 @@ import ipywidgets as W
 
 from workbench.model.design import Design
 from workbench.errors import WorkbenchError
+from workbench.report.html import html_table  # the one table of the report views, re-exported for the panels
 
 __all__ = [
     "error_text",
@@ -190,19 +191,6 @@ def output_png(output: W.Output) -> bytes | None:
         if "image/png" in data:
             return base64.b64decode(data["image/png"])
     return None
-
-
-def html_table(rows, columns, *, headers=None, cls: str = "", caption: str = "") -> str:
-    """A small HTML table; cells are escaped text (already formatted)."""
-    heads = headers or columns
-    th = "".join(f'<th style="text-align:left;padding:1px 6px">{html.escape(str(h))}</th>' for h in heads)
-    body = "".join(
-        "<tr>" + "".join(f'<td style="padding:1px 6px">{html.escape(str(r.get(c, "")))}</td>'
-                         for c in columns) + "</tr>" for r in rows)
-    cap = (f'<div style="font-weight:bold;font-size:12px;margin-top:4px">{html.escape(caption)}</div>'
-           if caption else "")
-    return (f'{cap}<table class="{cls}" style="border-collapse:collapse;font-size:12px;line-height:1.3;'
-            f'margin:2px 0 6px 0"><thead><tr>{th}</tr></thead><tbody>{body}</tbody></table>')
 
 
 def compact(content: str) -> str:

@@ -21,15 +21,10 @@ import ipywidgets as W
 
 from workbench import demo_dir
 from workbench.analysis.light import CAUTION, LightReport, light_report, parse_light, read_light, report_rows
+from workbench.report.light import value_text
 from workbench.widgets.common import ErrorLine, compact, figure_png, guard, html_table, show_png, uploaded_files
 
 __all__ = ["LightPanel", "light_panel"]
-
-
-def _cell(v) -> str:
-    from workbench.analysis.light import _fmt
-
-    return _fmt(v)
 
 
 class LightPanel(W.VBox):
@@ -175,7 +170,7 @@ class LightPanel(W.VBox):
         return self.report
 
     def _show_indices(self, r: LightReport) -> None:
-        rows = [{**row, "value": _cell(row["value"])} for row in report_rows(r) if r.camera is None
+        rows = [{**row, "value": value_text(row["value"])} for row in report_rows(r) if r.camera is None
                 or not str(row["quantity"]).startswith(("camera", "  over"))]
         warn = "".join(f'<p style="color:#a50;margin:2px 0">warning: {html.escape(w)}</p>'
                        for w in r.indices.warnings)

@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import csv
 import io
-import json
 import math
 import sys
 
 from workbench.fileio.atomic import write_text_atomically
+from workbench.report.json_text import json_text
 
 FORMATS = ("table", "json", "csv")
 
@@ -18,19 +18,9 @@ def notice(message: str) -> None:
     print(f"note: {message}", file=sys.stderr)
 
 
-def _clean(value):
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_clean(v) for v in value]
-    return value
-
-
 def to_json(obj) -> str:
-    """JSON text with NaN/inf written as null (valid JSON)."""
-    return json.dumps(_clean(obj), indent=2, ensure_ascii=False, allow_nan=False)
+    """JSON text with NaN/inf written as null (valid JSON); :func:`workbench.report.json_text.json_text`."""
+    return json_text(obj)
 
 
 def render_rows(rows: list[dict], columns: list[str], fmt: str, *, header_lines=(), digits=4) -> str:

@@ -11,11 +11,13 @@ from __future__ import annotations
 
 import numpy as np
 
-from workbench.colorimetry.cie import cmfs_on, observer_label
-from workbench.model.design import CHANNELS
-from workbench.fileio.design_toml import load_design
-from workbench.analysis.measures import neugebauer_q, vora_value
+from workbench.analysis.evaluator import DesignEvaluator
 from workbench.cli.commands._output import notice, render_rows, to_json
+from workbench.colorimetry.cie import observer_label
+from workbench.fileio.design_toml import load_design
+from workbench.fileio.spectra_csv import write_spectra_csv
+from workbench.model.design import CHANNELS
+from workbench.report.methods import METHODS
 
 NAME = "evaluate"
 
@@ -64,20 +66,11 @@ def curve_summary(wl: np.ndarray, s: np.ndarray) -> dict:
 
 
 def evaluate(design) -> dict:
-    """The summary that ``workbench evaluate`` prints, as a dict."""
-    from workbench.analysis.evaluator import DesignEvaluator
-
+    """The summary that ``workbench evaluate`` prints, as a dict (every measure from the evaluator)."""
     ev = DesignEvaluator(design)
     m = ev.measures(use_stored_matrix=design.matrix is not None)
-    model = ev.model
-    sens = model.channel_sensitivities()
+    sens = ev.model.channel_sensitivities()
     wl = sens.wavelengths
-    S = sens.values.T
-    X = cmfs_on(wl, design.observer)
-    rec_label, rec, rec_notes = design.illuminant_values(design.fit.recording_illuminant)
-    view_label, view, view_notes = design.illuminant_values(design.fit.viewing_illuminant)
-    nu = vora_value(S, X.values, rec, view)
-    q = neugebauer_q(S, X.values, rec, view)
     return {
         "design": design.name,
         "file": design.source,
@@ -85,24 +78,24 @@ def evaluate(design) -> dict:
         "observer": observer_label(design.observer),
         "sensitivity_units": sens.units,
         "channels": {
-            ch: {**curve_summary(wl, sens[ch]), "neugebauer_q": float(q[k])}
+            ch: {**curve_summary(wl, sens[ch]), "neugebauer_q": m.neugebauer_q[k]}
             for k, ch in enumerate(CHANNELS)
         },
-        "vora_value": float(nu),
+        "vora_value": m.vora_value,
         **{k: v for k, v in m.summary().items() if k not in ("vora_value", "neugebauer_q")},
         "method": {
-            "sensitivities": "product of the element curves along each path of the chain",
-            "peak_nm": "grid point of the maximum, nm",
-            "half_max_nm": "50 % of the peak, linear interpolation between grid points, nm",
+            "sensitivities": METHODS["sensitivities"],
+            "peak_nm": METHODS["peak_nm"],
+            "half_max_nm": METHODS["half_max_nm"],
             "area": f"trapezoidal integral of the sensitivity over the grid, {sens.units}·nm",
-            "vora_value": "Tr(P_A P_M)/3 with QR projectors (Vora & Trussell 1993), 0-1",
-            "neugebauer_q": "|P_A m|^2/|m|^2 per channel (Neugebauer 1956), 0-1",
-            "recording_illuminant": rec_label,
-            "viewing_illuminant": view_label,
+            "vora_value": m.methods["vora_value"],
+            "neugebauer_q": m.methods["neugebauer_q"],
+            "recording_illuminant": ev.recording_label,
+            "viewing_illuminant": ev.viewing_label,
             **{k: v for k, v in m.methods.items()
                if k not in ("vora_value", "neugebauer_q", "recording_illuminant", "viewing_illuminant")},
         },
-        "notes": list(dict.fromkeys(list(sens.notes) + list(rec_notes) + list(view_notes) + list(ev.notes))),
+        "notes": list(dict.fromkeys(list(sens.notes) + list(ev.illuminant_notes) + list(ev.notes))),
     }
 
 
@@ -112,8 +105,6 @@ def run(args) -> int:
     for n in result["notes"]:
         notice(n)
     if args.sensitivities:
-        from workbench.fileio.spectra_csv import write_spectra_csv
-
         write_spectra_csv(design.channel_sensitivities(), args.sensitivities)
         notice(f"wrote the R, G, B sensitivities to {args.sensitivities}")
     if args.format == "json":

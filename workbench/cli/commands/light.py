@@ -17,6 +17,7 @@ from pathlib import Path
 
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.cli.commands._output import notice, to_json
+from workbench.report.light import report_rows, value_text
 
 NAME = "light"
 
@@ -108,12 +109,6 @@ def write_figures(report, directory) -> list[Path]:
     return out
 
 
-def _cell(v) -> str:
-    from workbench.analysis.light import _fmt
-
-    return _fmt(v)
-
-
 def _aligned(rows: list[dict], columns: list[str], right=("value",), header_lines=()) -> str:
     """Rows as text columns: numbers right-aligned, words left-aligned, the last column unpadded."""
     table = [columns] + [[str(r.get(c, "")) for c in columns] for r in rows]
@@ -135,9 +130,7 @@ def _table(report) -> str:
         f"units {ind.spd.units}",
     ]
     lines += [f"warning: {w}" for w in ind.warnings]
-    from workbench.analysis.light import report_rows
-
-    rows = [{**r, "value": _cell(r["value"])} for r in report_rows(report)]
+    rows = [{**r, "value": value_text(r["value"])} for r in report_rows(report)]
     out = [_aligned(rows, ["quantity", "value", "unit", "method"], header_lines=lines)]
     if report.camera is not None:
         c = report.camera
