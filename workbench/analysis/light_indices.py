@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from workbench.colorimetry.cie import _canonical_illuminant
+from workbench.colorimetry.cie import canonical_illuminant
 from workbench.colorimetry.coordinates import XYZ_to_uv_prime, XYZ_to_xy
 from workbench.errors import WorkbenchError
 from workbench.model.spectra import Spectra, grid
@@ -238,7 +238,7 @@ def _ssi_reference(ssi_reference, cct: float) -> tuple[str, object, tuple[str, .
         label, v = reference_illuminant(cct, wl, daylight_from=SSI_DAYLIGHT_FROM)
         return f"{label} (automatic)", colour_sd(wl, v, label), ()
     try:
-        name = _canonical_illuminant(ref)
+        name = canonical_illuminant(ref)
     except WorkbenchError:
         raise WorkbenchError(
             f"SSI reference must be 'auto', a CIE illuminant name (A, D50, D65, ...) or an SPD file "

@@ -71,6 +71,7 @@ from workbench.model.spectra import check_wavelengths, is_uniform, resampling_ma
 from workbench.fileio.spectral_cube import SUB_BLOCK, describe_grid
 
 __all__ = [
+    "client_for",
     "BatchPipeline",
     "SpectraEvaluation",
     "RenderResult",
@@ -551,7 +552,7 @@ def render_dask(pipeline: BatchPipeline, cube, *, images: bool | None = None, sc
     t0 = time.perf_counter()
     bar = _progress_bar(len(tasks), progress, desc)
     try:
-        client = _client_for(scheduler)
+        client = client_for(scheduler)
         if client is None:
             tb = _TaskBar(bar, prefix)
             with tb.callback:
@@ -576,7 +577,7 @@ def render_dask(pipeline: BatchPipeline, cube, *, images: bool | None = None, sc
     return _combine(results, offsets, images, time.perf_counter() - t0, pipeline.notes)
 
 
-def _client_for(scheduler):
+def client_for(scheduler):
     """None for a local scheduler name, else a distributed Client (made from an address)."""
     if scheduler in ("threads", "sync", "synchronous", "single-threaded"):
         return None

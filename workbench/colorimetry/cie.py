@@ -46,6 +46,7 @@ from workbench.errors import WorkbenchError
 from workbench.model.spectra import Spectra, check_wavelengths, resample_values
 
 __all__ = [
+    "canonical_illuminant",
     "OBSERVERS",
     "observer_key",
     "cmfs_table",
@@ -177,7 +178,7 @@ def illuminant_table(name: str) -> tuple[np.ndarray, np.ndarray]:
 
     ``name`` as :func:`illuminant_on` accepts it (``F2`` for ``FL2``, any case).
     """
-    i = illuminant_names().index(_canonical_illuminant(str(name)))
+    i = illuminant_names().index(canonical_illuminant(str(name)))
     a, b = table("illuminant_offsets")[i:i + 2]
     return table("illuminant_wl")[a:b], table("illuminant_values")[a:b]
 
@@ -209,7 +210,8 @@ def daylight_basis() -> tuple[np.ndarray, np.ndarray]:
     return table("daylight_wl"), table("daylight_S")
 
 
-def _canonical_illuminant(name: str) -> str:
+def canonical_illuminant(name: str) -> str:
+    """The name colour-science gives an illuminant ('d65' → 'D65', 'F2' → 'FL2'); unknown names unchanged."""
     names = illuminant_names()
     if name in names:
         return name
@@ -382,7 +384,7 @@ def illuminant_on(wavelengths, illuminant, *, interpolation: str = "linear") -> 
                 f"{Spectra(wl, np.zeros(wl.size)).describe_grid()}; resample one of them first"
             )
         return name, Tabulated(illuminant.flat()[0], f"illuminant from {name}")
-    name = _canonical_illuminant(str(illuminant))
+    name = canonical_illuminant(str(illuminant))
     if interpolation not in ("linear", "sprague"):
         raise WorkbenchError(f"interpolation must be linear or sprague (got {interpolation!r})")
     return name, _illuminant_on(wl.tobytes(), name, interpolation)

@@ -42,7 +42,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from workbench.colorimetry.cie import _canonical_illuminant as _canonical_name
+from workbench.colorimetry.cie import canonical_illuminant
 from workbench.colorimetry.cie import cmfs_on, illuminant_on, observer_key, observer_label
 from workbench.errors import RangeCoverageError, WorkbenchError
 from workbench.model.spectra import Spectra, grid, is_uniform
@@ -205,7 +205,7 @@ def _astm_weights(wl, step, observer, illuminant_key) -> Weights:
     # interpolation (the CIE's own 1 nm D65 table is that), every other table
     # by Sprague (CIE 167), which reproduces the published E308 whites of C
     # and D50.
-    name = _canonical_name(illuminant_key)
+    name = canonical_illuminant(illuminant_key)
     how = "linear" if name in ("D65", "A") else "sprague"
     name, ill1 = illuminant_on(wl1, name, interpolation=how)
     cmfs = colour.MultiSpectralDistributions(cm1, wl1)

@@ -420,7 +420,7 @@ def _check_samples(c: _Checker, v):
 
 
 def _check_illuminants(c: _Checker, v):
-    from workbench.colorimetry.cie import _canonical_illuminant
+    from workbench.colorimetry.cie import canonical_illuminant
 
     out = []
     for i, t in enumerate(_check_named_list(c, v, "illuminants")):
@@ -436,7 +436,7 @@ def _check_illuminants(c: _Checker, v):
             cie = c.string(t["cie"], f"{key}.cie")
             if cie is not None:
                 try:
-                    _canonical_illuminant(cie)
+                    canonical_illuminant(cie)
                 except WorkbenchError:
                     c.bad(f"{key}.cie", "a CIE illuminant name such as A, D50, D65, FL2, LED-B1", cie)
             if "column" in t:

@@ -11,15 +11,16 @@ from workbench.colorimetry.primaries import Primaries
 from workbench.model.spectra import Spectra
 from workbench.plots._canvas import new_figure
 
-__all__ = ["plot_chromaticity_diagram", "plot_target_cmfs"]
+__all__ = ["plot_chromaticity_diagram", "plot_target_cmfs", "spectral_locus", "draw_spectral_locus", "AXIS_LABELS"]
 
-_AXIS = {
+AXIS_LABELS = {
     "xy": ("x (CIE 1931 chromaticity)", "y (CIE 1931 chromaticity)"),
     "uv": ("u′ (CIE 1976 UCS)", "v′ (CIE 1976 UCS)"),
 }
 
 
-def _spectral_locus(diagram: str, observer: str) -> tuple[np.ndarray, np.ndarray]:
+def spectral_locus(diagram: str, observer: str) -> tuple[np.ndarray, np.ndarray]:
+    """The spectral locus 380-700 nm: wavelengths (n,) nm and chromaticities (n, 2) in `diagram` ('xy' or 'uv')."""
     wl, cm = cmfs_table(observer)
     keep = (wl >= 380) & (wl <= 700)
     XYZ = np.asarray(cm)[keep]
@@ -27,8 +28,28 @@ def _spectral_locus(diagram: str, observer: str) -> tuple[np.ndarray, np.ndarray
     return wl[keep], pts
 
 
+LOCUS_LABELS_NM = (460, 480, 500, 520, 540, 560, 580, 600, 620)
+
+
+def draw_spectral_locus(ax, diagram: str = "uv", observer="2", *, label_wavelengths=LOCUS_LABELS_NM,
+                        lw: float = 1.1) -> np.ndarray:
+    """Draw the closed spectral locus (380-700 nm and the purple line) with wavelength labels on ``ax``.
+
+    Returns the closed locus (n + 1, 2) in ``diagram`` ('xy' or 'uv') chromaticities.
+    """
+    key = observer_key(observer)
+    wl, locus = spectral_locus(diagram, key)
+    closed = np.vstack([locus, locus[:1]])
+    ax.plot(closed[:, 0], closed[:, 1], color="0.2", lw=lw,
+            label=f"spectral locus 380-700 nm ({observer_label(key)})")
+    for w in label_wavelengths:
+        i = int(np.argmin(np.abs(wl - w)))
+        ax.annotate(f"{w:g}", locus[i], fontsize=7, color="0.3", xytext=(3, 3), textcoords="offset points")
+    return closed
+
+
 def plot_chromaticity_diagram(primaries, *, diagram: str = "xy", observer="2", ax=None,
-                              label_wavelengths=(460, 480, 500, 520, 540, 560, 580, 600, 620)):
+                              label_wavelengths=LOCUS_LABELS_NM):
     """Spectral locus, purple line, the gamut triangles and their whites.
 
     Parameters
@@ -48,22 +69,15 @@ def plot_chromaticity_diagram(primaries, *, diagram: str = "xy", observer="2", a
     sets = [primaries] if isinstance(primaries, Primaries) else list(primaries)
     if ax is None:
         ax = new_figure(6, 6, layout="constrained").subplots()
-    wl, locus = _spectral_locus(d, key)
-    closed = np.vstack([locus, locus[:1]])
-    ax.plot(closed[:, 0], closed[:, 1], color="0.2", lw=1.2,
-            label=f"spectral locus 380-700 nm ({observer_label(key)})")
-    for w in label_wavelengths:
-        i = int(np.argmin(np.abs(wl - w)))
-        ax.annotate(f"{w:g}", locus[i], fontsize=7, color="0.3",
-                    xytext=(3, 3), textcoords="offset points")
+    draw_spectral_locus(ax, d, key, label_wavelengths=label_wavelengths, lw=1.2)
     for p in sets:
         v = gamut_vertices(p, d)
         tri = np.vstack([v, v[:1]])
         line, = ax.plot(tri[:, 0], tri[:, 1], lw=1.5, label=f"{p.name} (white {p.white_name})")
         wpt = p.white_xy if d == "xy" else xy_to_uv_prime(p.white_xy)
         ax.plot(*wpt, marker="o", ms=4, color=line.get_color(), ls="none")
-    ax.set_xlabel(_AXIS[d][0])
-    ax.set_ylabel(_AXIS[d][1])
+    ax.set_xlabel(AXIS_LABELS[d][0])
+    ax.set_ylabel(AXIS_LABELS[d][1])
     ax.set_aspect("equal")
     ax.set_xlim(0, 0.8 if d == "xy" else 0.65)
     ax.set_ylim(0, 0.9 if d == "xy" else 0.65)

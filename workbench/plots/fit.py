@@ -23,10 +23,10 @@ from matplotlib.collections import PolyCollection
 from matplotlib.lines import Line2D
 from matplotlib.patches import Rectangle
 
-from workbench.colorimetry.cie import observer_key, observer_label
+from workbench.colorimetry.cie import observer_key
 from workbench.errors import WorkbenchError
 from workbench.plots._canvas import new_figure, place_axes
-from workbench.plots.chromaticity import _AXIS, _spectral_locus
+from workbench.plots.chromaticity import AXIS_LABELS, draw_spectral_locus
 
 __all__ = [
     "plot_sensitivities_vs_targets",
@@ -34,6 +34,8 @@ __all__ = [
     "plot_chromaticity_shifts",
     "plot_noise_vs_accuracy",
     "ARROW_SCALES",
+    "arrow_scale",
+    "draw_shift_arrows",
 ]
 
 _CHANNELS = ("R", "G", "B")
@@ -225,7 +227,7 @@ def plot_delta_e_bars(measures, *, label_worst: int = 3, fig=None):
 # --------------------------------------------------------------------------
 
 
-def _arrow_scale(lengths: np.ndarray, extent: float) -> int:
+def arrow_scale(lengths: np.ndarray, extent: float) -> int:
     """The first of ARROW_SCALES making the median arrow at least 3 % of the view."""
     med = float(np.median(lengths)) if lengths.size else 0.0
     if med <= 0 or extent <= 0:
@@ -262,8 +264,8 @@ def draw_shift_arrows(fig, ax, start, delta, de, names, *, k, corner, side, labe
     ax.set_xlim(corner[0], corner[0] + side)
     ax.set_ylim(corner[1], corner[1] + side)
     ax.set_aspect("equal", adjustable="box")
-    ax.set_xlabel(_AXIS["uv"][0])
-    ax.set_ylabel(_AXIS["uv"][1])
+    ax.set_xlabel(AXIS_LABELS["uv"][0])
+    ax.set_ylabel(AXIS_LABELS["uv"][1])
     return what
 
 
@@ -322,28 +324,22 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
         return (lo + hi) / 2 - side / 2, side
 
     _, side = region(np.vstack([t, c]) if len(t) else t)
-    k = _arrow_scale(np.linalg.norm(dv, axis=1), side)
+    k = arrow_scale(np.linalg.norm(dv, axis=1), side)
     corner, side = region(np.vstack([t, t + k * dv]) if len(t) else t)
 
     fig = new_figure(12.0, 5.8, fig)
     place_axes(fig, left=0.75, right=0.2, top=0.55, bottom=1.15, wspace=0.9, cols=2)
     full, zoom = fig.subplots(1, 2, gridspec_kw={"width_ratios": [1.0, 1.2]})
     observer = observer_key(observer)
-    wl, locus = _spectral_locus("uv", observer)
-    closed = np.vstack([locus, locus[:1]])
-    full.plot(closed[:, 0], closed[:, 1], color="0.2", lw=1.1,
-              label=f"spectral locus 380-700 nm ({observer_label(observer)})")
-    for w in (460, 480, 500, 520, 540, 560, 580, 600, 620):
-        i = int(np.argmin(np.abs(wl - w)))
-        full.annotate(f"{w:g}", locus[i], fontsize=7, color="0.3", xytext=(3, 3), textcoords="offset points")
+    closed = draw_spectral_locus(full, "uv", observer)
     full.plot(t[:, 0], t[:, 1], "o", ms=2.5, color="0.15", ls="none", label=f"{len(t)} samples (true colour)")
     full.add_patch(Rectangle(corner, side, side, fill=False, ec="tab:orange", lw=1.2,
                              label="region shown at right"))
     full.set_xlim(0, 0.65)
     full.set_ylim(0, 0.65)
     full.set_aspect("equal")
-    full.set_xlabel(_AXIS["uv"][0])
-    full.set_ylabel(_AXIS["uv"][1])
+    full.set_xlabel(AXIS_LABELS["uv"][0])
+    full.set_ylabel(AXIS_LABELS["uv"][1])
     full.legend(fontsize="x-small", loc="upper center", bbox_to_anchor=(0.5, -0.13), ncol=2)
     full.set_title("CIE 1976 u′v′ diagram", fontsize="small", y=1.0)
     full.grid(alpha=0.3)

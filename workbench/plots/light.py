@@ -17,10 +17,10 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from workbench.colorimetry.cie import cmfs_on, observer_label
+from workbench.colorimetry.cie import cmfs_on
 from workbench.analysis.light import CAUTION, CameraFidelity, LightComparison, LightIndices, reference_illuminant
 from workbench.plots._canvas import new_figure
-from workbench.plots.chromaticity import _AXIS, _spectral_locus
+from workbench.plots.chromaticity import AXIS_LABELS, draw_spectral_locus
 
 __all__ = [
     "plot_light_spd",
@@ -35,7 +35,7 @@ _WL_LABEL = "wavelength λ (nm)"
 _SET_COLOURS = {"cie-13.3": "tab:orange", "cie-224": "tab:blue"}
 _SET_LABEL = {"cie-13.3": "CIE 13.3 TCS01-14", "cie-224": "CIE 224:2017 CES01-99"}
 #: Factors the u′v′ arrows may be lengthened by (the first that makes them visible).
-from workbench.plots.fit import _arrow_scale, draw_shift_arrows  # noqa: E402  (one rule for every u′v′ shift plot)
+from workbench.plots.fit import arrow_scale, draw_shift_arrows  # noqa: E402  (one rule for every u′v′ shift plot)
 
 
 def _figure(width: float, height: float, fig=None):
@@ -259,25 +259,19 @@ def plot_camera_shifts(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
         return (lo + hi) / 2 - side / 2, side
 
     _, side = region(np.vstack([r, t]))
-    k = _arrow_scale(np.linalg.norm(dv, axis=1), side)
+    k = arrow_scale(np.linalg.norm(dv, axis=1), side)
     corner, side = region(np.vstack([r, r + k * dv]))
     fig = _figure(12.0, 6.2, fig)
     full, zoom = fig.subplots(1, 2, gridspec_kw={"width_ratios": [1.0, 1.25]})
-    wl, locus = _spectral_locus("uv", "2")
-    closed = np.vstack([locus, locus[:1]])
-    full.plot(closed[:, 0], closed[:, 1], color="0.2", lw=1.1,
-              label=f"spectral locus 380-700 nm ({observer_label('2')})")
-    for w in (460, 480, 500, 520, 540, 560, 580, 600, 620):
-        i = int(np.argmin(np.abs(wl - w)))
-        full.annotate(f"{w:g}", locus[i], fontsize=7, color="0.3", xytext=(3, 3), textcoords="offset points")
+    draw_spectral_locus(full, "uv", "2")
     full.plot(r[:, 0], r[:, 1], "o", ms=2.5, color="0.15", ls="none",
               label=f"{len(r)} samples under the reference")
     full.add_patch(Rectangle(corner, side, side, fill=False, ec="tab:orange", lw=1.2, label="region shown at right"))
     full.set_xlim(0, 0.65)
     full.set_ylim(0, 0.65)
     full.set_aspect("equal")
-    full.set_xlabel(_AXIS["uv"][0])
-    full.set_ylabel(_AXIS["uv"][1])
+    full.set_xlabel(AXIS_LABELS["uv"][0])
+    full.set_ylabel(AXIS_LABELS["uv"][1])
     full.grid(alpha=0.3)
     full.legend(fontsize="x-small", loc="upper center", bbox_to_anchor=(0.5, -0.12), ncol=2)
     full.set_title("CIE 1976 u′v′ of the camera's renderings", fontsize="small")

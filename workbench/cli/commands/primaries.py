@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -16,10 +17,11 @@ from workbench.colorimetry.primaries import (
     primaries_named,
     white_chromaticity,
 )
-from workbench.colorimetry.signals import BAR_COLUMNS, colour_bars, luma_coefficients_of
+from workbench.fileio.spectra_csv import read_spectra_csv, write_spectra_csv
 from workbench.model.spectra import grid
 from workbench.colorimetry.targets import target_cmfs
 from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
+from workbench.cli.commands.bars import print_colour_bars
 
 HELP = "matrices, luminance coefficients, gamut and colour bars of a set of display primaries"
 
@@ -86,8 +88,6 @@ def _primaries(args):
         xy = np.array(_parse_numbers(args.xy, 6, "--xy")).reshape(3, 2)
         return primaries_from_xy(xy, args.white or "D65", observer=args.observer), None
     if args.emitters is not None:
-        from workbench.fileio.spectra_csv import read_spectra_csv
-
         s = read_spectra_csv(args.emitters, kind="emission")
         for n in s.notes:
             notice(n)
@@ -100,8 +100,6 @@ def _primaries(args):
     p = primaries_named(args.name or args.set_name)
     if args.white is not None:
         wname, w = white_chromaticity(args.white, observer=args.observer)
-        from dataclasses import replace
-
         p = replace(p, white_xy=w, white_name=wname, source=p.source + f"; white replaced by {wname}")
     return p, None
 
@@ -112,25 +110,8 @@ def _bars(args, p) -> int:
         if p is None:
             raise WorkbenchError("--luma primaries needs a set (NAME, --xy or --emitters)")
         system = p
-    label, K = luma_coefficients_of(system)
-    amp = args.bar_amplitude / 100.0
-    white = None if args.bar_white is None else args.bar_white / 100.0
-    rows = colour_bars(amp, K, white_amplitude=white)
-    header = [
-        f"# colour bars at {args.bar_amplitude:g} % amplitude"
-        + (f", white {args.bar_white:g} %" if white is not None else "")
-        + f"; luma {label} K_R {K[0]:.4f} K_G {K[1]:.4f} K_B {K[2]:.4f}",
-        "# R'G'B', Y', colour differences, U/V (PAL 0.493/0.877), Cb/Cr (0.5/(1-K)) in signal "
-        "units 0-1; Y8..Cr10 narrow-range code values (Y 16-235, C 16-240 at 8 bits)",
-    ]
-    if args.format == "json":
-        print(to_json({"luma_system": label, "luma_coefficients": K.tolist(),
-                       "amplitude_percent": args.bar_amplitude, "bars": rows}))
-    elif args.format == "csv":
-        print(render_rows(rows, BAR_COLUMNS, "csv"))
-    else:
-        print(render_rows(rows, BAR_COLUMNS, "table", header_lines=header))
-    return 0
+    return print_colour_bars(system, amplitude_percent=args.bar_amplitude, white_percent=args.bar_white,
+                             fmt=args.format)
 
 
 def _matrix_lines(title: str, M: np.ndarray) -> list[str]:
@@ -148,8 +129,6 @@ def run(args) -> int:
     if args.targets is not None:
         start, stop, step = _parse_numbers(args.grid, 3, "--grid")
         t = target_cmfs(p, grid(start, stop, step), args.observer)
-        from workbench.fileio.spectra_csv import write_spectra_csv
-
         write_spectra_csv(t, args.targets)
         notice(f"wrote target colour-matching functions r̄ḡb̄ ({t.describe_grid()}, observer "
                f"{args.observer}°) to {args.targets}")

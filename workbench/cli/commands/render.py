@@ -113,9 +113,9 @@ def _scheduler(text: str):
     if "://" not in text and ":" not in text:
         raise WorkbenchError(f"--scheduler must be 'threads' or a dask scheduler address such as "
                              f"tcp://host:8786 (got {text!r})")
-    from workbench.analysis.render import _client_for
+    from workbench.analysis.render import client_for
 
-    client = _client_for(text)
+    client = client_for(text)
     threads = sum(client.nthreads().values()) or 1
     return client, f"dask.distributed at {text} ({len(client.nthreads())} workers, {threads} threads)", \
         threads, client
