@@ -49,6 +49,8 @@ import numpy as np
 from workbench.errors import WorkbenchError
 
 __all__ = [
+    "distinct_rays",
+    "ray_angles",
     "EDGE_SHAPES",
     "EDGE_KINDS",
     "REFLECTION_MODELS",
@@ -498,10 +500,10 @@ def cone_quadrature(rings: int = 4, azimuths: int = 8):
 
 
 @lru_cache(maxsize=16)
-def _distinct_rays(rings: int, azimuths: int):
+def distinct_rays(rings: int, azimuths: int):
     """The cone quadrature with rays of equal (r, cos φ) merged (their weights summed).
 
-    Only cos φ enters the angle of incidence (:func:`_ray_angles`), and the
+    Only cos φ enters the angle of incidence (:func:`ray_angles`), and the
     azimuths come in mirror pairs φ, 2π − φ, so about half the rays are
     duplicates; merging them changes nothing but the work.
     """
@@ -515,7 +517,7 @@ def _distinct_rays(rings: int, azimuths: int):
     return out
 
 
-def _ray_angles(aoi_deg, f_number, n0, r, phi):
+def ray_angles(aoi_deg, f_number, n0, r, phi):
     """Angles of incidence (deg), (..., K), of the cone's rays on a surface tilted ``aoi_deg``.
 
     The cone's half-angle α in the medium obeys n₀ sin α = 1/(2N) (image-space
@@ -623,7 +625,7 @@ def dichroic_splitter(
         r, phi, w = np.zeros(1), np.zeros(1), np.ones(1)
         fn = np.inf
     else:
-        r, phi, w = _distinct_rays(int(rings), int(azimuths))
+        r, phi, w = distinct_rays(int(rings), int(azimuths))
         fn = f_number
     loss = _arr(loss)
     if np.any(~((loss >= 0) & (loss < 1))):
@@ -632,7 +634,7 @@ def dichroic_splitter(
     # both surfaces in one computation: axis -3 of (..., 2, P, K) is the surface
     # (0 blue/green, 1 green/red), -2 the polarisation, -1 the ray
     aoi = np.stack(np.broadcast_arrays(_arr(blue_green_aoi_deg), _arr(green_red_aoi_deg)), axis=-1)
-    theta = _ray_angles(aoi, np.asarray(fn, dtype=float)[..., None], _arr(medium_index)[..., None],
+    theta = ray_angles(aoi, np.asarray(fn, dtype=float)[..., None], _arr(medium_index)[..., None],
                         r, phi)                                            # (..., 2, K)
     n_eff_all = np.stack(np.broadcast_arrays(*[_arr(v) for v in n_effs]), axis=-1)  # (..., P)
     n0 = _arr(medium_index)[..., None, None, None]

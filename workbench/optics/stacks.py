@@ -34,6 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from workbench.errors import WorkbenchError
+from workbench.optics.elements import distinct_rays, ray_angles
 from workbench.optics.materials import Material, material_named
 from workbench.optics.thinfilm import StackResponse, stack_response
 
@@ -218,12 +219,10 @@ def cone_rays(aoi_deg, f_number, medium_index: float, *, rings: int = 4, azimuth
     angles : (K,) ndarray, degrees
     weights : (K,) ndarray, sum 1
     """
-    from workbench.optics.elements import _distinct_rays, _ray_angles
-
     if f_number is None:
         return np.array([float(aoi_deg)]), np.ones(1)
-    r, phi, w = _distinct_rays(int(rings), int(azimuths))
-    angles = _ray_angles(np.asarray(float(aoi_deg)), np.asarray(float(f_number)),
+    r, phi, w = distinct_rays(int(rings), int(azimuths))
+    angles = ray_angles(np.asarray(float(aoi_deg)), np.asarray(float(f_number)),
                          np.asarray(float(medium_index)), r, phi)
     return np.asarray(angles, dtype=float).reshape(-1), np.asarray(w, dtype=float)
 
