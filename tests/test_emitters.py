@@ -101,6 +101,7 @@ class TestFit:
         fit_emitter_set(start, PRIMARIES["ITU-R BT.709"], WL)
         assert start[0].components[0].peak_nm == 610
 
+    @pytest.mark.slow  # a full emitter fit
     def test_measured_band_weights(self):
         """Weights of measured bands mixed into one emitter are recovered."""
         g1 = band_values("gaussian", WL, 515, 30)

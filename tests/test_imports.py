@@ -52,6 +52,7 @@ class TestImportedModules:
         assert [n for n in names if n.startswith("workbench.cli.commands.")] == []
         assert "numpy" not in names
 
+    @pytest.mark.slow  # a whole fit in a fresh interpreter
     def test_fit_without_report(self, tmp_path):
         """``fit --no-report`` uses scipy.optimize but draws nothing: no matplotlib, pandas, colour, dask."""
         names, proc = imported_modules("fit", str(ROOT / "spectra-demo/tern3_design.toml"), "--out",

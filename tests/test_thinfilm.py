@@ -286,6 +286,7 @@ class TestEffectiveIndexModelAgainstEngine:
         (1.0, 0.1, (("blue", 430.0, 1, "sp"), ("red", 690.0, 0, "sp"))),
         (N_GLASS, 1.5, (("blue", 430.0, 1, "s"), ("red", 690.0, 0, "sp"))),
     ])
+    @pytest.mark.slow  # fits n_eff to full transfer-matrix stacks
     def test_fit_at_45_predicts_15_and_30(self, incident, tolerance_nm, cases):
         """Fitted at 45°, the model predicts 15° and 30° within 0.1 nm in air and 1.5 nm in glass."""
         from workbench.optics.elements import angle_shift_factor
