@@ -78,15 +78,16 @@ import io
 import math
 import os
 import re
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from decimal import Decimal
 from pathlib import Path
 
 import numpy as np
 
 from workbench.fileio.atomic import write_text_atomically as _write_atomically
+from workbench.fileio.limits import check_count, how_to_raise, limits, read_limited, shorten
 from workbench.errors import InputFileError, WorkbenchError
-from workbench.model.spectra import KINDS, Spectra
+from workbench.model.spectra import KINDS, Spectra, _fmt_range, check_wavelengths
 
 __all__ = ["read_spectra_csv", "parse_spectra_text", "write_spectra_csv"]
 
@@ -205,14 +206,8 @@ def read_spectra_csv(
     """
     _check_options(kind, wavelength_unit, scale, layout)
     name = os.fspath(path)
-    try:
-        with open(name, "rb") as fh:
-            data = fh.read()
-    except OSError as err:
-        raise InputFileError(f"cannot read: {err.strerror or err}", str(name)) from None
-    return parse_spectra_text(
-        data, source=str(name), kind=kind, wavelength_unit=wavelength_unit,
-        scale=scale, layout=layout,
+    return _parse(
+        [read_limited(name)], str(name), kind, wavelength_unit, scale, layout,
     )
 
 
@@ -251,9 +246,28 @@ def parse_spectra_text(
     """
     _check_options(kind, wavelength_unit, scale, layout)
     if isinstance(text, (bytes, bytearray)):
-        text = _decode(bytes(text), source)
-    elif text.startswith("\ufeff"):
+        return _parse([bytes(text)], source, kind, wavelength_unit, scale, layout)
+    if len(text) > limits().file_bytes:
+        raise InputFileError(
+            f"larger than the limit of {limits().file_mb:g} MiB; {how_to_raise('file_mb')}", source)
+    if text.startswith("\ufeff"):
         text = text[1:]
+    return _Reader(text, source, kind, wavelength_unit, scale, layout).read()
+
+
+def _parse(holder: list, source, kind, wavelength_unit, scale, layout) -> Spectra:
+    """Read the bytes in ``holder`` (a one-item list, emptied here so the bytes can be freed early)."""
+    data = holder.pop()
+    if len(data) > limits().file_bytes:
+        raise InputFileError(
+            f"larger than the limit of {limits().file_mb:g} MiB; {how_to_raise('file_mb')}", source)
+    fast = _fast_wide(data, layout) if len(data) >= _FAST_MIN_BYTES else None
+    if fast is not None:
+        head, table = fast
+        del data
+        return _Reader(head, source, kind, wavelength_unit, scale, layout, fast=table).read()
+    text = _decode(data, source)
+    del data
     return _Reader(text, source, kind, wavelength_unit, scale, layout).read()
 
 
@@ -427,8 +441,160 @@ def _header_units(cell: str) -> str | None:
     return m.group(0) if m else None
 
 
+def _transposed(a: np.ndarray) -> np.ndarray:
+    """``a.T`` as a C-contiguous array, copied in cache-sized blocks (fast for wide tables)."""
+    out = np.empty((a.shape[1], a.shape[0]), dtype=a.dtype)
+    step = 2048
+    for k in range(0, a.shape[1], step):
+        out[k:k + step] = a[:, k:k + step].T
+    return out
+
+
+def _first_kinds(cells) -> dict:
+    """{kind: first header cell naming it}, in the order a cell-by-cell search finds them."""
+    cells = list(cells)
+    joined = "\x00".join(cells)
+    ends = np.cumsum([len(c) + 1 for c in cells])
+    hits = []
+    for order, (k, pattern) in enumerate(_KIND_PATTERNS.items()):
+        m = pattern.search(joined)
+        if m is not None:
+            i = int(np.searchsorted(ends, m.start(), side="right"))
+            hits.append((i, order, k))
+    return {k: cells[i] for i, _, k in sorted(hits)}
+
+
 def _plural(n: int, word: str) -> str:
     return f"{n} {word}" if n == 1 else f"{n} {word}s"
+
+
+# --------------------------------------------------------------------------
+# The vectorised path for large wide tables
+# --------------------------------------------------------------------------
+
+#: Files smaller than this go through the cell-by-cell reader alone.
+_FAST_MIN_BYTES = 1 << 20
+#: Values parsed per block by the C parser.
+_FAST_BLOCK = 1 << 20
+_FAST_NUMBER_BYTES = b"0123456789.+-eE \t\r\n"
+
+
+@dataclass
+class _FastTable:
+    """The numbers of a wide table parsed in bulk, and what the reader needs besides."""
+
+    numbers: np.ndarray        # (rows, width)
+    first_cells: list          # wavelength text per row, decimal marks as points
+    comma_example: str | None  # the first cell written with a decimal comma
+    first_line: int            # 1-based line of the first row
+
+
+def _fast_wide(data: bytes, layout: str):
+    """(text of the lines up to the first row, :class:`_FastTable`) or None.
+
+    The lines above the table and the first row go through the ordinary
+    reader; the rows below are checked with byte counts (same number of
+    delimiters in every row, only number characters, no comments, blank
+    lines or quotes, one decimal mark) and parsed by the C parser of
+    pandas, one value per line. Anything outside that simple shape returns
+    None and the whole file takes the cell-by-cell path, which gives the
+    exact messages; so both paths agree on every file.
+    """
+    if layout == "long":
+        return None
+    n = len(data)
+    pos = 3 if data.startswith(b"\xef\xbb\xbf") else 0
+    lineno = 0
+    while True:
+        lineno += 1
+        if lineno > 10_000:
+            return None
+        e = data.find(b"\n", pos)
+        if e < 0:
+            return None
+        try:
+            line = data[pos:e].decode("utf-8").strip()
+        except UnicodeDecodeError:
+            return None
+        if "\r" in line or '"' in line:
+            return None
+        if _ONLY_DELIMITERS.fullmatch(line) or line.startswith("#"):
+            pos = e + 1
+            continue
+        delimiter = _sniff(line)
+        first = line.split(delimiter, 1)
+        if len(first) == 2 and _is_finite_number(first[0].strip(), delimiter):
+            break
+        pos = e + 1
+    width = line.count(delimiter) + 1
+    if width < 4 or width - 1 > limits().spectra:
+        return None  # three columns may be a long table: the ordinary reader decides
+    off, first_line = pos, lineno
+    delim = delimiter.encode()
+    end = n
+    while end > off and data[end - 1] in b" \t\r\n":
+        end -= 1
+    comma = delimiter != "," and data.find(b",", off, end) >= 0
+    if comma and data.find(b".", off, end) >= 0:
+        return None
+    allowed = _FAST_NUMBER_BYTES + delim + (b"," if comma else b"")
+    if len(data.translate(None, allowed)) != len(data[:off].translate(None, allowed)):
+        return None
+    if data.count(b"\r", off, end) != data.count(b"\r\n", off, end):
+        return None
+    starts = []
+    p = off
+    while p < end:
+        e = data.find(b"\n", p, end)
+        if e < 0:
+            e = end
+        if data.count(delim, p, e) != width - 1:
+            return None
+        starts.append(p)
+        p = e + 1
+    rows = len(starts)
+    first_cells = []
+    for p in starts:
+        cell = data[p:data.find(delim, p)].decode("ascii").strip()
+        first_cells.append(cell.replace(",", ".") if comma else cell)
+    example = None
+    if comma:
+        c = data.find(b",", off, end)
+        lo = max(data.rfind(delim, off, c), data.rfind(b"\n", off, c)) + 1
+        hi = min(x for x in (data.find(delim, c, end), data.find(b"\n", c, end), end) if x >= 0)
+        example = data[lo:hi].decode("ascii").strip().rstrip("\r")
+    head = data[:_line_end(data, off)].decode("utf-8-sig")
+    table = bytes.maketrans(delim + (b"," if comma else b""), b"\n" + (b"." if comma else b""))
+    col = data[:end].translate(table)
+    numbers = np.empty(rows * width)
+    import pandas as pd
+
+    buf = io.BytesIO(col)
+    buf.seek(off)
+    filled = 0
+    try:
+        with pd.read_csv(buf, header=None, names=["v"], dtype=np.float64, engine="c",
+                         na_filter=False, quoting=csv.QUOTE_NONE, chunksize=_FAST_BLOCK,
+                         skip_blank_lines=True) as chunks:
+            for chunk in chunks:
+                v = chunk["v"].to_numpy()
+                if filled + v.size > numbers.size:
+                    return None
+                numbers[filled:filled + v.size] = v
+                filled += v.size
+    except (ValueError, pd.errors.ParserError):
+        return None
+    finally:
+        del col, buf
+    if filled != numbers.size or not np.isfinite(numbers).all():
+        return None
+    return head, _FastTable(numbers.reshape(rows, width), first_cells, example, first_line)
+
+
+def _line_end(data: bytes, off: int) -> int:
+    """End (exclusive, after its newline) of the line starting at ``off``."""
+    e = data.find(b"\n", off)
+    return len(data) if e < 0 else e + 1
 
 
 # --------------------------------------------------------------------------
@@ -439,14 +605,35 @@ def _plural(n: int, word: str) -> str:
 class _Reader:
     """One reading of one text; methods run in the order of :meth:`read`."""
 
-    def __init__(self, text, source, kind, wavelength_unit, scale, layout):
+    def __init__(self, text, source, kind, wavelength_unit, scale, layout, fast=None):
         self.source = source
         self.kind_arg = kind
         self.unit_arg = wavelength_unit
         self.scale_arg = scale
         self.layout_arg = layout
+        self.fast = fast
         self.lines = re.split(r"\r\n|\r|\n", text)
         self.notes: list[str] = []
+        lim = limits()
+        self.cell_chars = lim.cell_chars
+        longest = max(range(len(self.lines)), key=lambda i: len(self.lines[i]))
+        if len(self.lines[longest]) > lim.line_chars:
+            raise self.error(
+                f"a line of {len(self.lines[longest])} characters; expected at most "
+                f"{lim.line_chars} — {how_to_raise('line_chars')}", longest + 1)
+        if csv.field_size_limit() < lim.line_chars + 1:
+            csv.field_size_limit(lim.line_chars + 1)
+
+    def split(self, line: str, number: int) -> list[str]:
+        """The cells of one line, refusing a cell longer than the ``cell_chars`` limit."""
+        cells = _split(line, self.delimiter)
+        if len(line) > self.cell_chars:
+            for j, c in enumerate(cells):
+                if len(c) > self.cell_chars:
+                    raise self.error(
+                        f"a cell of {len(c)} characters ({shorten(c, 40)!r}); expected at most "
+                        f"{self.cell_chars} — {how_to_raise('cell_chars')}", number, j + 1)
+        return cells
 
     # -- helpers ----------------------------------------------------------
     def error(self, message, line=None, column=None) -> InputFileError:
@@ -480,17 +667,17 @@ class _Reader:
             )
             wl = wl[::-1]
             values = values[:, ::-1]
-        spectra = Spectra(
-            wavelengths=wl, values=values, names=names, kind=self.kind,
-            units=self.units, source=self.source,
-        )
+        check_count(wl.size, "bands", "wavelengths", where=self.source)
         count = len(names)
         summary = (
             f"read {self.source}: {count} {self.kind} spectr{'um' if count == 1 else 'a'}, "
-            f"{spectra.describe_grid()}, {self.layout} layout, "
+            f"{_fmt_range(check_wavelengths(wl))}, {self.layout} layout, "
             f"{_DELIMITER_NAMES[self.delimiter]}-delimited"
         )
-        return replace(spectra, notes=(summary, *self.notes))
+        return Spectra(
+            wavelengths=wl, values=values, names=names, kind=self.kind,
+            units=self.units, source=self.source, notes=(summary, *self.notes),
+        )
 
     def find_table(self) -> None:
         """Locate the first row, the header, the directive and the metadata."""
@@ -526,15 +713,21 @@ class _Reader:
                 "or tab; expected rows of a wavelength and one value per spectrum"
             )
         self.row_lines = [number for number, _ in content[start:]]
-        self.rows = [_split(line, self.delimiter) for _, line in content[start:]]
+        self.rows = [self.split(line, number) for number, line in content[start:]]
         width = len(self.rows[0])
+        if self.fast is not None:
+            self.rows = self.rows[:1]
+            first = self.fast.first_line
+            self.row_lines = list(range(first, first + self.fast.numbers.shape[0]))
+        self.n_rows = len(self.row_lines)
+        check_count(width - 1, "spectra", "columns of spectra", where=f"{self.source}, line {self.row_lines[0]}")
         # The header: the nearest content line above, when it is as wide.
         self.header = None
         self.header_line = None
         metadata = start
         if start > 0:
             number, line = content[start - 1]
-            cells = _split(line, self.delimiter)
+            cells = self.split(line, number)
             if len(cells) == width:
                 self.header, self.header_line = cells, number
                 metadata -= 1
@@ -594,8 +787,18 @@ class _Reader:
         """Parse the numeric columns into ``self.numbers`` (rows, columns)."""
         cols = [0, 2] if self.layout == "long" else list(range(len(self.rows[0])))
         self.numeric_cols = cols
+        if self.fast is not None:
+            fast, self.fast = self.fast, None
+            self.number_text = np.array(fast.first_cells, dtype=str)[:, None]
+            if fast.comma_example is not None:
+                example = fast.comma_example
+                self.note(f"decimal commas read as decimal points (e.g. {example} as "
+                          f"{float(example.replace(',', '.')):g})")
+            self.numbers = fast.numbers
+            return
         cells = np.array([[r[j] for j in cols] for r in self.rows], dtype=str)
         text = cells
+        comma_at = None
         if self.delimiter != ",":
             has_comma = np.char.find(cells, ",") >= 0
             if has_comma.any():
@@ -605,16 +808,13 @@ class _Reader:
                 if has_point.any():
                     pi, pj = np.argwhere(has_point)[0]
                     raise self.error(
-                        f"{str(cells[pi, pj])!r} has a decimal point but the file uses decimal "
-                        f"commas (e.g. {example!r} at line {self.row_lines[i]}); "
+                        f"{shorten(str(cells[pi, pj]), 40)!r} has a decimal point but the file uses "
+                        f"decimal commas (e.g. {shorten(example, 40)!r} at line {self.row_lines[i]}); "
                         "expected one decimal mark",
                         self.row_lines[pi], self.label(cols[pj]),
                     )
                 text = np.char.replace(cells, ",", ".")
-                self.note(
-                    f"decimal commas read as decimal points (e.g. {example} as "
-                    f"{float(str(text[i, j])):g})"
-                )
+                comma_at = (i, j)
         self.number_text = text
         joined = "".join(text.ravel().tolist())
         numbers = None
@@ -627,11 +827,17 @@ class _Reader:
             for i, j in np.ndindex(text.shape):
                 problem = _cell_problem(str(text[i, j]))
                 if problem is not None:
-                    shown = str(cells[i, j])
+                    shown = shorten(str(cells[i, j]), 40)
                     message = problem if problem.startswith("empty") else f"{shown!r} {problem}"
                     raise self.error(message, self.row_lines[i], self.label(cols[j]))
         if numbers is None:  # pragma: no cover - every cell passed the strict check
             numbers = np.array([[float(t) for t in row] for row in text.tolist()])
+        if comma_at is not None:
+            i, j = comma_at
+            self.note(
+                f"decimal commas read as decimal points (e.g. {cells[i, j]} as "
+                f"{numbers[i, j]:g})"
+            )
         self.numbers = numbers
 
     def check_wavelength_signs(self, wl: np.ndarray) -> None:
@@ -666,8 +872,8 @@ class _Reader:
             names = tuple(header[1:])
         else:
             names = tuple(f"s{j}" for j in range(1, width))
-        if len(self.rows) < 3:
-            raise self.error(self.too_few(len(self.rows)))
+        if self.n_rows < 3:
+            raise self.error(self.too_few(self.n_rows))
         wl = self.numbers[:, 0]
         self.check_wavelength_signs(wl)
         self.decide_unit(wl)
@@ -688,7 +894,9 @@ class _Reader:
                 f"{self.row_lines[i - 1]}); expected wavelengths running one way down the table",
                 self.row_lines[i], self.label(0),
             )
-        values = self.numbers[:, 1:].T
+        values = _transposed(self.numbers[:, 1:])
+        wl = wl.copy()
+        self.numbers = None
         return wl, values, names, self.number_text[:, 0], self.row_lines
 
     def long(self):
@@ -763,11 +971,7 @@ class _Reader:
             file_kind = self.directive[0]
             said_by = f"the '# kind:' line (line {self.directive[2]})"
         else:
-            found = {}
-            for cell in self.header[1:] if self.header is not None else ():
-                for k, pattern in _KIND_PATTERNS.items():
-                    if pattern.search(cell):
-                        found.setdefault(k, cell)
+            found = _first_kinds(self.header[1:]) if self.header is not None else {}
             if len(found) > 1:
                 listed = ", ".join(f"{k} in {c!r}" for k, c in found.items())
                 raise self.error(

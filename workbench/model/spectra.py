@@ -60,8 +60,11 @@ def grid(start: float, stop: float, step: float) -> np.ndarray:
     >>> grid(400, 420, 10).tolist()
     [400.0, 410.0, 420.0]
     """
+    from workbench.fileio.limits import check_step
+
     if not step > 0:
         raise WorkbenchError(f"grid step must be > 0 nm (got {step})")
+    check_step(start, stop, step)
     n = (stop - start) / step
     if n < 1 or abs(n - round(n)) > 1e-9:
         raise WorkbenchError(
@@ -88,6 +91,9 @@ def check_wavelengths(wavelengths, *, what: str = "wavelengths", min_points: int
         raise WorkbenchError(f"{what} must hold at least {min_points} points (got {wl.size})")
     if not np.all(np.isfinite(wl)):
         raise WorkbenchError(f"{what} must be finite numbers in nm")
+    from workbench.fileio.limits import check_count
+
+    check_count(wl.size, "bands", "wavelengths", where=what)
     d = np.diff(wl)
     if np.any(d <= 0):
         i = int(np.argmax(d <= 0))
