@@ -80,7 +80,7 @@ class TestRenderCommand:
         out = tmp_path / "r"
         code, cap = _run(capsys, DESIGN, SCENE, "--out", out, "--illuminant", "stage-led")
         assert code == 0, cap.err
-        assert sorted(p.name for p in out.iterdir()) == [
+        assert sorted(p.name for p in out.iterdir()) == [".workbench-output",
             "camera.png", "delta_e00.npy", "delta_e00.png", "summary.json", "truth.png"]
         s = json.loads((out / "summary.json").read_text())
         ref = demo_expected.stats()
@@ -97,7 +97,7 @@ class TestRenderCommand:
         np.testing.assert_array_equal(np.load(out / "delta_e00.npy"), demo_expected.delta_E00)
         assert _png(out / "delta_e00.png", "RGBA").shape[0] > 100          # a figure, not the raw map
         assert "mean" in cap.out and "p95" in cap.out and "note: wrote" in cap.err
-        assert not list(out.glob(".*"))                            # no temporary files left
+        assert not list(out.glob(".*.tmp"))                         # no temporary files left
 
     def test_wavelengths_option_and_small_chunks(self, tmp_path, capsys, gaussian_csv):
         """--wavelengths replaces the sidecar; --chunk-mb splits the cube; results equal memory."""
@@ -124,7 +124,7 @@ class TestRenderCommand:
         out = tmp_path / "r"
         code, cap = _run(capsys, gaussian_csv, _cube(tmp_path, a), "--out", out)
         assert code == 0, cap.err
-        assert sorted(p.name for p in out.iterdir()) == ["delta_e00.npy", "summary.json"]
+        assert sorted(p.name for p in out.iterdir()) == [".workbench-output", "delta_e00.npy", "summary.json"]
         s = json.loads((out / "summary.json").read_text())
         assert s["layout"] == "set" and s["images"] is None and s["pixels"] == 500
         d = np.load(out / "delta_e00.npy")
@@ -145,8 +145,8 @@ class TestRenderCommand:
         write_sidecar(sidecar_path(path), WL)
         code, cap = _run(capsys, gaussian_csv, path, "--out", tmp_path / "t", "--chunk-mb", "0.02")
         assert code == 0, cap.err
-        with LocalCluster(processes=False, n_workers=1, threads_per_worker=2,
-                          dashboard_address=None) as cluster:
+        with LocalCluster(processes=False, n_workers=1, threads_per_worker=2, protocol="tcp",
+                          host="127.0.0.1", dashboard_address=None) as cluster:
             code, cap = _run(capsys, gaussian_csv, path, "--out", tmp_path / "d", "--chunk-mb", "0.02",
                              "--scheduler", cluster.scheduler_address)
         assert code == 0, cap.err
@@ -156,11 +156,21 @@ class TestRenderCommand:
                                       np.load(tmp_path / "t" / "delta_e00.npy"))
         np.testing.assert_array_equal(_png(tmp_path / "d" / "truth.png"), _png(tmp_path / "t" / "truth.png"))
 
-    def test_percent_cube_notice(self, tmp_path, capsys, gaussian_csv):
-        """A cube in percent is rendered as asked but a notice says it looks like percent."""
+    def test_percent_cube_refused(self, tmp_path, capsys, gaussian_csv):
+        """A cube in percent (reflectances far above 10) is refused before rendering, asking if it is percent."""
         code, cap = _run(capsys, gaussian_csv, _cube(tmp_path, 100 * _mixtures((3, 4))), "--out", tmp_path / "r")
-        assert code == 0
-        assert "is the cube in percent?" in cap.err
+        assert code == 2 and cap.err.count("\n") == 1
+        assert "reflectance values above 10" in cap.err and "is the cube in percent?" in cap.err
+        assert not (tmp_path / "r").exists()
+
+    def test_slightly_negative_cube_notice(self, tmp_path, capsys, gaussian_csv):
+        """Small negatives (measurement noise) are rendered as written, with a notice naming the file and count."""
+        a = _mixtures((3, 4))
+        a[0, 0, :5] = -0.01
+        cube = _cube(tmp_path, a)
+        code, cap = _run(capsys, gaussian_csv, cube, "--out", tmp_path / "r")
+        assert code == 0, cap.err
+        assert f"{cube}: 5 reflectance values below 0" in cap.err
 
     def test_interrupt_exits_130_and_writes_nothing(self, tmp_path, capsys, gaussian_csv, monkeypatch):
         """Ctrl-C during the render ends with status 130 and leaves no output files."""
@@ -181,7 +191,7 @@ class TestRenderErrors:
     @pytest.mark.parametrize("extra, message", [
         (["--wavelengths", "380-780"], "error: --wavelengths must be START:STOP:STEP in nm, e.g. 380:780:5 (got '380-780')"),
         (["--wavelengths", "400:780:5"], "c.npy: 81 bands on the last axis but --wavelengths gives 77 wavelengths"),
-        (["--chunk-mb", "0"], "error: --chunk-mb must be a number of MiB > 0 (got '0')"),
+        (["--chunk-mb", "0"], "error: --chunk-mb must be a number of MiB > 0 and ≤ 65536 (got '0')"),
         (["--illuminant", "XYZ"], "error: --illuminant: unknown 'XYZ'; expected a CIE name such as A, D50, D65"),
         (["--scheduler", "nonsense"], "error: --scheduler must be 'threads' or a dask scheduler address"),
     ])
@@ -230,4 +240,4 @@ class TestRenderErrors:
         f = tmp_path / "file"
         f.write_text("x")
         code, cap = _run(capsys, gaussian_csv, _cube(tmp_path, _mixtures((2, 2))), "--out", f)
-        assert code == 2 and "--out must be a folder" in cap.err
+        assert code == 2 and "expected a folder, found a file" in cap.err

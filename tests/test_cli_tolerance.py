@@ -105,7 +105,7 @@ def test_table_with_units_and_files(small, tmp_path, capsys):
     for text in ("yield", "95 % Wilson interval", "CIEDE2000", "variance_contribution", "split.blue_green_nm",
                  "degrees in the prism glass", "2 nm normal"):
         assert text in out
-    assert sorted(p.name for p in plots.iterdir()) == [
+    assert sorted(p.name for p in plots.iterdir()) == [".workbench-output",
         "field-shift.png", "histograms-fixed.png", "histograms-recalibrated.png", "ranking-fixed.png",
         "ranking-recalibrated.png"]
     assert len(json.loads(tj.read_text(encoding="utf-8"))["trials_data"]["trial"]) == 120
@@ -116,7 +116,7 @@ def test_table_with_units_and_files(small, tmp_path, capsys):
     (["--seed", "-3"], "error: --seed: expected a whole number >= 0 (got -3)"),
     (["--min-vora", "2"], "error: --min-vora: expected a number in [0, 1] (got 2)"),
     (["--max-mean-de00", "0"], "error: --max-mean-de00: expected a number > 0 (got 0)"),
-    (["--scale", "-1"], "error: --scale: expected a number >= 0 (got -1)"),
+    (["--scale", "-1"], "error: --scale: expected a finite number >= 0 (got -1)"),
     (["--scale", "40"], "error: split.green_red_nm must stay above split.blue_green_nm: "),
     (["--scale", "200"], "error: split.blue_green_nm: "),
 ])

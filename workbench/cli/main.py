@@ -8,23 +8,77 @@ only combine public functions of the package.
 Contract shared by every command: machine-readable output on stdout alone;
 notices (assumed units, detected percent, extrapolation) on stderr; a user
 error ends with exit status 2 and one line on stderr starting ``error:``,
-never a traceback; Ctrl-C ends with status 130.
+never a traceback; so does an error of the environment (disk full,
+permission denied, standard output on a full device) and running out of
+memory. Ctrl-C (and SIGTERM) end with status 130 and ``interrupted``; a
+closed pipe on stdout (``| head``) ends quietly. Warnings raised while a
+command runs (numpy's among them) are shown only when the command succeeds,
+so a refused input never prints them. Control characters in anything
+printed (a design's name, a spectrum's name) are written as ``\\uXXXX``
+escapes, so they cannot move the cursor or recolour the terminal; JSON
+output keeps its meaning because that is also JSON's escape.
+``WORKBENCH_DEBUG=1`` shows the traceback of an internal error.
 """
 
 from __future__ import annotations
 
 import argparse
 import ast
+import errno
 import importlib
+import io
+import os
 import pkgutil
+import re
+import signal
 import sys
+import warnings
 from pathlib import Path
 
 from workbench import __version__
 from workbench.cli import commands
 from workbench.errors import WorkbenchError
+from workbench.fileio import limits as _limits
 
-__all__ = ["main", "build_parser", "command_names"]
+__all__ = ["main", "build_parser", "command_names", "printable"]
+
+#: C0 and C1 controls (except tab, line feed, carriage return) and the bidirectional overrides.
+_CONTROL = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\u200e\u200f\u202a-\u202e\u2066-\u2069]")
+
+
+def printable(text: str, *, one_line: bool = False) -> str:
+    """``text`` with control characters written as ``\\uXXXX`` (and line breaks too when ``one_line``)."""
+    out = _CONTROL.sub(lambda m: f"\\u{ord(m.group()):04x}", str(text))
+    if one_line:
+        out = out.replace("\r", "\\r").replace("\n", "\\n")
+    return out
+
+
+class _Escaping(io.TextIOBase):
+    """A text stream that writes through to ``inner`` with control characters escaped."""
+
+    def __init__(self, inner):
+        self.inner = inner
+
+    def write(self, s):
+        self.inner.write(printable(s))
+        return len(s)
+
+    def flush(self):
+        self.inner.flush()
+
+    def isatty(self):
+        return self.inner.isatty()
+
+    def fileno(self):
+        return self.inner.fileno()
+
+    @property
+    def encoding(self):
+        return getattr(self.inner, "encoding", "utf-8")
+
+    def writable(self):
+        return True
 
 
 def command_names() -> list[str]:
@@ -61,6 +115,21 @@ def _listing(name: str) -> tuple[str, str] | None:
     return (command, help_) if command and help_ else None
 
 
+def _first_word(argv: list[str]) -> str:
+    """The command word of ``argv``: the first argument that is neither an option nor ``--limit``'s value."""
+    skip = False
+    for a in argv:
+        if skip:
+            skip = False
+            continue
+        if a == "--limit":
+            skip = True
+            continue
+        if not a.startswith("-"):
+            return a
+    return ""
+
+
 def build_parser(argv: list[str] | None = None) -> argparse.ArgumentParser:
     """The parser; with ``argv``, only what that command line needs is imported.
 
@@ -79,9 +148,15 @@ def build_parser(argv: list[str] | None = None) -> argparse.ArgumentParser:
         ),
     )
     parser.add_argument("--version", action="version", version=f"workbench {__version__}")
+    parser.add_argument(
+        "--limit", metavar="NAME=VALUE", action="append", default=[],
+        help="raise an input limit for this run, e.g. --limit trials=5000000 (names: "
+        + ", ".join(f"{k} {v:g}" for k, v in _limits.Limits().__dict__.items())
+        + "; also WORKBENCH_LIMITS)",
+    )
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
     names = command_names()
-    first = None if argv is None else next((a for a in argv if not a.startswith("-")), "")
+    first = None if argv is None else _first_word(argv)
     if first in names:
         names = [first]
     elif first is not None:
@@ -95,21 +170,108 @@ def build_parser(argv: list[str] | None = None) -> argparse.ArgumentParser:
     return parser
 
 
+def _quiet_stdout() -> None:
+    """Point stdout at /dev/null so the interpreter's final flush cannot fail again."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.__stdout__.fileno())
+        os.close(devnull)
+    except (OSError, AttributeError, ValueError):
+        pass
+
+
+def _os_error_line(err: OSError) -> str:
+    what = err.strerror or str(err)
+    name = getattr(err, "filename", None)
+    if name is not None:
+        return f"{name}: {what}"
+    if err.errno in (errno.ENOSPC, errno.EIO, errno.EDQUOT if hasattr(errno, "EDQUOT") else -1):
+        return f"cannot write the output: {what}"
+    return what
+
+
+def _sigterm(signum, frame):
+    raise KeyboardInterrupt
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
     argv = sys.argv[1:] if argv is None else list(argv)
     parser = build_parser(argv)
     args = parser.parse_args(argv)
+    out, err = sys.stdout, sys.stderr
+    sys.stdout, sys.stderr = _Escaping(out), _Escaping(err)
+    old_term = None
+    if args.command != "lab":
+        try:
+            old_term = signal.signal(signal.SIGTERM, _sigterm)
+        except ValueError:  # not the main thread
+            old_term = None
+    saved = _limits.limits()
+    code = 2
+    with warnings.catch_warnings(record=True) as caught:
+        try:
+            _limits.limits_from_environment()
+            for text in args.limit:
+                try:
+                    _limits.set_limits(**_limits.parse_limit(text))
+                except WorkbenchError as exc:
+                    raise WorkbenchError(f"--limit: {exc}") from None
+            code = int(args.run(args) or 0)
+            try:
+                sys.stdout.flush()
+            except OSError as exc:
+                if isinstance(exc, BrokenPipeError):
+                    raise
+                _quiet_stdout()
+                raise WorkbenchError(f"cannot write the output: {exc.strerror or exc}") from None
+        except WorkbenchError as exc:
+            code = _fail(printable(str(exc), one_line=True))
+        except KeyboardInterrupt:
+            print("interrupted", file=sys.stderr)
+            code = 130
+        except BrokenPipeError:
+            _quiet_stdout()
+            code = 0
+        except MemoryError:
+            code = _fail("out of memory; reduce the input (see the input limits in the README)")
+        except OSError as exc:
+            if exc.errno == errno.EPIPE:
+                _quiet_stdout()
+                code = 0
+            else:
+                if exc.filename is None:
+                    _quiet_stdout()
+                code = _fail(printable(_os_error_line(exc), one_line=True))
+        except Exception as exc:  # a bug: one line, the traceback only when asked
+            if os.environ.get("WORKBENCH_DEBUG"):
+                raise
+            code = _fail(printable(f"internal error ({type(exc).__name__}: {exc}); please report it "
+                                   "with the command line (WORKBENCH_DEBUG=1 shows the traceback)",
+                                   one_line=True))
+            code = 70
+        finally:
+            _limits._current = saved
+            if old_term is not None:
+                signal.signal(signal.SIGTERM, old_term)
+            sys.stdout, sys.stderr = out, err
+        if code in (0, 1):
+            for w in caught:
+                try:
+                    print(printable(f"warning: {w.category.__name__}: {w.message}", one_line=True),
+                          file=err)
+                except OSError:
+                    pass
+    return code
+
+
+def _fail(line: str) -> int:
     try:
-        return int(args.run(args) or 0)
-    except WorkbenchError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        return 2
-    except KeyboardInterrupt:
-        print("interrupted", file=sys.stderr)
-        return 130
-    except BrokenPipeError:
-        return 0
+        print(f"error: {line}", file=sys.stderr)
+        sys.stderr.flush()
+    except OSError:
+        pass
+    return 2
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -65,6 +65,24 @@ Order
     order with a note. Any other order is an error. A long table's rows may
     come in any order.
 
+Plausibility
+    With ``scale='auto'`` and no ``# kind: …; units: …`` line (whose
+    author, usually :func:`write_spectra_csv`, has stated exactly what the
+    values are) the values are checked by
+    :func:`workbench.fileio.plausible.check_spectral_values`: impossible
+    values (reflectance below −0.1 or above 10, emission all zero or with
+    negatives deeper than 5 % of its peak, magnitudes above 1e15) are
+    refused; unusual ones (small negatives, reflectance above 1) are kept
+    as written, with a note.
+Limits
+    The file must be a regular file within the ``file_mb`` limit, cells
+    and lines within ``cell_chars`` and ``line_chars``, and the table within
+    ``spectra`` and ``bands`` (:mod:`workbench.fileio.limits`).
+Speed
+    Large wide tables of plain numbers are parsed in bulk by pandas' C
+    parser after the header logic; anything else, and every file that
+    fails, goes cell by cell, which gives the messages.
+
 Nothing is filled in, clamped or resampled: empty cells, NaN, infinity,
 duplicate wavelengths, ragged rows, duplicate names, fewer than 3
 wavelengths and spectra of a long table that do not share one wavelength
@@ -85,6 +103,7 @@ from pathlib import Path
 import numpy as np
 
 from workbench.fileio.atomic import write_text_atomically as _write_atomically
+from workbench.fileio.plausible import check_spectral_values
 from workbench.fileio.limits import check_count, how_to_raise, limits, read_limited, shorten
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.model.spectra import KINDS, Spectra, _fmt_range, check_wavelengths
@@ -668,6 +687,11 @@ class _Reader:
             wl = wl[::-1]
             values = values[:, ::-1]
         check_count(wl.size, "bands", "wavelengths", where=self.source)
+        if self.scale_arg == "auto" and self.stated_units is None:
+            # a scale given by the caller, or units stated by a '# kind:' line, are their author's word
+            for text in check_spectral_values(values, kind=self.kind, source=self.source,
+                                              wavelengths=wl, names=names):
+                self.notes.append(f"read {text}")
         count = len(names)
         summary = (
             f"read {self.source}: {count} {self.kind} spectr{'um' if count == 1 else 'a'}, "

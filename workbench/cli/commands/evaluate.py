@@ -100,6 +100,10 @@ def evaluate(design) -> dict:
 
 
 def run(args) -> int:
+    if args.sensitivities:
+        from workbench.fileio.outdir import check_output_file
+
+        check_output_file(args.sensitivities, option="--sensitivities")
     design = load_design(args.design)
     result = evaluate(design)
     for n in result["notes"]:

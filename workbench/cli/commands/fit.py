@@ -1,6 +1,8 @@
 """``workbench fit DESIGN.toml --out DIR``: fit a design's free parameters and its matrix.
 
-Writes into DIR (created if needed; each file replaced atomically):
+Writes into DIR as one unit (:class:`workbench.fileio.outdir.OutputFolder`:
+validated and locked before the fit, written into a staging folder beside
+it and swapped in at the end, so a kill leaves the old set or the new one):
 
 - ``design.toml`` — the fitted design with its colour-correction matrix in
   ``[matrix]``, loadable by every command;
@@ -131,28 +133,11 @@ def metrics(result) -> dict:
     return out
 
 
-def run(args) -> int:
-    from workbench.analysis.fit import fit_design
-    from workbench.fileio.spectra_csv import write_spectra_csv
+FILES = ("design.toml", "sensitivities.csv", "matrix.csv", "metrics.json", "report.html")
 
-    if args.max_evaluations is not None and args.max_evaluations < 1:
-        raise WorkbenchError(f"'--max-evaluations' must be a whole number >= 1 (got {args.max_evaluations})")
-    if args.time_limit is not None and not (math.isfinite(args.time_limit) and args.time_limit > 0):
-        raise WorkbenchError(f"'--time-limit' must be a number of seconds > 0 (got {args.time_limit:g})")
-    design = load_design(args.design)
-    out: Path = args.out
-    if out.exists() and not out.is_dir():
-        raise WorkbenchError(f"--out {out}: expected a folder, found a file")
-    result = fit_design(design, progress=not args.quiet, global_start=args.global_start,
-                        seed=args.seed, max_evaluations=args.max_evaluations, time_limit=args.time_limit)
-    for n in result.notes:
-        notice(n)
-    out.mkdir(parents=True, exist_ok=True)
-    result.design.save(out / "design.toml")
-    sens = result.design.channel_sensitivities()
-    write_spectra_csv(sens, out / "sensitivities.csv")
-    atomic_write_text(out / "matrix.csv", matrix_csv(result.after))
-    atomic_write_text(out / "metrics.json", to_json(metrics(result)) + "\n")
+
+def _print_summary(design, result) -> None:
+    """The fit's summary and parameter table on stdout."""
     b, a = result.before, result.after
     header = [
         f"design: {design.name} ({design.source})",
@@ -170,10 +155,38 @@ def run(args) -> int:
                       header_lines=header), flush=True)
     print()
     print(parameter_table(result), flush=True)
-    if not args.no_report:  # after the summary, which needs none of it; matplotlib only imported here
-        from workbench.report.fit_report import write_fit_report
 
-        write_fit_report(result, out / "report.html")
+
+def run(args) -> int:
+    from workbench.analysis.fit import fit_design
+    from workbench.fileio.outdir import OutputFolder
+    from workbench.fileio.spectra_csv import write_spectra_csv
+
+    if args.max_evaluations is not None and args.max_evaluations < 1:
+        raise WorkbenchError(f"'--max-evaluations' must be a whole number >= 1 (got {args.max_evaluations})")
+    if args.time_limit is not None and not (math.isfinite(args.time_limit) and args.time_limit > 0):
+        raise WorkbenchError(f"'--time-limit' must be a number of seconds > 0 (got {args.time_limit:g})")
+    if args.seed is not None and not 0 <= args.seed < 2**32:
+        raise WorkbenchError(f"'--seed' must be a whole number 0-4294967295 (got {args.seed})")
+    design = load_design(args.design)
+    # the output folder is one unit: validated and locked now, written into a staging folder, swapped in last
+    with OutputFolder(args.out, option="--out", command="fit", names=FILES) as out:
+        result = fit_design(design, progress=not args.quiet, global_start=args.global_start,
+                            seed=args.seed, max_evaluations=args.max_evaluations, time_limit=args.time_limit)
+        for n in result.notes:
+            notice(n)
+        result.design.save(out / "design.toml")
+        sens = result.design.channel_sensitivities()
+        write_spectra_csv(sens, out / "sensitivities.csv")
+        atomic_write_text(out / "matrix.csv", matrix_csv(result.after))
+        atomic_write_text(out / "metrics.json", to_json(metrics(result)) + "\n")
+        _print_summary(design, result)
+        if not args.no_report:  # after the summary, which needs none of it; matplotlib only imported here
+            from workbench.report.fit_report import write_fit_report
+
+            write_fit_report(result, out / "report.html")
+        out.commit()
+    out = args.out
     at = [p["name"] for p in result.parameters if p["at_bound"]]
     if at:
         notice("parameters at a bound: " + ", ".join(at))

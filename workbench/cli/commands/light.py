@@ -84,28 +84,43 @@ def _write_png(fig, path: Path) -> None:
     write_atomically(path, lambda fh: fig.savefig(fh, format="png", dpi=110))
 
 
+FIGURE_FILES = ("light-spd.png", "light-special-indices.png", "camera-delta-e00.png", "camera-shifts-uv.png",
+                "compare-side-by-side.png", "compare-each-adapted.png")
+
+
 def write_figures(report, directory) -> list[Path]:
-    """Write the report's figures as PNG files into ``directory`` (created if missing); returns the paths."""
+    """Write the report's figures as PNG files into ``directory``; returns the paths.
+
+    ``directory`` is an open :class:`workbench.fileio.outdir.OutputFolder`
+    (the caller commits) or a path, then written as one unit here.
+    """
+    from workbench.fileio.outdir import OutputFolder
     from workbench.plots import light as lp
 
-    d = Path(directory)
-    try:
-        d.mkdir(parents=True, exist_ok=True)
-    except OSError as err:
-        raise InputFileError(f"cannot create the folder: {err.strerror or err}", str(d)) from None
-    figs = {"light-spd.png": lp.plot_light_spd(report.indices)}
+    if not isinstance(directory, OutputFolder):
+        with OutputFolder(directory, option="--figures", command="light", names=FIGURE_FILES) as out:
+            names = [p.name for p in write_figures(report, out)]
+            out.commit()
+        return [out.target / n for n in names]
+    import matplotlib.pyplot as plt
+
+    makers = {"light-spd.png": lambda: lp.plot_light_spd(report.indices)}
     if report.indices.R is not None:
-        figs["light-special-indices.png"] = lp.plot_special_indices(report.indices)
+        makers["light-special-indices.png"] = lambda: lp.plot_special_indices(report.indices)
     if report.camera is not None:
-        figs["camera-delta-e00.png"] = lp.plot_camera_delta_e(report.camera)
-        figs["camera-shifts-uv.png"] = lp.plot_camera_shifts(report.camera)
+        makers["camera-delta-e00.png"] = lambda: lp.plot_camera_delta_e(report.camera)
+        makers["camera-shifts-uv.png"] = lambda: lp.plot_camera_shifts(report.camera)
     if report.comparison is not None:
         for mode in report.comparison.modes:
-            figs[f"compare-{mode}.png"] = lp.plot_comparison(report.comparison, mode=mode)
+            makers[f"compare-{mode}.png"] = lambda m=mode: lp.plot_comparison(report.comparison, mode=m)
     out = []
-    for name, fig in figs.items():
-        _write_png(fig, d / name)
-        out.append(d / name)
+    for name, make in makers.items():
+        fig = make()
+        try:
+            _write_png(fig, directory / name)
+        finally:
+            plt.close(fig)
+        out.append(directory / name)
     return out
 
 
@@ -171,6 +186,12 @@ def run(args) -> int:
     differ = DIFFER_DELTA_E00 if args.differ is None else args.differ
     if not (0 <= match < differ):
         raise WorkbenchError(f"--match and --differ must satisfy 0 <= match < differ (got {match:g} and {differ:g})")
+    figures = None
+    if args.figures:
+        from workbench.fileio.outdir import OutputFolder
+
+        figures = OutputFolder(args.figures, option="--figures", command="light", names=FIGURE_FILES)
+        figures._validate()
     spd = read_light(args.spd, spectrum=args.spectrum)
     other = read_light(args.compare, spectrum=args.compare_spectrum) if args.compare else None
     camera = _load_camera(args.camera, args.primaries) if args.camera else None
@@ -185,9 +206,12 @@ def run(args) -> int:
     for w in report.indices.warnings:
         notice(f"warning: {w}")
     notice(f"caution: {report.caution}")
-    if args.figures:
-        for p in write_figures(report, args.figures):
-            notice(f"wrote {p}")
+    if figures is not None:
+        with figures:
+            written = write_figures(report, figures)
+            figures.commit()
+        for p in written:
+            notice(f"wrote {figures.target / p.name}")
     if args.format == "json":
         print(to_json(report.to_dict()))
     else:

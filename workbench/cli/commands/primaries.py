@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 from dataclasses import replace
+import math
 from pathlib import Path
 
 import numpy as np
 
 from workbench.errors import WorkbenchError
+from workbench.fileio.limits import shorten
 from workbench.colorimetry.gamut import coverage_of_named_sets, gamut_area
 from workbench.colorimetry.primaries import (
     PRIMARIES,
@@ -72,7 +74,9 @@ def _parse_numbers(text: str, count: int, option: str) -> list[float]:
     try:
         values = [float(t) for t in text.replace(" ", "").split(",")]
     except ValueError:
-        raise WorkbenchError(f"{option} must be {count} comma-separated numbers (got {text!r})") from None
+        raise WorkbenchError(f"{option} must be {count} comma-separated numbers (got {shorten(text, 60)!r})") from None
+    if not all(math.isfinite(v) for v in values):
+        raise WorkbenchError(f"{option} must be {count} finite numbers (got {shorten(text, 60)!r})")
     if len(values) != count:
         raise WorkbenchError(f"{option} must be {count} comma-separated numbers (got {len(values)})")
     return values
@@ -119,6 +123,10 @@ def _matrix_lines(title: str, M: np.ndarray) -> list[str]:
 
 
 def run(args) -> int:
+    if args.targets is not None:
+        from workbench.fileio.outdir import check_output_file
+
+        check_output_file(args.targets, option="--targets")
     p, drive = _primaries(args)
     if args.bars:
         return _bars(args, p)
@@ -128,6 +136,9 @@ def run(args) -> int:
         raise WorkbenchError("--format csv is for --bars; use table or json")
     if args.targets is not None:
         start, stop, step = _parse_numbers(args.grid, 3, "--grid")
+        from workbench.fileio.limits import check_step
+
+        check_step(start, stop, step, what="--grid")
         t = target_cmfs(p, grid(start, stop, step), args.observer)
         write_spectra_csv(t, args.targets)
         notice(f"wrote target colour-matching functions r̄ḡb̄ ({t.describe_grid()}, observer "

@@ -10,7 +10,9 @@ dask.array in chunks sized from the memory available (``--chunk-mb`` to
 choose), on the local threaded scheduler or, with ``--scheduler ADDRESS``,
 on a dask.distributed cluster.
 
-Writes into DIR (each file atomically): ``truth.png`` and ``camera.png``
+Writes into DIR as one unit (:class:`workbench.fileio.outdir.OutputFolder`: validated
+and locked before reading the cube, written into a staging folder and swapped in at
+the end, so a kill leaves the old set or the new one): ``truth.png`` and ``camera.png``
 (images only: display-linear BT.709 RGB, white = 1, clipped to 0-1, sRGB
 transfer of IEC 61966-2-1, 8 bits), ``delta_e00.png`` (images only: the
 ΔE00 map with its colour bar), ``delta_e00.npy`` (ΔE00 per pixel or
@@ -28,9 +30,11 @@ from pathlib import Path
 import numpy as np
 
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
+from workbench.fileio.limits import check_count, how_to_raise, limits, shorten
 from workbench.cli.commands._output import notice, to_json
 
 NAME = "render"
+FILES = ("truth.png", "camera.png", "delta_e00.png", "delta_e00.npy", "summary.json")
 
 IMAGE_ENCODING = ("display-linear ITU-R BT.709 RGB (display white = 1; other display primaries "
                   "through XYZ with a Bradford adaptation to D65), clipped to 0-1, sRGB transfer "
@@ -69,8 +73,8 @@ def _chunk_mb(text: str | None) -> float | None:
         v = float(text)
     except ValueError:
         v = math.nan
-    if not (math.isfinite(v) and v > 0):
-        raise WorkbenchError(f"--chunk-mb must be a number of MiB > 0 (got {text!r})")
+    if not (math.isfinite(v) and 0 < v <= 65536):
+        raise WorkbenchError(f"--chunk-mb must be a number of MiB > 0 and ≤ 65536 (got {shorten(text, 40)!r})")
     return v
 
 
@@ -105,34 +109,124 @@ def _save_npy(path: Path, a: np.ndarray) -> None:
     write_atomically(path, lambda fh: np.save(fh, a, allow_pickle=False))
 
 
+#: Seconds to wait for a dask scheduler to answer before giving up.
+SCHEDULER_TIMEOUT_S = 5.0
+
+
+def parse_scheduler_address(text: str) -> tuple[str, str, int] | None:
+    """``None`` for 'threads', else (scheme, host, port) of a ``tcp://`` or ``tls://`` address.
+
+    Raises
+    ------
+    WorkbenchError
+        Any other form (``inproc://``, ``file://``, a bare host, a port outside 1-65535).
+    """
+    if text == "threads":
+        return None
+    bad = WorkbenchError(f"--scheduler must be 'threads' or a dask scheduler address tcp://HOST:PORT "
+                         f"or tls://HOST:PORT (got {shorten(text, 60)!r})")
+    scheme, sep, rest = text.partition("://")
+    if not sep or scheme not in ("tcp", "tls") or "/" in rest or "@" in rest:
+        raise bad
+    host, colon, port = rest.rpartition(":")
+    if host.startswith("[") and host.endswith("]"):
+        host = host[1:-1]
+    if not colon or not host or not port.isdigit() or not 1 <= int(port) <= 65535:
+        raise bad
+    return scheme, host, int(port)
+
+
+def probe_scheduler(scheme: str, host: str, port: int, *, timeout: float = SCHEDULER_TIMEOUT_S) -> None:
+    """Check that ``host:port`` accepts a connection within ``timeout`` s and, for tcp://, greets like a
+    dask scheduler (its first message is a small length-prefixed handshake naming ``compression``).
+
+    The dask scheduler protocol is unauthenticated: point it only at a cluster you trust.
+
+    Raises
+    ------
+    WorkbenchError
+        One line: cannot connect, no answer, or not a dask scheduler.
+    """
+    import socket
+    import struct
+
+    where = f"--scheduler {scheme}://{host}:{port}"
+    try:
+        sock = socket.create_connection((host, port), timeout=timeout)
+    except socket.timeout:
+        raise WorkbenchError(f"{where}: no connection within {timeout:g} s") from None
+    except OSError as err:
+        raise WorkbenchError(f"{where}: cannot connect ({err.strerror or err})") from None
+    with sock:
+        if scheme != "tcp":
+            return
+        sock.settimeout(timeout)
+        data = b""
+        try:
+            while len(data) < 64:
+                block = sock.recv(256)
+                if not block:
+                    break
+                data += block
+        except socket.timeout:
+            pass
+        except OSError as err:
+            raise WorkbenchError(f"{where}: the connection failed ({err.strerror or err})") from None
+    if len(data) < 8:
+        raise WorkbenchError(f"{where}: not a dask scheduler (it sent {len(data)} bytes in {timeout:g} s; "
+                             "a scheduler greets at once)")
+    (length,) = struct.unpack("<Q", data[:8])
+    if not (16 <= length <= 1 << 20) or b"compression" not in data:
+        raise WorkbenchError(f"{where}: not a dask scheduler (its first bytes {shorten(repr(data[:16]), 40)} "
+                             "are not a dask handshake)")
+
+
 def _scheduler(text: str):
     """(scheduler for render_dask, description, worker threads, client to close or None)."""
-    if text == "threads":
+    parsed = parse_scheduler_address(text)
+    if parsed is None:
         n = os.cpu_count() or 1
         return "threads", f"dask local threaded scheduler ({n} threads)", n, None
-    if "://" not in text and ":" not in text:
-        raise WorkbenchError(f"--scheduler must be 'threads' or a dask scheduler address such as "
-                             f"tcp://host:8786 (got {text!r})")
-    from workbench.analysis.render import client_for
-
-    client = client_for(text)
+    probe_scheduler(*parsed)
+    try:
+        from distributed import Client
+    except ImportError:  # pragma: no cover
+        raise WorkbenchError("--scheduler: a cluster needs the 'distributed' package") from None
+    try:
+        client = Client(text, timeout=SCHEDULER_TIMEOUT_S, set_as_default=False)
+    except (OSError, TimeoutError, ValueError) as err:
+        raise WorkbenchError(f"--scheduler {text}: cannot connect to the dask scheduler "
+                             f"({shorten(str(err), 80)})") from None
     threads = sum(client.nthreads().values()) or 1
     return client, f"dask.distributed at {text} ({len(client.nthreads())} workers, {threads} threads)", \
         threads, client
 
 
 def run(args) -> int:
-    from workbench.analysis.render import BatchPipeline, render_dask
-    from workbench.fileio.spectral_cube import auto_chunk_bytes, open_cube
+    from workbench.analysis.render import BatchPipeline
+    from workbench.fileio.limits import check_regular_file
+    from workbench.fileio.outdir import OutputFolder
+    from workbench.fileio.spectral_cube import open_cube, sidecar_path
 
     chunk_mb = _chunk_mb(args.chunk_mb)
-    cube = open_cube(args.cube, wavelengths=args.wavelengths)
+    parse_scheduler_address(args.scheduler)
+    folder = OutputFolder(args.out, option="--out", command="render", names=FILES)
+    folder._validate()
     design_path = Path(args.design)
-    if not design_path.exists():
-        raise InputFileError("no such file", str(design_path))
-    out = Path(args.out)
-    if out.exists() and not out.is_dir():
-        raise InputFileError("--out must be a folder (a file of that name exists)", str(out))
+    check_regular_file(design_path)
+    cube_path = Path(args.cube)
+    if cube_path.suffix.lower() == ".zarr" or cube_path.is_dir():
+        check_regular_file(cube_path, allow_dir=True)
+    else:
+        check_regular_file(cube_path)
+    if args.wavelengths is None and cube_path.suffix:
+        sc = sidecar_path(cube_path)
+        if os.path.lexists(sc):
+            check_regular_file(sc)
+            if os.stat(sc).st_size > limits().design_bytes:
+                raise InputFileError(f"larger than the limit of {limits().design_mb:g} MiB; "
+                                     f"{how_to_raise('design_mb')}", str(sc))
+    cube = open_cube(args.cube, wavelengths=args.wavelengths)
 
     from workbench.analysis.evaluator import load_camera
 
@@ -149,6 +243,20 @@ def run(args) -> int:
 
     scheduler, sched_text, threads, client = _scheduler(args.scheduler)
     try:
+        with folder:
+            return _render(args, folder, cube, camera, label, E, key, ill_notes, pipeline, design_path,
+                           chunk_mb, scheduler, sched_text, threads, client)
+    finally:
+        if client is not None:
+            client.close()
+
+
+def _render(args, out, cube, camera, label, E, key, ill_notes, pipeline, design_path,
+            chunk_mb, scheduler, sched_text, threads, client) -> int:
+    from workbench.analysis.render import render_dask
+    from workbench.fileio.spectral_cube import auto_chunk_bytes
+
+    try:
         if chunk_mb is None:
             import psutil
 
@@ -161,10 +269,13 @@ def run(args) -> int:
             chunk_bytes = int(chunk_mb * 2 ** 20)
             rule = "--chunk-mb"
         darr, rows = cube.to_dask(chunk_bytes)
+        pixels = rows * int(np.prod(cube.shape[1:-1], dtype=np.int64))
+        check_count(pixels, "chunk_pixels", "pixels per chunk",
+                    where="--chunk-mb" if chunk_mb is not None else "render")
+        _check_cube_values(darr, cube, scheduler)
         result = render_dask(pipeline, darr, scheduler=scheduler, desc=f"render {Path(cube.path).name}")
     finally:
-        if client is not None:
-            client.close()
+        pass
 
     if result.nonfinite:
         idx = result.first_nonfinite_index()
@@ -177,7 +288,6 @@ def run(args) -> int:
                "reflectances are taken as 0-1 (is the cube in percent?)")
 
     stats = result.stats()
-    out.mkdir(parents=True, exist_ok=True)
     written = []
     if cube.layout == "image":
         from workbench.plots.images import plot_delta_e_map, save_figure, save_rgb8_png
@@ -234,12 +344,49 @@ def run(args) -> int:
 
     write_text_atomically(out / "summary.json", to_json(summary) + "\n")
     written.append("summary.json")
+    out.commit()
+    out = out.target
     print(f"ΔE00 over {result.count} {'pixels' if cube.layout == 'image' else 'spectra'} "
           f"(CIEDE2000, {camera.name} under {label} vs truth): mean {stats['mean']:.4f}, "
           f"p95 {stats['p95']:.4f}, max {stats['max']:.4f}")
     notice(f"wrote {', '.join(written)} to {out} ({result.chunks} chunks of {rows} rows, "
            f"{sched_text}, {result.seconds:.2f} s)")
     return 0
+
+
+def _check_cube_values(darr, cube, scheduler) -> None:
+    """Refuse a cube with reflectances below −0.1 or above 10; notice small negatives and values above 1.
+
+    The rule of :mod:`workbench.fileio.plausible`, counted in one pass over the cube (chunk by chunk).
+    """
+    import dask
+    import dask.array as da
+
+    from workbench.fileio.plausible import REFLECTANCE_RANGE
+
+    lo, hi = REFLECTANCE_RANGE
+    finite = da.isfinite(darr)
+    masked = da.where(finite, darr, 0)
+    counts = (da.sum(masked < lo), da.sum(masked > hi), da.sum(masked < 0), da.sum(masked > 1),
+              da.min(masked), da.max(masked))
+    kwargs = {"scheduler": scheduler} if isinstance(scheduler, str) else {}
+    if not isinstance(scheduler, str):
+        kwargs = {"scheduler": scheduler.get}
+    with np.errstate(invalid="ignore"):
+        below, above, neg, over, vmin, vmax = (x.item() if hasattr(x, "item") else x
+                                               for x in dask.compute(*counts, **kwargs))
+    if below:
+        raise InputFileError(f"{below} reflectance values below {lo:g} (the lowest {vmin:g}); expected "
+                             f"reflectance 0-1 (small negatives, {lo:g} to 0, are accepted with a notice)",
+                             cube.path)
+    if above:
+        raise InputFileError(f"{above} reflectance values above {hi:g} (the largest {vmax:g}); expected "
+                             "reflectance 0-1 (is the cube in percent?)", cube.path)
+    if neg:
+        notice(f"{cube.path}: {neg} reflectance values below 0 (the lowest {vmin:.3g}) used as written "
+               "(measurement noise?); not clipped")
+    if over:
+        notice(f"{cube.path}: {over} reflectance values above 1 (the largest {vmax:.3g}) used as written")
 
 
 def _grid_text(wl) -> str:

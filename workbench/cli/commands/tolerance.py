@@ -24,6 +24,8 @@ bad input.
 
 from __future__ import annotations
 
+import contextlib
+import math
 from pathlib import Path
 
 from workbench.fileio.design_toml import load_design
@@ -166,59 +168,91 @@ def table(result) -> str:
     return "\n".join(blocks)
 
 
-def write_plots(result, folder: Path) -> list[Path]:
-    """Save the tolerance figures as PNG files in ``folder`` (each written atomically)."""
-    import os
-    import uuid
+PLOT_FILES = ("histograms-fixed.png", "histograms-recalibrated.png", "ranking-fixed.png",
+              "ranking-recalibrated.png", "field-shift.png")
 
+
+def write_plots(result, folder) -> list[Path]:
+    """Save the tolerance figures as PNG files into ``folder``.
+
+    ``folder`` is an open :class:`workbench.fileio.outdir.OutputFolder` (the
+    figures land in its staging folder; the caller commits) or a path,
+    which is then written as one unit here.
+    """
+    from workbench.fileio.outdir import OutputFolder
+
+    if not isinstance(folder, OutputFolder):
+        with OutputFolder(folder, option="--plots", command="tolerance", names=PLOT_FILES) as out:
+            names = [p.name for p in write_plots(result, out)]
+            out.commit()
+        return [out.target / n for n in names]
+    import matplotlib.pyplot as plt
+
+    from workbench.fileio.atomic import write_atomically
     from workbench.plots.tolerance import plot_field_shift, plot_histograms, plot_ranking
 
-    folder.mkdir(parents=True, exist_ok=True)
-    figs = []
+    makers = []
     for case in result.cases:
-        figs.append((f"histograms-{case}.png", plot_histograms(result, case=case)))
-        figs.append((f"ranking-{case}.png", plot_ranking(result, case=case)))
+        makers.append((f"histograms-{case}.png", lambda c=case: plot_histograms(result, case=c)))
+        makers.append((f"ranking-{case}.png", lambda c=case: plot_ranking(result, case=c)))
     if result.field is not None:
-        figs.append(("field-shift.png", plot_field_shift(result.field)))
+        makers.append(("field-shift.png", lambda: plot_field_shift(result.field)))
     out = []
-    for name, fig in figs:
-        target = folder / name
-        tmp = folder / f".{name}.{uuid.uuid4().hex[:8]}.tmp"
+    for name, make in makers:
+        fig = make()
         try:
-            fig.savefig(tmp, format="png", dpi=110)
-            os.replace(tmp, target)
+            write_atomically(folder / name, lambda fh: fig.savefig(fh, format="png", dpi=110))
         finally:
-            if tmp.exists():
-                tmp.unlink()
-        out.append(target)
+            plt.close(fig)
+        out.append(folder / name)
     return out
 
 
 def run(args) -> int:
-    from workbench.analysis.tolerance import run_tolerance, save_trials
+    from workbench.analysis.tolerance import run_tolerance, save_trials, toleranced_parameters
+    from workbench.fileio.limits import check_count
+    from workbench.fileio.outdir import OutputFolder, check_output_file
 
-    design = load_design(args.design)
     if args.trials < 1:
         raise WorkbenchError(f"--trials: expected a whole number >= 1 (got {args.trials})")
-    if args.seed < 0:
+    check_count(args.trials, "trials", "trials", where="--trials")
+    if not 0 <= args.seed < 2**63:
         raise WorkbenchError(f"--seed: expected a whole number >= 0 (got {args.seed})")
     if args.chunk < 1:
         raise WorkbenchError(f"--chunk: expected a whole number >= 1 (got {args.chunk})")
-    if not args.scale >= 0:
-        raise WorkbenchError(f"--scale: expected a number >= 0 (got {args.scale:g})")
-    if args.plots is not None and args.plots.exists() and not args.plots.is_dir():
-        raise WorkbenchError(f"--plots {args.plots}: expected a folder, found a file")
-    result = run_tolerance(design, trials=args.trials, seed=args.seed, matrix=args.matrix,
-                           scale=args.scale, spec=_spec(design, args), field=False if args.no_field else None,
-                           chunk=args.chunk, progress=not args.quiet)
-    for n in result.notes:
-        notice(n)
-    if args.csv or args.trials_json:
-        save_trials(result, csv_path=args.csv, json_path=args.trials_json)
-        notice(f"wrote {result.trials} trials to {', '.join(p for p in (args.csv, args.trials_json) if p)}")
+    check_count(args.chunk, "trials", "trials per chunk", where="--chunk")
+    if not (args.scale >= 0 and math.isfinite(args.scale)):
+        raise WorkbenchError(f"--scale: expected a finite number >= 0 (got {args.scale:g})")
+    for option, value in (("--max-mean-de00", args.max_mean_de00), ("--min-vora", args.min_vora)):
+        if value is not None and not math.isfinite(value):
+            raise WorkbenchError(f"{option}: expected a finite number (got {value:g})")
+    for option, value in (("--csv", args.csv), ("--trials-json", args.trials_json)):
+        if value:
+            check_output_file(value, option=option)
+    plots = None
     if args.plots is not None:
-        written = write_plots(result, args.plots)
-        notice(f"wrote {', '.join(p.name for p in written)} to {args.plots}")
+        plots = OutputFolder(args.plots, option="--plots", command="tolerance", names=PLOT_FILES)
+        plots._validate()
+    design = load_design(args.design)
+    spec = _spec(design, args)
+    if not toleranced_parameters(design):
+        raise WorkbenchError(f"{design.source}: no parameter has a tolerance; expected at least one "
+                             "'tolerance = {distribution, width}' in the [[chain]] (docs/design-file.md)")
+    with contextlib.ExitStack() as stack:
+        if plots is not None:
+            stack.enter_context(plots)
+        result = run_tolerance(design, trials=args.trials, seed=args.seed, matrix=args.matrix,
+                               scale=args.scale, spec=spec, field=False if args.no_field else None,
+                               chunk=args.chunk, progress=not args.quiet)
+        for n in result.notes:
+            notice(n)
+        if args.csv or args.trials_json:
+            save_trials(result, csv_path=args.csv, json_path=args.trials_json)
+            notice(f"wrote {result.trials} trials to {', '.join(p for p in (args.csv, args.trials_json) if p)}")
+        if plots is not None:
+            written = write_plots(result, plots)
+            plots.commit()
+            notice(f"wrote {', '.join(p.name for p in written)} to {args.plots}")
     if args.format == "json":
         print(to_json(result.summary()))
     else:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 import sys
 from pathlib import Path
 
@@ -10,6 +11,7 @@ import numpy as np
 from workbench.colorimetry.coordinates import XYZ_to_Lab, XYZ_to_uv_prime, XYZ_to_xy
 from workbench.errors import WorkbenchError
 from workbench.model.spectra import KINDS, grid
+from workbench.fileio.limits import check_step, limits
 from workbench.fileio.spectra_csv import read_spectra_csv
 from workbench.colorimetry.tristimulus import tristimulus
 from workbench.cli.commands._output import FORMATS, notice, render_rows
@@ -66,10 +68,15 @@ def _load_illuminant(arg: str, wavelengths):
 
 
 def run(args) -> int:
+    if args.resample is not None and not (math.isfinite(args.resample)
+                                          and args.resample >= limits().min_step_nm):
+        raise WorkbenchError(f"--resample: expected a step of at least {limits().min_step_nm:g} nm "
+                             f"(got {args.resample:g})")
     spectra = read_spectra_csv(args.file, kind=args.kind)
     if args.resample is not None:
         lo, hi = spectra.wavelengths[0], spectra.wavelengths[-1]
         step = args.resample
+        check_step(float(lo), float(hi), step, what="--resample")
         start = np.ceil(lo / step - 1e-9) * step
         stop = np.floor(hi / step + 1e-9) * step
         spectra = spectra.resample(grid(start, stop, step))
