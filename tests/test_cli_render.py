@@ -75,9 +75,9 @@ def _mixtures(shape, seed=0):
 
 class TestRenderCommand:
     @pytest.mark.slow  # renders the demo scene
-    def test_demo_scene_contract(self, tmp_path, capsys, demo_expected):
+    def test_demo_scene_contract(self, tmp_path, capsys, demo_expected, out_dir):
         """The demo scene: PNGs, the ΔE00 map, ΔE00 per pixel and summary.json equal the in-memory path."""
-        out = tmp_path / "r"
+        out = out_dir
         code, cap = _run(capsys, DESIGN, SCENE, "--out", out, "--illuminant", "stage-led")
         assert code == 0, cap.err
         assert sorted(p.name for p in out.iterdir()) == [".workbench-output",
@@ -99,11 +99,11 @@ class TestRenderCommand:
         assert "mean" in cap.out and "p95" in cap.out and "note: wrote" in cap.err
         assert not list(out.glob(".*.tmp"))                         # no temporary files left
 
-    def test_wavelengths_option_and_small_chunks(self, tmp_path, capsys, gaussian_csv):
+    def test_wavelengths_option_and_small_chunks(self, tmp_path, capsys, gaussian_csv, out_dir):
         """--wavelengths replaces the sidecar; --chunk-mb splits the cube; results equal memory."""
         a = _mixtures((21, 13)).astype(np.float32)
         cube = _cube(tmp_path, a, sidecar=False)
-        out = tmp_path / "r"
+        out = out_dir
         code, cap = _run(capsys, gaussian_csv, cube, "--out", out, "--wavelengths", "380:780:5",
                          "--chunk-mb", "0.02", "--illuminant", "A")
         assert code == 0, cap.err
@@ -118,10 +118,10 @@ class TestRenderCommand:
         np.testing.assert_array_equal(np.load(out / "delta_e00.npy"), ref.delta_E00)
         np.testing.assert_array_equal(_png(out / "camera.png"), ref.camera_sRGB8)
 
-    def test_spectral_set(self, tmp_path, capsys, gaussian_csv):
+    def test_spectral_set(self, tmp_path, capsys, gaussian_csv, out_dir):
         """A spectral set (N, bands) writes ΔE00 per spectrum and the summary, no images."""
         a = _mixtures((500,), seed=2)
-        out = tmp_path / "r"
+        out = out_dir
         code, cap = _run(capsys, gaussian_csv, _cube(tmp_path, a), "--out", out)
         assert code == 0, cap.err
         assert sorted(p.name for p in out.iterdir()) == [".workbench-output", "delta_e00.npy", "summary.json"]
@@ -172,7 +172,7 @@ class TestRenderCommand:
         assert code == 0, cap.err
         assert f"{cube}: 5 reflectance values below 0" in cap.err
 
-    def test_interrupt_exits_130_and_writes_nothing(self, tmp_path, capsys, gaussian_csv, monkeypatch):
+    def test_interrupt_exits_130_and_writes_nothing(self, tmp_path, capsys, gaussian_csv, monkeypatch, out_dir):
         """Ctrl-C during the render ends with status 130 and leaves no output files."""
         import workbench.analysis.render as scale
 
@@ -180,7 +180,7 @@ class TestRenderCommand:
             raise KeyboardInterrupt
 
         monkeypatch.setattr(scale, "_render_chunk", interrupted)
-        out = tmp_path / "r"
+        out = out_dir
         code, cap = _run(capsys, gaussian_csv, _cube(tmp_path, _mixtures((6, 5))), "--out", out,
                          "--chunk-mb", "0.01")
         assert code == 130 and "interrupted" in cap.err
@@ -209,11 +209,11 @@ class TestRenderErrors:
         assert code == 2
         assert cap.err.startswith("error: ") and "c.json: no such sidecar file" in cap.err
 
-    def test_non_finite(self, tmp_path, capsys, gaussian_csv):
+    def test_non_finite(self, tmp_path, capsys, gaussian_csv, out_dir):
         """A NaN pixel: one line naming the cube, the count and the first pixel; nothing written."""
         a = _mixtures((4, 5))
         a[2, 3, 10] = np.nan
-        out = tmp_path / "r"
+        out = out_dir
         code, cap = _run(capsys, gaussian_csv, _cube(tmp_path, a), "--out", out)
         assert code == 2
         line = cap.err.strip().splitlines()[-1]
