@@ -62,3 +62,29 @@ class TestRefineRecipe:
         assert report.rms_after <= report.rms_before
         R, _, _, _ = refined.response(np.arange(430.0, 650.0, 0.1))
         assert stop_band_edges(np.arange(430.0, 650.0, 0.1), R)[1] == pytest.approx(500.0, abs=3.0)
+
+
+class TestRefineInCamera:
+    def test_residuals_and_refinement(self, demo_design):
+        """The residuals from sensitivities equal the evaluator's; refining a real trim stack lowers the cost."""
+        from workbench.analysis.evaluator import DesignEvaluator
+        from workbench.analysis.recipe import _residuals_of_sensitivities, refine_in_camera
+
+        ev = DesignEvaluator(demo_design)
+        r = ev.residuals(ev.start)[0]
+        np.testing.assert_array_equal(_residuals_of_sensitivities(ev, ev.sensitivities()[None])[0], r)
+        rec = starting_stack(480.0, reflects="short", periods=8)
+        seen = []
+        refined, report = refine_in_camera(ev, "green-edge", rec, max_evaluations=6,
+                                           progress=lambda n, cost: seen.append(cost))
+        assert report.cost_after < report.cost_before and seen[0] == pytest.approx(report.cost_before)
+        assert refined.thicknesses_nm.shape == rec.thicknesses_nm.shape
+
+    def test_rejects_unknown_element(self, demo_design):
+        """An element name not in the design is refused."""
+        from workbench.analysis.evaluator import DesignEvaluator
+        from workbench.analysis.recipe import refine_in_camera
+
+        with pytest.raises(WorkbenchError) as err:
+            refine_in_camera(DesignEvaluator(demo_design), "nothing", starting_stack(480.0, reflects="short"))
+        assert str(err.value).startswith("'element' must be one of lens, ir-cut, prism,")

@@ -32,7 +32,8 @@ from workbench.optics.materials import Material, material_named
 from workbench.optics.stacks import cone_response, parse_layer_formula, physical_thicknesses
 from workbench.optics.thinfilm import stop_band_edges
 
-__all__ = ["Recipe", "starting_stack", "refine_recipe", "RefineReport", "REFLECTS"]
+__all__ = ["Recipe", "starting_stack", "refine_recipe", "RefineReport", "REFLECTS", "refine_in_camera",
+           "CameraRefineReport"]
 
 #: Which side of the edge a face reflects.
 REFLECTS = ("short", "long")
@@ -255,3 +256,138 @@ def refine_recipe(recipe: Recipe, wavelengths_nm, target_R, *, weights=None, low
                      recipe.notes + (f"thicknesses refined to a target reflectance ({sol.nfev} evaluations)",))
     rms = lambda r: float(np.sqrt(np.sum(r**2) / np.sum(w**2)))  # noqa: E731
     return refined, RefineReport(rms(r0), rms(sol.fun), int(sol.nfev), str(sol.message), at_bound)
+
+
+# --------------------------------------------------------------------------
+# Refinement against the camera objective
+# --------------------------------------------------------------------------
+
+_CHANNELS = ("R", "G", "B")
+
+
+def _residuals_of_sensitivities(evaluator, S):
+    """The design's fit residuals for given sensitivities ``(B, 3, n)`` (the free parameters held).
+
+    The evaluator computes its residuals from the chain's sensitivities; a
+    shallow copy whose ``sensitivities`` returns ``S`` gives the same
+    residuals for any sensitivities without touching the caller's evaluator.
+    """
+    import copy
+
+    ev = copy.copy(evaluator)
+    ev.sensitivities = lambda values=None: S
+    x = np.broadcast_to(evaluator.start, (S.shape[0], evaluator.start.size))
+    return ev.residuals(x)
+
+
+@dataclass(frozen=True)
+class CameraRefineReport:
+    """What :func:`refine_in_camera` did: the fit objective (½ Σ r²) before and after, evaluations, status."""
+
+    cost_before: float
+    cost_after: float
+    evaluations: int
+    message: str
+    at_bound: tuple
+
+
+def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str = "none", paths=None,
+                     lower: float = 0.5, upper: float = 1.5, max_evaluations: int = 60,
+                     progress=None) -> tuple[Recipe, CameraRefineReport]:
+    """Refine a recipe's layer thicknesses against the camera objective itself.
+
+    The element ``element`` of the evaluator's design is replaced by the
+    recipe's stack: its reflectance on the ``reflects`` path, its
+    transmittance on the other ``paths`` (default: the element's own). The
+    design's fit objective (its residual vector, as ``workbench fit`` uses)
+    is then minimised over every layer thickness within
+    ``[lower, upper] × start`` by a trust-region least-squares fit. The
+    Jacobian is the chain rule of the analytic thickness derivatives of the
+    stack (:mod:`workbench.optics.thinfilm`) and the residuals' derivatives
+    with respect to the sensitivities (forward differences, one batched
+    evaluation of 3·n states per step).
+
+    Parameters
+    ----------
+    evaluator : workbench.analysis.evaluator.DesignEvaluator
+    element : str
+        Name of the element the recipe replaces.
+    recipe : Recipe
+    reflects : {'none', 'R', 'G', 'B'}
+    paths : sequence of str, optional
+    lower, upper : float
+        Bounds as fractions of each starting thickness.
+    max_evaluations : int
+    progress : callable, optional
+        ``progress(evaluations, cost)`` after each evaluation of the stack.
+
+    Returns
+    -------
+    (Recipe, CameraRefineReport)
+    """
+    from scipy.optimize import least_squares
+
+    if evaluator._n_matrix_params():
+        raise WorkbenchError("refining in the camera takes an objective without a fitted ΔE00 matrix "
+                             "(got objective mean-delta-e00 with matrix delta-e00)")
+    curves = evaluator.model.element_curves()
+    names = [c.name for c in curves]
+    if element not in names:
+        raise WorkbenchError(f"'element' must be one of {', '.join(names)} (got {element!r})")
+    el = curves[names.index(element)]
+    paths = tuple(el.paths if paths is None else paths)
+    if reflects != "none" and reflects not in paths:
+        raise WorkbenchError(f"'reflects' must be one of the paths ({', '.join(paths)}) or 'none' (got {reflects!r})")
+    others = np.ones((3, evaluator.wavelengths.size))
+    for c in curves:
+        if c.name != element:
+            others = others * c.values
+    wl = evaluator.wavelengths
+    N = recipe.indices(wl)
+    kw = dict(aoi_deg=recipe.aoi_deg, f_number=recipe.f_number, incident=recipe.incident.index(wl).real,
+              substrate=recipe.substrate.index(wl), polarisation=recipe.polarisation)
+    L = recipe.thicknesses_nm.size
+    cache = {}
+    count = [0]
+
+    def state(d):
+        key = d.tobytes()
+        if key in cache:
+            return cache[key]
+        R, T, dR, dT = cone_response(N, d, wl, derivatives=True, **kw)
+        F = np.ones((3, wl.size))
+        dF = np.zeros((L, 3, wl.size))
+        for i, ch in enumerate(_CHANNELS):
+            if ch in paths:
+                F[i], dF[:, i] = (R, dR) if ch == reflects else (T, dT)
+        S = others * F
+        r = _residuals_of_sensitivities(evaluator, S[None])[0]
+        cache.clear()
+        cache[key] = (S, others * dF, r)
+        count[0] += 1
+        if progress is not None:
+            progress(count[0], 0.5 * float(r @ r))
+        return cache[key]
+
+    def fun(d):
+        return state(d)[2]
+
+    def jac(d):
+        S, dS, r = state(d)
+        h = 1e-6 * max(float(S.max()), 1e-12)
+        n3 = S.size
+        Sp = S[None] + h * np.eye(n3).reshape(n3, *S.shape)
+        JS = (_residuals_of_sensitivities(evaluator, Sp) - r[None]) / h     # (3n, m)
+        return JS.T @ dS.reshape(L, n3).T                                   # (m, L)
+
+    d0 = recipe.thicknesses_nm.copy()
+    r0 = fun(d0)
+    lo, hi = d0 * lower, d0 * upper
+    sol = least_squares(fun, d0, jac=jac, bounds=(lo, hi), method="trf", x_scale=d0, max_nfev=max_evaluations)
+    at_bound = tuple(int(i) for i in np.nonzero((sol.x <= lo * 1.0001) | (sol.x >= hi * 0.9999))[0])
+    refined = Recipe(recipe.symbols, recipe.materials, sol.x, recipe.reference_nm, recipe.incident,
+                     recipe.substrate, recipe.aoi_deg, recipe.f_number, recipe.polarisation,
+                     recipe.notes + (f"thicknesses refined against the camera objective of "
+                                     f"{evaluator.design.name!r} ({sol.nfev} evaluations)",))
+    return refined, CameraRefineReport(0.5 * float(r0 @ r0), float(sol.cost), int(sol.nfev), str(sol.message),
+                                       at_bound)
