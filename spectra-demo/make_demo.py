@@ -134,6 +134,37 @@ def main() -> None:
                   "# Invented phosphor-like display emitters, each 1 at its peak"]))
 
     write("tern3_design.toml", DESIGN)
+    write("tern3_nir_design.toml", nir_variant(DESIGN))
+
+
+def nir_variant(design: str) -> str:
+    """The same camera on a 380-1000 nm grid: the near infrared the sensor sees, for the IR measures.
+
+    CIE D65 is defined to 830 nm only, so the variant judges the camera under
+    illuminant A (its formula holds at every wavelength) and the LED, whose
+    export ends at 780 nm and is extended with its end value (near zero);
+    the sample sets are extended with their end values (CIE 167).
+    """
+    edits = [
+        ('name = "Lanternfield Tern-3, prism block rev A"',
+         'name = "Lanternfield Tern-3, prism block rev A, 380-1000 nm"'),
+        ("stop_nm = 780", "stop_nm = 1000"),
+        ('source = "cie-13.3"', 'source = "cie-13.3"\nextrapolation = "constant"'),
+        ('source = "cie-224"', 'source = "cie-224"\nextrapolation = "constant"'),
+        ('file = "studio_reflectances.csv"', 'file = "studio_reflectances.csv"\nextrapolation = "constant"'),
+        ('file = "luminaire_led_export.csv"', 'file = "luminaire_led_export.csv"\nextrapolation = "constant"'),
+        ('[[illuminants]]\nname = "daylight"\ncie = "D65"\n\n', ""),
+        ('recording_illuminant = "daylight"\nviewing_illuminant = "daylight"',
+         'recording_illuminant = "tungsten"\nviewing_illuminant = "tungsten"'),
+        ('illuminants = ["daylight", "tungsten", "stage-led"]', 'illuminants = ["tungsten", "stage-led"]\n'
+         '# report the share of each channel above 680 nm too (700 nm is always reported)\n'
+         'infrared_cutoff_nm = 680.0'),
+    ]
+    for old, new in edits:
+        if old not in design:
+            raise SystemExit(f"make_demo: the design text lacks {old!r}")
+        design = design.replace(old, new)
+    return design.replace("# Tern-3: an INVENTED", "# Tern-3 over 380-1000 nm (near infrared): an INVENTED", 1)
 
 
 DESIGN = '''\

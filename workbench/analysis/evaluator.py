@@ -44,6 +44,7 @@ from workbench.model.design import Design, FittedMatrix
 from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.measures import neugebauer_q, orthonormal_basis, vora_value
+from workbench.analysis.near_infrared import DEFAULT_CUTOFF_NM, infrared_report, infrared_residuals
 from workbench.colorimetry.primaries import (
     Primaries,
     primaries_from_emitters,
@@ -265,6 +266,7 @@ class Measures:
     sample_sets: tuple[str, ...]
     weighted_mean_delta_E00: float
     methods: dict
+    infrared: object = None
 
     def summary(self) -> dict:
         """The headline numbers as plain JSON-ready data."""
@@ -284,6 +286,7 @@ class Measures:
                 "values": {ill: self.matrices[j].tolist() for j, ill in enumerate(self.illuminants)},
             },
             "white_balance_gains": {ill: self.gains[j].tolist() for j, ill in enumerate(self.illuminants)},
+            **({"near_infrared": self.infrared.summary()} if self.infrared is not None else {}),
         }
 
     def per_sample_table(self) -> list[dict]:
@@ -385,9 +388,15 @@ class DesignEvaluator:
         A_t = self.view[:, None] * self.targets.T
         self._A_t = A_t / np.linalg.norm(A_t)
         # the SMI set: CIE 13.3 TCS01-08 under D65 (parameters of the index)
-        tcs = tcs_cie_13_3(wl, extrapolation="constant")
+        # (on the grid up to 830 nm: D65 is defined no further, and the index is a visible one)
+        self._smi_keep = wl <= 830.0
+        wl_smi = wl[self._smi_keep]
+        if not self._smi_keep.all():
+            notes.append(f"the SMI is computed over {wl_smi[0]:g}-{wl_smi[-1]:g} nm of the grid (CIE D65 "
+                         "is defined to 830 nm)")
+        tcs = tcs_cie_13_3(wl_smi, extrapolation="constant")
         self._smi_samples = tcs.flat()[:8]
-        self._smi_illuminant = np.asarray(illuminant_on(wl, "D65")[1].values)
+        self._smi_illuminant = np.asarray(illuminant_on(wl_smi, "D65")[1].values)
         # the curve illuminant: the viewing illuminant when the bench has it, else the first
         view = design.fit.viewing_illuminant
         self.curve_illuminant = view if view in self.bench.illuminant_names else self.bench.illuminant_names[0]
@@ -438,13 +447,20 @@ class DesignEvaluator:
             return None
         return np.stack([np.array(per[n]) for n in self.bench.illuminant_names])
 
+    def infrared_cutoffs(self, extra=()) -> tuple[float, ...]:
+        """700 nm, the design's ``[fit] infrared_cutoff_nm`` and any ``extra`` cut-offs, nm, once each."""
+        return tuple(dict.fromkeys([DEFAULT_CUTOFF_NM, float(self.design.fit.infrared_cutoff_nm),
+                                    *(float(c) for c in extra)]))
+
     def measures(self, values=None, *, matrices=None, method=None, scope=None,
-                 use_stored_matrix=False) -> Measures:
+                 use_stored_matrix=False, infrared_cutoffs=()) -> Measures:
         """Every measure of one design state.
 
         ``matrices`` (3, 3) or (J, 3, 3) fixes the matrix; otherwise it is
         fitted by ``method``/``scope`` (default: the design's ``[fit]``), or
         taken from the design's ``[matrix]`` when ``use_stored_matrix``.
+        ``infrared_cutoffs`` (nm) adds cut-offs to the near-infrared
+        measures (700 nm and the design's are always there).
         """
         fit = self.design.fit
         method = method or fit.matrix
@@ -462,13 +478,16 @@ class DesignEvaluator:
         q = tuple(float(v) for v in neugebauer_q(St, self.cmfs, self.rec, self.view))
         lr = float(luther_residual(St, self.targets.T, self.rec, self.view))
         stats = {ill: {k: float(v) for k, v in d.items()} for ill, d in res.stats.items()}
-        smi = sensitivity_metamerism_index(S, self.wavelengths, self._smi_samples, self._smi_illuminant,
+        smi = sensitivity_metamerism_index(S[:, self._smi_keep], self.wavelengths[self._smi_keep],
+                                           self._smi_samples, self._smi_illuminant,
                                            observer=self.design.observer)
         smi["samples"] = "CIE 13.3 TCS01-TCS08"
         smi["illuminant"] = "CIE D65"
         smi["slope"] = SMI_SLOPE
         noise = {ill: noise_report(res.matrices[j], res.raw_white[j], self.design.noise)
                  for j, ill in enumerate(res.illuminants)}
+        infrared = infrared_report(self.bench, S, cutoffs_nm=self.infrared_cutoffs(infrared_cutoffs),
+                                   method=method if matrices is None else fit.matrix, scope=scope)
         j = res.illuminants.index(self.curve_illuminant)
         b = self.bench
         E = b.E[j]
@@ -492,6 +511,7 @@ class DesignEvaluator:
             "viewing_illuminant": self.design.fit.viewing_illuminant or "equal energy",
             "observer": observer_label(self.design.observer),
             "target": self.primaries.name,
+            "near_infrared": infrared.method,
         }
         return Measures(
             vora_value=nu, neugebauer_q=q, luther_residual=lr, delta_E00=stats, smi=smi,
@@ -502,6 +522,7 @@ class DesignEvaluator:
             wavelengths=self.wavelengths, illuminants=res.illuminants,
             sample_names=res.sample_names, sample_sets=res.sample_sets,
             weighted_mean_delta_E00=float(res.weighted_mean(self.bench.weights)), methods=methods,
+            infrared=infrared,
         )
 
     def batch(self, values: dict, *, matrices=None, method=None, scope=None) -> dict:
@@ -581,7 +602,18 @@ class DesignEvaluator:
             if fit.noise_weight > 0:
                 rn = np.linalg.norm(M, axis=-1) / math.sqrt(M.shape[-3] * 3)
                 parts.append(fit.noise_weight * rn.reshape(rn.shape[0], -1))
+        parts.extend(self.extra_residuals(S))
         return np.concatenate(parts, axis=-1)
+
+    def extra_residuals(self, S) -> list[np.ndarray]:
+        """Residual blocks (B, m) added to every objective: the near-infrared weight and cap of ``[fit]``.
+
+        The hook other penalties join; ``S`` (B, 3, n) the sensitivities of the batch.
+        """
+        fit = self.design.fit
+        r = infrared_residuals(S, self.bench.E, self.wavelengths, cutoff_nm=fit.infrared_cutoff_nm,
+                               weight=fit.infrared_weight, cap=fit.max_infrared_share)
+        return [] if r is None else [r]
 
 
 

@@ -459,7 +459,7 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
         return None
     c.unknown(t, ("objective", "recording_illuminant", "viewing_illuminant", "weights", "illuminants",
                   "matrix", "matrix_scope", "noise_weight", "global_start", "starts", "seed",
-                  "max_evaluations"), "fit")
+                  "max_evaluations", "infrared_cutoff_nm", "infrared_weight", "max_infrared_share"), "fit")
     n0 = len(c.problems)
     objective = c.choice(t.get("objective", "vora"), OBJECTIVES, "fit.objective")
     extra = {}
@@ -472,6 +472,14 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
         if f is None or f < 0:
             c.bad("fit.noise_weight", "a number >= 0", t["noise_weight"])
         extra["noise_weight"] = f
+    for k, lo, hi, text in (("infrared_cutoff_nm", 380, 1100, "a number in [380, 1100] nm"),
+                            ("infrared_weight", 0, math.inf, "a number >= 0"),
+                            ("max_infrared_share", 0, 1, "a number in [0, 1]")):
+        if k in t:
+            f = _number(t[k])
+            if f is None or not lo <= f <= hi:
+                c.bad(f"fit.{k}", text, t[k])
+            extra[k] = f
     for k, lo in (("starts", 1), ("seed", 0), ("max_evaluations", 10)):
         if k in t:
             x = t[k]
@@ -833,7 +841,7 @@ def design_to_dict(d: Design, rebase=None) -> dict:
         fit["weights"] = dict(d.fit.weights)
     defaults = Fit()
     for k in ("illuminants", "matrix", "matrix_scope", "noise_weight", "global_start", "starts",
-              "seed", "max_evaluations"):
+              "seed", "max_evaluations", "infrared_cutoff_nm", "infrared_weight", "max_infrared_share"):
         v = getattr(d.fit, k)
         if v != getattr(defaults, k):
             fit[k] = list(v) if isinstance(v, tuple) else v

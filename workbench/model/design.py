@@ -207,6 +207,9 @@ class Fit:
     :mod:`workbench.analysis.camera`). ``noise_weight`` weighs the matrix's row
     norms against the objective; ``global_start`` with ``starts`` and
     ``seed`` an optional global search before the local fit.
+    ``infrared_cutoff_nm``, ``infrared_weight`` and ``max_infrared_share``
+    report, weight or cap each channel's signal from the near infrared
+    (:mod:`workbench.analysis.near_infrared`).
     """
 
     objective: str = "vora"
@@ -221,6 +224,9 @@ class Fit:
     starts: int = 8
     seed: int = 0
     max_evaluations: int = 3000
+    infrared_cutoff_nm: float = 700.0
+    infrared_weight: float = 0.0
+    max_infrared_share: float | None = None
 
 
 @dataclass(frozen=True)

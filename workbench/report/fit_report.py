@@ -243,6 +243,20 @@ def _measure_rows(b, a) -> list[tuple]:
                      _triple(nb.get("sigma_out", [np.nan] * 3), ".5f"), _triple(na["sigma_out"], ".5f")))
         rows.append(("SNR of the grey patch (R / G / B)", "dB, 20·log10(grey / σ_out)",
                      _triple(nb.get("snr_db", [np.nan] * 3), ".1f"), _triple(na["snr_db"], ".1f")))
+    if a.infrared is not None:
+        sb = b.infrared.summary() if b.infrared is not None else {}
+        for cut, per in a.infrared.summary().items():
+            rows.append((f"Near infrared above {cut} nm", None, None, None))
+            for ill, d in per.items():
+                db = sb.get(cut, {}).get(ill, {})
+                share_b = [100 * v for v in db["share"].values()] if db else [np.nan] * 3
+                rows.append((f"signal above {cut} nm under {ill} (R / G / B)",
+                             "% of each channel's white signal (perfect diffuser)",
+                             _triple(share_b, ".2f"), _triple([100 * v for v in d["share"].values()], ".2f")))
+                rows.append((f"mean ΔE00 without it, under {ill}",
+                             "sensitivities cut to zero above the cut-off, matrix refitted",
+                             _f(db.get("mean_delta_E00_without_infrared"), ".3f"),
+                             _f(d["mean_delta_E00_without_infrared"], ".3f")))
     return rows
 
 

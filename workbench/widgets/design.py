@@ -122,12 +122,22 @@ def measures_html(m: Measures, *, sample_count: int | None = None) -> str:
                     headers=["illuminant", "noise gain R/G/B (matrix row norms, ×)", "condition number",
                              "σ_out R/G/B (display RGB, white = 1)", "SNR R/G/B (dB)"],
                     cls="wb-measures-noise", caption="noise of the matrix")
+    t4 = ""
+    if m.infrared is not None:
+        ir_rows = [{"cutoff": r["cutoff_nm"], "illuminant": r["illuminant"],
+                    "share": " / ".join(fmt_number(r[f"{ch}_ir_%"], 2) for ch in CHANNELS),
+                    "with": fmt_number(r["mean_dE00"], 3), "without": fmt_number(r["without_ir"], 3)}
+                   for r in m.infrared.rows()]
+        t4 = html_table(ir_rows, ["cutoff", "illuminant", "share", "with", "without"],
+                        headers=["cut-off (nm)", "illuminant", "signal above it R/G/B (%)",
+                                 "mean ΔE00", "mean ΔE00 without it"],
+                        cls="wb-measures-ir", caption="near infrared: " + meth["near_infrared"])
     notes = (f'<div style="color:#555;font-size:11px">ΔE00: {html.escape(meth["delta_E00"])}. '
              f'Noise: {html.escape(meth["noise"])}. Target {html.escape(meth["target"])}, observer '
              f'{html.escape(meth["observer"])}, recording illuminant '
              f'{html.escape(meth["recording_illuminant"])}, viewing illuminant '
              f'{html.escape(meth["viewing_illuminant"])}.</div>')
-    return f'<div class="wb-measures-body" style="line-height:1.3">{t1}{t2}{t3}{notes}</div>'
+    return f'<div class="wb-measures-body" style="line-height:1.3">{t1}{t2}{t3}{t4}{notes}</div>'
 
 
 # --------------------------------------------------------------------------

@@ -14,6 +14,7 @@ import numpy as np
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.cli.commands._output import notice, render_rows, to_json
 from workbench.colorimetry.cie import observer_label
+from workbench.errors import WorkbenchError
 from workbench.fileio.design_toml import load_design
 from workbench.fileio.spectra_csv import write_spectra_csv
 from workbench.model.design import CHANNELS
@@ -33,6 +34,9 @@ def register(subparsers) -> None:
                    help="output format on stdout (default table)")
     p.add_argument("--sensitivities", metavar="OUT.csv",
                    help="also write the R, G, B sensitivities as a wide CSV")
+    p.add_argument("--ir-cutoff", metavar="NM", type=float, action="append", default=[],
+                   help="another cut-off for the near-infrared share and ΔE00 change, nm "
+                        "(380-1100; 700 nm and the design's [fit] infrared_cutoff_nm are always reported; repeatable)")
     p.set_defaults(run=run)
 
 
@@ -65,10 +69,10 @@ def curve_summary(wl: np.ndarray, s: np.ndarray) -> dict:
     }
 
 
-def evaluate(design) -> dict:
+def evaluate(design, *, infrared_cutoffs=()) -> dict:
     """The summary that ``workbench evaluate`` prints, as a dict (every measure from the evaluator)."""
     ev = DesignEvaluator(design)
-    m = ev.measures(use_stored_matrix=design.matrix is not None)
+    m = ev.measures(use_stored_matrix=design.matrix is not None, infrared_cutoffs=infrared_cutoffs)
     sens = ev.model.channel_sensitivities()
     wl = sens.wavelengths
     return {
@@ -100,12 +104,15 @@ def evaluate(design) -> dict:
 
 
 def run(args) -> int:
+    for c in args.ir_cutoff:
+        if not 380 <= c <= 1100:
+            raise WorkbenchError(f"--ir-cutoff must be a wavelength in [380, 1100] nm (got {c:g})")
     if args.sensitivities:
         from workbench.fileio.outdir import check_output_file
 
         check_output_file(args.sensitivities, option="--sensitivities")
     design = load_design(args.design)
-    result = evaluate(design)
+    result = evaluate(design, infrared_cutoffs=args.ir_cutoff)
     for n in result["notes"]:
         notice(n)
     if args.sensitivities:
@@ -136,5 +143,17 @@ def run(args) -> int:
         f"ΔE00 over the design's samples: {m['delta_E00']}",
         f"matrix: {m['matrix']}; Luther residual {result['luther_residual']:.4f}; "
         f"{m['smi']}: {result['smi']['smi']:.1f}",
+    ]))
+    print()
+    ir = [{"cutoff_nm": cut, "illuminant": ill,
+           **{f"{ch}_ir_%": 100 * v["share"][ch] for ch in CHANNELS},
+           "mean_dE00": v["mean_delta_E00"], "without_ir": v["mean_delta_E00_without_infrared"],
+           "change": v["mean_delta_E00"] - v["mean_delta_E00_without_infrared"]}
+          for cut, per in result["near_infrared"].items() for ill, v in per.items()]
+    print(render_rows(ir, ["cutoff_nm", "illuminant", "R_ir_%", "G_ir_%", "B_ir_%", "mean_dE00",
+                           "without_ir", "change"], "table", header_lines=[
+        "near infrared: share of each channel's white signal above the cut-off (%), and the mean ΔE00 "
+        "with and without it",
+        m["near_infrared"],
     ]))
     return 0
