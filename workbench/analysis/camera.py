@@ -66,6 +66,9 @@ __all__ = [
     "Camera",
 ]
 
+#: √ε of float64, scipy's relative step for '2-point' differences.
+_SQRT_EPS = float(np.finfo(float).eps) ** 0.5
+
 MATRIX_METHODS = ("least-squares", "white-preserving", "delta-e00")
 MATRIX_SCOPES = ("shared", "per-illuminant")
 
@@ -354,12 +357,22 @@ class ColourBench:
             Tg = self.true_Lab[g]
 
             def resid(m, Cg=Cg, Tg=Tg):
-                Mg = np.broadcast_to(m.reshape(3, 3), (len(Cg), 3, 3))
-                display = np.einsum("jab,jkb->jka", Mg, Cg)
+                """Weighted ΔE00 (..., J·K) of matrices ``m`` (..., 9), any leading batch shape."""
+                m = np.asarray(m)
+                display = np.einsum("...ab,jkb->...jka", m.reshape(m.shape[:-1] + (3, 3)), Cg)
                 lab = XYZ_to_Lab(100 * display @ self.N.T, self.white_Lab_ref)
-                return (delta_E_CIE2000(lab, Tg) * sw).ravel()
+                r = delta_E_CIE2000(lab, Tg) * sw
+                return r.reshape(r.shape[:-2] + (-1,))
 
-            r = least_squares(resid, out[g[0]].ravel(), method="lm" if len(g) * C.shape[1] >= 9 else "trf",
+            def jac(m, resid=resid):
+                """Forward differences as scipy's default '2-point' Jacobian takes them, all 9 in one batch."""
+                h = _SQRT_EPS * np.where(m >= 0, 1.0, -1.0) * np.maximum(1.0, np.abs(m))
+                x = m + np.diag(h)                         # row i: m with parameter i stepped
+                dx = np.diag(x) - m                        # the step actually taken
+                f = resid(np.vstack([m, x]))
+                return ((f[1:] - f[0]) / dx[:, None]).T
+
+            r = least_squares(resid, out[g[0]].ravel(), jac=jac, method="lm" if len(g) * C.shape[1] >= 9 else "trf",
                               xtol=1e-10, ftol=1e-10)
             out[g] = r.x.reshape(3, 3)
         return out

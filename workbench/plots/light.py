@@ -35,7 +35,7 @@ _WL_LABEL = "wavelength λ (nm)"
 _SET_COLOURS = {"cie-13.3": "tab:orange", "cie-224": "tab:blue"}
 _SET_LABEL = {"cie-13.3": "CIE 13.3 TCS01-14", "cie-224": "CIE 224:2017 CES01-99"}
 #: Factors the u′v′ arrows may be lengthened by (the first that makes them visible).
-from workbench.plots.fit import arrow_scale, draw_shift_arrows  # noqa: E402  (one rule for every u′v′ shift plot)
+from workbench.plots.fit import ARROW_MARKER, arrow_scale, draw_shift_arrows  # noqa: E402  (one rule for every u′v′ shift plot)
 
 
 def _figure(width: float, height: float, fig=None):
@@ -280,7 +280,7 @@ def plot_camera_shifts(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
     zoom.grid(alpha=0.3)
     handles = [
         Line2D([], [], marker="o", ms=4, mfc="white", mec="0.2", ls="none", label="rendering under the reference"),
-        Line2D([], [], marker=r"$\rightarrow$", ms=14, color="tab:green", ls="none", label=what),
+        Line2D([], [], marker=ARROW_MARKER, ms=14, color="tab:green", ls="none", label=what),
     ]
     zoom.legend(handles=handles, fontsize="x-small", loc="upper center", bbox_to_anchor=(0.5, -0.12), ncol=2)
     zoom.set_title(f"{what}; colour = ΔE00", fontsize="small")
