@@ -193,3 +193,15 @@ class TestParameterTable:
             assert float(cells[4]) == pytest.approx(p["value"], rel=1e-5)
             assert [float(cells[6]), float(cells[7])] == [spec.min, spec.max]
             assert (cells[-2:] == ["at", p["at_bound"]]) == (p["at_bound"] is not None)
+
+
+@pytest.mark.slow  # the session fit of the demo design
+def test_bound_costs_in_metrics(fitted):
+    """metrics.json ranks a cost for every parameter at a bound, the largest gain in the objective first."""
+    _, out = fitted
+    m = json.loads((out / "metrics.json").read_text())
+    names = [c["name"] for c in m["bound_costs"]]
+    assert sorted(names) == sorted(m["parameters_at_bounds"]) and names
+    d = [c["d_cost"] for c in m["bound_costs"]]
+    assert d == sorted(d)
+    assert "Lagrange multiplier" in m["bound_costs_method"]

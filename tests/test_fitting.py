@@ -433,3 +433,32 @@ class TestLoadCamera:
         (tmp_path / "s.csv").write_text("wavelength_nm,R,G\n400,0.1,0.2\n500,0.3,0.4\n600,0.2,0.1\n")
         with pytest.raises(WorkbenchError, match=r"s\.csv: expected three sensitivity columns"):
             load_camera(tmp_path / "s.csv")
+
+
+class TestBoundCosts:
+    """What each bound costs: the first-order gains against a re-fit with the bound moved."""
+
+    def _fit(self, tmp_path, width_max):
+        p = _recovery_design(tmp_path)
+        p.write_text(p.read_text().replace("max = 80.0", f"max = {width_max}"))
+        return fit_design(load_design(p), progress=False)
+
+    def test_matches_a_refit_with_the_bound_moved(self, tmp_path):
+        """The width capped at 30 nm (optimum 40): gains per nm match a re-fit at 30.2 nm within 10 %."""
+        a = self._fit(tmp_path, 30.0)
+        assert a.converged
+        (c,) = a.bound_costs
+        assert (c["name"], c["bound"], c["direction"], c["unit"]) == ("edge.width_nm", "max", "higher", "nm")
+        b = self._fit(tmp_path, 30.2)
+        # first-order sensitivity against the secant of two converged fits (Nocedal & Wright 2006, § 12.8)
+        d_cost = (b.cost_after - a.cost_after) / 0.2
+        d_nu = (b.after.vora_value - a.after.vora_value) / 0.2
+        d_de = (b.after.weighted_mean_delta_E00 - a.after.weighted_mean_delta_E00) / 0.2
+        assert c["d_cost"] < 0 and c["d_cost"] == pytest.approx(d_cost, rel=0.1)
+        assert c["d_vora"] == pytest.approx(d_nu, rel=0.1)
+        assert c["d_vora"] == pytest.approx(-c["d_cost"], rel=1e-3)  # Σ r² = 1 − ν for the ν objective
+        assert c["d_mean_delta_E00"] == pytest.approx(d_de, rel=0.25)
+
+    def test_none_when_nothing_at_a_bound(self, tmp_path):
+        """A fit whose optimum lies inside the bounds reports no bound costs."""
+        assert self._fit(tmp_path, 80.0).bound_costs == ()

@@ -532,3 +532,17 @@ class TestPlotNoiseVsAccuracy:
         fig.subplots(2, 2)
         out = plot_noise_vs_accuracy(points, fig=fig)
         assert out is fig and len(fig.axes) == 1
+
+
+class TestBoundCostsSection:
+    def test_table_lists_the_ranked_costs(self, fitted, page):
+        """A parameter at a bound gets a row in 'What the bounds cost', in the result's ranked order."""
+        _, _, result = fitted
+        rows = parse(page).tables.get("bound-costs")
+        if not result.bound_costs:
+            assert rows is None
+            return
+        assert rows[0][:3] == ["parameter", "at", "relaxing"]
+        assert [r[0] for r in rows[1:]] == [c["name"] for c in result.bound_costs]
+        for r, c in zip(rows[1:], result.bound_costs):
+            assert r[3] == f"{c['d_cost']:+.3g}" and r[5] == f"{c['d_mean_delta_E00']:+.3g}"

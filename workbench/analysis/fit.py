@@ -26,7 +26,8 @@ from workbench.model.design import CHANNELS, Design
 from workbench.report.html import fit_result_html
 from workbench.report.json_text import json_text
 
-__all__ = ["FitResult", "FitStatus", "FIT_STATUS_TABLE", "fit_design", "FitStopped"]
+__all__ = ["FitResult", "FitStatus", "FIT_STATUS_TABLE", "fit_design", "FitStopped", "bound_costs",
+           "bound_cost_text", "parameter_unit", "ACROSS_ILLUMINANTS"]
 
 
 class FitStatus(IntEnum):
@@ -55,6 +56,16 @@ FIT_STATUS_TABLE: dict[FitStatus, tuple[str, str, int]] = {
         "infeasible", "no parameter values tried gave a valid design (every evaluation failed); "
         "the start values are kept", 5),
 }
+
+
+#: How the illuminants combine in the ``mean-delta-e00`` objective.
+ACROSS_ILLUMINANTS = ("weighted-mean", "worst")
+
+BOUND_COSTS_METHOD = (
+    "first-order change per unit of relaxing each bound a parameter ends at (a min lowered, a max "
+    "raised), the other parameters off their bounds re-optimised: dx from the Gauss-Newton Hessian JᵀJ, "
+    "objective change = its gradient·dx (the bound's Lagrange multiplier), ν and weighted mean ΔE00 "
+    "changes = their gradients·dx; forward differences at the fitted point, matrix as in the objective")
 
 
 class FitStopped(Exception):
@@ -100,6 +111,9 @@ class FitResult:
     notes: tuple[str, ...] = field(default=())
     budget: int = 0
     time_limit_s: float | None = None
+    bound_costs: tuple[dict, ...] = ()
+    across_illuminants: str = "weighted-mean"
+    illuminant_weights: tuple[tuple[str, float], ...] = ()
 
     @property
     def converged(self) -> bool:
@@ -141,6 +155,10 @@ class FitResult:
             "cost_after": self.cost_after,
             "parameters": list(self.parameters),
             "parameters_at_bounds": [p["name"] for p in self.parameters if p["at_bound"]],
+            "bound_costs": list(self.bound_costs),
+            "bound_costs_method": BOUND_COSTS_METHOD,
+            "across_illuminants": self.across_illuminants,
+            "illuminant_weights": dict(self.illuminant_weights),
             "before": self.before.summary(),
             "after": self.after.summary(),
             "residual_per_wavelength": {
@@ -265,6 +283,176 @@ class _Tracker:
             self.bar.close()
 
 
+# --------------------------------------------------------------------------
+# The objective across illuminants, and the headline figures of a batch
+# --------------------------------------------------------------------------
+
+#: The exponent of the smooth maximum over illuminants (``across_illuminants = "worst"``).
+WORST_P = 32
+
+
+class _Objective:
+    """The residual vector the fit minimises, for batches of points (B, n_free [+ matrix entries]).
+
+    With the design's defaults it is :meth:`DesignEvaluator.residuals`.
+    With illuminant weights ω_j (``mean-delta-e00`` objective) the block of
+    illuminant j is scaled by √(J ω_j / Σω), so Σ r² = Σ_j (ω_j/Σω)·RMS_j².
+    With ``worst``, Σ r² = G = (Σ_j (ω_j m_j)^p)^(1/p), p = :data:`WORST_P`,
+    a smooth maximum of the weighted per-illuminant mean ΔE00 m_j (max ≤ G ≤
+    J^(1/p)·max; for J = 3, within 3.5 %): r_jk = √(c_j w_k d_jk / Σw) with
+    c_j = ω_j (ω_j m_j / G)^(p−1), since Σ_j c_j m_j = G^p / G^(p−1) = G.
+    The noise term of ``noise_weight`` is appended as in the evaluator.
+    """
+
+    def __init__(self, ev: DesignEvaluator, *, illuminant_weights=None, across="weighted-mean",
+                 noise_weight=None):
+        self.ev = ev
+        fit = ev.design.fit
+        names = ev.bench.illuminant_names
+        w = dict(illuminant_weights or ())
+        self.omega = np.array([float(w.get(n, 1.0)) for n in names])
+        self.across = across
+        self.noise_weight = fit.noise_weight if noise_weight is None else float(noise_weight)
+        self.plain = (across == "weighted-mean" and np.all(self.omega == 1.0)
+                      and self.noise_weight == fit.noise_weight)
+        self.nf = len(ev.free)
+        self.nm = ev._n_matrix_params()
+
+    def parts(self, X):
+        """Sensitivities (B, 3, n), balanced RGB (B, J, K, 3) and matrices (B, J, 3, 3) of points X."""
+        ev, nf, nm = self.ev, self.nf, self.nm
+        X = np.atleast_2d(np.asarray(X, dtype=float))
+        S = ev.sensitivities(ev.values_of(X[:, :nf]))
+        if S.ndim == 2:
+            S = np.broadcast_to(S, (X.shape[0],) + S.shape)
+        C, _ = ev.bench.balanced(S)
+        J = len(ev.bench.illuminant_names)
+        fit = ev.design.fit
+        if nm:
+            m = X[:, nf:nf + nm].reshape(X.shape[0], -1, 3, 3)
+            M = np.broadcast_to(m, (X.shape[0], J, 3, 3))
+        else:
+            method = "least-squares" if fit.matrix == "delta-e00" else fit.matrix
+            M = ev.bench.fit_matrices(C, method, fit.matrix_scope)
+        return S, C, M
+
+    def __call__(self, X) -> np.ndarray:
+        if self.plain:
+            return self.ev.residuals(X)
+        X = np.atleast_2d(np.asarray(X, dtype=float))
+        ev = self.ev
+        _, C, M = self.parts(X)
+        d = ev.bench.delta_e(C, M)                                  # (B, J, K)
+        w = ev.bench.weights
+        J = d.shape[1]
+        om = self.omega / self.omega.sum()
+        if self.across == "worst":
+            m = np.einsum("bjk,k->bj", d, w) / w.sum()              # per-illuminant weighted mean
+            a = np.maximum(self.omega * m, 1e-300)
+            top = a.max(axis=1, keepdims=True)
+            G = top[:, 0] * np.sum((a / top) ** WORST_P, axis=1) ** (1.0 / WORST_P)
+            c = self.omega * (a / G[:, None]) ** (WORST_P - 1)
+            r = np.sqrt(c[:, :, None] * w / w.sum() * d)
+        else:
+            r = d * np.sqrt(w / w.sum())[None, None, :] * np.sqrt(om)[None, :, None]
+        parts = [r.reshape(r.shape[0], -1)]
+        if self.noise_weight > 0:
+            rn = np.linalg.norm(M, axis=-1) / math.sqrt(J * 3)
+            parts.append(self.noise_weight * rn.reshape(rn.shape[0], -1))
+        return np.concatenate(parts, axis=-1)
+
+    def headline(self, X) -> dict:
+        """For points X (B, n): ``cost`` Σr², ``vora_value``, ``mean_delta_E00`` (weighted over samples ×
+        illuminants, as :attr:`Measures.weighted_mean_delta_E00`), ``mean_by_illuminant`` (B, J) and
+        ``noise_gain`` (B,) the largest row norm of the matrix."""
+        from workbench.analysis.measures import vora_value
+
+        X = np.atleast_2d(np.asarray(X, dtype=float))
+        ev = self.ev
+        S, C, M = self.parts(X)
+        d = ev.bench.delta_e(C, M)
+        w = ev.bench.weights
+        r = self(X)
+        return {
+            "cost": np.sum(r * r, axis=-1),
+            "vora_value": np.atleast_1d(vora_value(np.swapaxes(S, -1, -2), ev.cmfs, ev.rec, ev.view)),
+            "mean_delta_E00": np.einsum("bjk,k->b", d, w) / (w.sum() * d.shape[1]),
+            "mean_by_illuminant": d.mean(axis=-1),
+            "noise_gain": np.linalg.norm(M, axis=-1).max(axis=(-2, -1)),
+        }
+
+
+def bound_costs(objective: _Objective, x, lower, upper, at_bound, names, units) -> tuple[dict, ...]:
+    """What each bound a parameter ends at costs: the first-order gain per unit of relaxing it.
+
+    For parameter i at a bound, relaxing the bound by δ (lower min, higher
+    max) and letting the parameters not at a bound re-optimise moves the
+    solution by dx = δ·(e_i s_i − H_FF⁻¹ H_Fi s_i), H = JᵀJ the Gauss-Newton
+    Hessian of the cost from one batch of forward differences (J the
+    Jacobian of the residuals), F the parameters off their bounds, s_i −1
+    for a min and +1 for a max. The objective changes by ∇f·dx (the bound's
+    Lagrange multiplier; the envelope theorem), ν and mean ΔE00 by their
+    gradients times dx.
+
+    Returns
+    -------
+    tuple of dict
+        name, unit, value, bound ('min'/'max'), direction ('lower'/'higher'),
+        d_cost, d_vora, d_mean_delta_E00 per unit of the parameter; ranked,
+        the largest gain in the objective first.
+
+    References
+    ----------
+    Nocedal, J. & Wright, S. J. (2006). *Numerical Optimization*, 2nd ed.,
+    § 12.8 (multipliers as sensitivities of the optimal value to the
+    constraints) and § 10.3 (the Gauss-Newton Hessian).
+    """
+    x = np.asarray(x, dtype=float)
+    nf = len(names)
+    active = [i for i in range(nf) if at_bound[i]]
+    if not active:
+        return ()
+    n = x.size
+    span = np.concatenate([np.asarray(upper) - np.asarray(lower), np.ones(n - nf)])
+    h = np.where(np.arange(n) < nf, 1e-5, 1e-6) * span
+    inward = np.ones(n)
+    inward[:nf] = np.where(x[:nf] + h[:nf] > upper, -1.0, 1.0)
+    X = np.repeat(x[None], n + 1, axis=0)
+    X[1 + np.arange(n), np.arange(n)] += inward * h
+    R = objective(X)
+    step = (inward * h)[:, None]
+    Jt = (R[1:] - R[0]) / step                                   # (n, m): Jacobian transposed
+    H = Jt @ Jt.T
+    g = 2 * Jt @ R[0]
+    head = objective.headline(X)
+    grads = {k: (head[k][1:] - head[k][0]) / step[:, 0] for k in ("vora_value", "mean_delta_E00")}
+    free = np.array([i not in active for i in range(n)])
+    rows = []
+    for i in active:
+        s = -1.0 if at_bound[i] == "min" else 1.0
+        dx = np.zeros(n)
+        dx[i] = s
+        if free.any():
+            rhs = H[free][:, i] * s
+            dx[free] = -np.linalg.lstsq(H[np.ix_(free, free)], rhs, rcond=1e-12)[0]
+        rows.append({
+            "name": names[i], "unit": units[i] or "1", "value": float(x[i]), "bound": at_bound[i],
+            "direction": "lower" if s < 0 else "higher",
+            "d_cost": float(g @ dx),
+            "d_vora": float(grads["vora_value"] @ dx),
+            "d_mean_delta_E00": float(grads["mean_delta_E00"] @ dx),
+        })
+    rows.sort(key=lambda r: r["d_cost"])
+    return tuple(rows)
+
+
+def bound_cost_text(row: dict) -> str:
+    """One line: 'prism.green_red_width_nm 60 nm (max): −0.0021 objective, +0.0004 ν, −0.012 mean ΔE00 per nm higher'."""
+    u = row["unit"]
+    return (f"{row['name']} {row['value']:.6g} {u} ({row['bound']}): {row['d_cost']:+.3g} objective, "
+            f"{row['d_vora']:+.3g} ν, {row['d_mean_delta_E00']:+.3g} mean ΔE00 per {u} {row['direction']}")
+
+
 def _local(track: _Tracker, u0, lo, hi, nf, span, base):
     """One bounded least-squares run in normalised coordinates u ∈ [0, 1] (filters) + raw matrix entries.
 
@@ -297,7 +485,8 @@ def _local(track: _Tracker, u0, lo, hi, nf, span, base):
 def fit_design(design: Design, *, progress: bool = True, stop: threading.Event | None = None,
                evaluator: DesignEvaluator | None = None, global_start: str | None = None,
                seed: int | None = None, max_evaluations: int | None = None,
-               time_limit: float | None = None, callback=None) -> FitResult:
+               time_limit: float | None = None, callback=None, illuminant_weights=None,
+               across_illuminants: str | None = None) -> FitResult:
     """Fit the design's free parameters (and a ΔE00 matrix when asked) to its objective.
 
     Parameters
@@ -322,6 +511,13 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
         Override the design's ``[fit]`` values. ``max_evaluations`` caps the
         whole fit — global search, every local run and every Jacobian
         column counted — and nothing else caps it.
+    illuminant_weights : dict, optional
+        Weight per illuminant name (default: the design's ``[fit]
+        illuminant_weights``, else 1 each); needs ``mean-delta-e00``.
+    across_illuminants : {'weighted-mean', 'worst'}, optional
+        How the illuminants combine (default: the design's): the weighted
+        mean, or a smooth maximum of the weighted per-illuminant mean ΔE00
+        (see :class:`_Objective`); ``worst`` needs ``mean-delta-e00``.
     time_limit : float, optional
         Wall-time limit of the whole fit in s. The clock (also
         ``FitResult.seconds``) starts after the design is read and the start
@@ -357,6 +553,20 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     if time_limit is not None and not (isinstance(time_limit, (int, float)) and math.isfinite(time_limit)
                                        and time_limit > 0):
         raise WorkbenchError(f"'time_limit' must be a number of seconds > 0 (got {time_limit!r})")
+    fit_weights = dict(getattr(fit, "illuminant_weights", ()) if illuminant_weights is None
+                       else illuminant_weights)
+    across = across_illuminants or getattr(fit, "across_illuminants", "weighted-mean")
+    if across not in ACROSS_ILLUMINANTS:
+        raise WorkbenchError(f"'across_illuminants' must be one of {', '.join(ACROSS_ILLUMINANTS)} (got {across!r})")
+    for k, v in fit_weights.items():
+        if k not in ev.bench.illuminant_names:
+            raise WorkbenchError(f"'illuminant_weights' must name the fit's illuminants "
+                                 f"({', '.join(ev.bench.illuminant_names)}) (got {k!r})")
+        if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
+            raise WorkbenchError(f"'illuminant_weights.{k}' must be a number > 0 (got {v!r})")
+    if (across == "worst" or any(v != 1 for v in fit_weights.values())) and fit.objective != "mean-delta-e00":
+        raise WorkbenchError(f"{design.source or design.name}: illuminant weights and the worst-illuminant "
+                             f"objective need [fit] objective = \"mean-delta-e00\" (got {fit.objective!r})")
     nf = len(ev.free)
     if nf == 0:
         raise WorkbenchError(f"{design.source or design.name}: no free parameters to fit "
@@ -376,7 +586,8 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     lo = np.concatenate([np.zeros(nf), np.full(nm, -np.inf)])
     hi = np.concatenate([np.ones(nf), np.full(nm, np.inf)])
     x_start = np.concatenate([start, m0])
-    track = _Tracker(ev.residuals, budget, progress, stop, callback, time_limit, t0)
+    objective = _Objective(ev, illuminant_weights=fit_weights, across=across)
+    track = _Tracker(objective, budget, progress, stop, callback, time_limit, t0)
     track.tag = "start"
     status, message = FitStatus.BUDGET_SPENT, ""
     converged_runs: set = set()
@@ -449,6 +660,19 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     fitted = replace(fitted, matrix=stored)
     span_tol = 1e-6
     rows = []
+    x_final = np.concatenate([np.array([values[k] for k in ev.free]), x[nf:]])
+    flags = []
+    for i, k in enumerate(ev.free):
+        v = values[k]
+        flags.append("min" if v - ev.lower[i] <= span_tol * span[i]
+                     else ("max" if ev.upper[i] - v <= span_tol * span[i] else None))
+    costs = ()
+    if status != FitStatus.INFEASIBLE and any(flags):
+        try:
+            costs = bound_costs(objective, x_final, ev.lower, ev.upper, flags, ev.free,
+                                [parameter_unit(design, k) for k in ev.free])
+        except WorkbenchError:
+            costs = ()
     for i, k in enumerate(ev.free):
         v = values[k]
         at = "min" if v - ev.lower[i] <= span_tol * span[i] else ("max" if ev.upper[i] - v <= span_tol * span[i] else None)
@@ -459,6 +683,8 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
         objective=fit.objective, cost_before=cost_before, cost_after=float(track.best_cost),
         status=status, message=str(message), evaluations=track.n, seconds=seconds,
         global_start=gs, seed=seed, notes=ev.notes, budget=int(budget), time_limit_s=time_limit,
+        bound_costs=costs, across_illuminants=across,
+        illuminant_weights=tuple((n, float(fit_weights.get(n, 1.0))) for n in ev.bench.illuminant_names),
     )
 
 

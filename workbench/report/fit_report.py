@@ -300,6 +300,26 @@ def _parameters_table(result) -> str:
             f'{"".join(body)}</table>')
 
 
+def _bound_costs_section(result) -> str:
+    """What each bound a parameter ended at costs, ranked (empty when none is at a bound)."""
+    costs = getattr(result, "bound_costs", ())
+    if not costs:
+        return ""
+    from workbench.analysis.fit import BOUND_COSTS_METHOD
+
+    body = "".join(
+        f'<tr><td>{_esc(c["name"])}</td><td class="num">{_esc(_f(c["value"], ".6g"))} {_esc(c["unit"])} '
+        f'({_esc(c["bound"])})</td><td>per {_esc(c["unit"])} {_esc(c["direction"])}</td>'
+        f'<td class="num">{_esc(_f(c["d_cost"], "+.3g"))}</td><td class="num">{_esc(_f(c["d_vora"], "+.3g"))}</td>'
+        f'<td class="num">{_esc(_f(c["d_mean_delta_E00"], "+.3g"))}</td></tr>' for c in costs)
+    return ("<h3>What the bounds cost</h3>"
+            f"<p>For each parameter at a bound, the change per unit of relaxing that bound, best first — "
+            f"the specification to push first is at the top. Method: {_esc(BOUND_COSTS_METHOD)}.</p>"
+            '<table id="bound-costs"><tr><th>parameter</th><th>at</th><th>relaxing</th>'
+            "<th>Δ objective (Σr²)</th><th>Δ Vora value ν</th><th>Δ weighted mean ΔE00</th></tr>"
+            f"{body}</table>")
+
+
 def _matrix_table(m) -> str:
     shared = m.matrix_scope == "shared"
     blocks = []
@@ -419,6 +439,7 @@ def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: i
         f"<th>Vora value ν</th></tr>{noise_rows}</table>",
         "<h2>Fitted parameters</h2>",
         _parameters_table(result),
+        _bound_costs_section(result),
         "<h2>Colour-correction matrix after the fit</h2>",
         f"<p>{_esc(a.matrix_method)}, {_esc(a.matrix_scope)}; rows map white-balanced camera RGB to the "
         f"linear RGB of {_esc(a.methods.get('target', 'the display'))} (display white = 1).</p>",

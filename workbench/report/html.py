@@ -85,7 +85,22 @@ def fit_result_html(r) -> str:
         f"{escape(a.matrix_scope)}.</p>"
         f"<table><tr><th>parameter</th><th>start</th><th>fitted</th><th>bounds</th><th>at bound</th></tr>"
         f"{rows}</table><table><tr><th>illuminant</th><th>mean ΔE00 before</th><th>mean ΔE00 after</th>"
-        f"<th>p95 after</th><th>max after</th></tr>{stats}</table>")
+        f"<th>p95 after</th><th>max after</th></tr>{stats}</table>" + _bound_costs_html(r))
+
+
+def _bound_costs_html(r) -> str:
+    """The fit's ranked bound costs (empty when no parameter ended at a bound)."""
+    costs = getattr(r, "bound_costs", ())
+    if not costs:
+        return ""
+    rows = "".join(
+        f"<tr><td>{escape(c['name'])}</td><td>{c['value']:.4g} {escape(c['unit'])} ({escape(c['bound'])})</td>"
+        f"<td>per {escape(c['unit'])} {escape(c['direction'])}</td><td>{c['d_cost']:+.3g}</td>"
+        f"<td>{c['d_vora']:+.3g}</td><td>{c['d_mean_delta_E00']:+.3g}</td></tr>" for c in costs)
+    return ("<p><b>What the bounds cost</b> (first-order change per unit of relaxing each bound, the other "
+            "parameters re-optimised; best first):</p>"
+            "<table><tr><th>parameter</th><th>at</th><th>relaxing</th><th>Δ objective</th><th>Δ ν</th>"
+            f"<th>Δ weighted mean ΔE00</th></tr>{rows}</table>")
 
 
 def tolerance_html(result) -> str:

@@ -98,6 +98,16 @@ def parameter_table(result) -> str:
                        "table", header_lines=["fitted parameters (start → fitted; bounds from the design file):"])
 
 
+def bound_cost_table(result) -> str:
+    """What each bound costs, ranked: the change per unit of relaxing it, as text."""
+    rows = [{"parameter": c["name"], "at": f"{c['value']:.6g} {c['unit']} ({c['bound']})",
+             "relaxing": f"per {c['unit']} {c['direction']}", "objective": c["d_cost"], "ν": c["d_vora"],
+             "mean ΔE00": c["d_mean_delta_E00"]} for c in result.bound_costs]
+    return render_rows(rows, ["parameter", "at", "relaxing", "objective", "ν", "mean ΔE00"], "table", digits=5,
+                       header_lines=["what the bounds cost — first-order change per unit of relaxing each bound, "
+                                     "the other parameters re-optimised (best first):"])
+
+
 def metrics(result) -> dict:
     """The metrics.json object."""
     d = result.to_dict()
@@ -128,6 +138,10 @@ def metrics(result) -> dict:
         "seed": d["seed"],
         "parameters": d["parameters"],
         "parameters_at_bounds": d["parameters_at_bounds"],
+        "bound_costs": d["bound_costs"],
+        "bound_costs_method": d["bound_costs_method"],
+        "across_illuminants": d["across_illuminants"],
+        "illuminant_weights": d["illuminant_weights"],
         "methods": d["methods"],
     }
     return out
@@ -155,6 +169,9 @@ def _print_summary(design, result) -> None:
                       header_lines=header), flush=True)
     print()
     print(parameter_table(result), flush=True)
+    if result.bound_costs:
+        print()
+        print(bound_cost_table(result), flush=True)
 
 
 def run(args) -> int:
