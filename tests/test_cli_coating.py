@@ -84,9 +84,9 @@ class TestCoatingCommand:
         status, _, err = _run(capsys, ["coating", str(blue_stack), "--angles", "0,22.5,45", "--grid", "400:700:2",
                                        "--figures", str(folder)])
         assert status == 0
-        assert sorted(p.name for p in folder.iterdir()) == [
+        assert sorted(p.name for p in folder.iterdir() if not p.name.startswith(".")) == [
             "coating-RT-0deg.png", "coating-RT-22.5deg.png", "coating-RT-45deg.png", "coating-edges-vs-angle.png"]
-        assert all(p.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" for p in folder.iterdir())
+        assert all(p.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" for p in folder.glob("*.png"))
         assert "wrote 4 figures" in err
 
     def test_user_material(self, capsys, tmp_path):

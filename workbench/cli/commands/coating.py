@@ -12,14 +12,12 @@ T_p_A`` (fractions 0-1); ``json`` the same arrays per angle with the 50 %
 points of T of every edge and the edges of the reflection band for s, p and their mean;
 ``table`` the band edges
 and the same columns aligned. ``--figures DIR``: R/T against wavelength for
-each angle and the edge positions against angle, as PNG.
+each angle and the edge positions against angle, as PNG; the folder is written as one unit
+(:class:`workbench.fileio.outdir.OutputFolder`).
 """
 
 from __future__ import annotations
 
-import os
-import shutil
-import uuid
 from pathlib import Path
 
 import numpy as np
@@ -202,47 +200,27 @@ def render_figures(res, title: str) -> dict[str, bytes]:
     from workbench.plots._canvas import png_bytes
     from workbench.plots.coating import plot_half_points_vs_angle, plot_stack_spectra
 
-    figs = {}
-    for ia, a in enumerate(res.angles_deg):
-        figs[f"coating-RT-{angle_label(float(a))}deg.png"] = plot_stack_spectra(res, ia, title=title)
-    figs["coating-edges-vs-angle.png"] = plot_half_points_vs_angle(res, title=title)
+    names = figure_names([float(a) for a in res.angles_deg])
+    figs = {name: plot_stack_spectra(res, ia, title=title) for ia, name in enumerate(names[:-1])}
+    figs[names[-1]] = plot_half_points_vs_angle(res, title=title)
     return {name: png_bytes(fig, dpi=110) for name, fig in figs.items()}
 
 
-def write_folder(folder: Path, files: dict[str, bytes]) -> None:
-    """Write ``files`` into ``folder`` as one unit where possible.
-
-    A new folder is filled under a temporary name and renamed into place, so
-    it holds the whole set or does not exist. Into an existing folder each
-    file is written atomically (temporary file, then rename).
-    """
-    from workbench.fileio.atomic import write_bytes_atomically
-
-    folder = Path(folder)
-    if folder.exists() and not folder.is_dir():
-        raise InputFileError("must be a folder (got a file)", str(folder))
-    if folder.is_dir():
-        for name, data in files.items():
-            write_bytes_atomically(folder / name, data)
-        return
-    parent = folder.parent
-    tmp = parent / f".{folder.name}.{uuid.uuid4().hex[:12]}.tmp"
-    try:
-        parent.mkdir(parents=True, exist_ok=True)
-        tmp.mkdir()
-        for name, data in files.items():
-            (tmp / name).write_bytes(data)
-        os.replace(tmp, folder)
-    except OSError as err:
-        raise InputFileError(f"cannot write the folder: {err.strerror or err}", str(folder)) from None
-    finally:
-        if tmp.exists():
-            shutil.rmtree(tmp, ignore_errors=True)
+def figure_names(angles) -> tuple[str, ...]:
+    """The PNG files ``--figures`` writes for these angles."""
+    return tuple(f"coating-RT-{angle_label(a)}deg.png" for a in angles) + ("coating-edges-vs-angle.png",)
 
 
 def run(args) -> int:
+    folder = None
+    if args.figures is not None:
+        from workbench.fileio.outdir import OutputFolder
+
+        folder = OutputFolder(args.figures, option="--figures", command="coating",
+                              names=figure_names(parse_angles(args.angles)))
+        folder._validate()                     # before any computing
     rows, (inc, sub), res, wl, angles = compute(args)
-    figures = render_figures(res, args.layers.name) if args.figures is not None else None
+    figures = render_figures(res, args.layers.name) if folder is not None else None
     if args.format == "csv":
         text = render_rows(_spectral_rows(res, wl, angles), _csv_columns(angles), "csv")
     elif args.format == "json":
@@ -285,7 +263,12 @@ def run(args) -> int:
         text = render_rows(_spectral_rows(res, wl, angles), _csv_columns(angles), "table",
                            header_lines=header, digits=4)
     if figures is not None:
-        write_folder(args.figures, figures)
+        from workbench.fileio.atomic import write_bytes_atomically
+
+        with folder as out:
+            for name, data in figures.items():
+                write_bytes_atomically(out.path / name, data)
+            out.commit()
         notice(f"wrote {len(figures)} figures into {args.figures}")
     print(text)
     return 0
