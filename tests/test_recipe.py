@@ -88,3 +88,35 @@ class TestRefineInCamera:
         with pytest.raises(WorkbenchError) as err:
             refine_in_camera(DesignEvaluator(demo_design), "nothing", starting_stack(480.0, reflects="short"))
         assert str(err.value).startswith("'element' must be one of lens, ir-cut, prism,")
+
+
+class TestIdealisedFaceReflectance:
+    def test_equals_the_splitter_blue_path(self, demo_design):
+        """With no loss, the blue-green face's averaged reflectance is the blue-first splitter's B path."""
+        from dataclasses import replace
+
+        from workbench.analysis.recipe import idealised_face_reflectance
+        from workbench.model.design import Param
+        from workbench.optics.elements import dichroic_splitter
+
+        el = next(e for e in demo_design.chain if e.type == "dichroic-splitter")
+        el = replace(el, params=tuple((k, Param(0.0) if k == "loss" else p) for k, p in el.params))
+        wl = np.arange(400.0, 700.0, 5.0)
+        kw = {k: p.value for k, p in el.params}
+        paths, _ = dichroic_splitter(wl, **kw, order="blue-first", shape=el.option("shape", "logistic"))
+        # the project's own splitter model (docs/methods.md), face by face
+        np.testing.assert_allclose(idealised_face_reflectance(el, wl, "blue-green"), paths[2], atol=1e-12)
+
+
+class TestSplitterRecipes:
+    def test_both_faces(self, demo_design):
+        """Both faces become recipes whose averaged 50 % points sit on the idealised edges."""
+        from workbench.analysis.recipe import splitter_recipes
+
+        faces = splitter_recipes(demo_design, periods=6, refine=False)
+        assert [f.face for f in faces] == ["blue-green", "green-red"]
+        assert [f.recipe.symbols[0] for f in faces] == ["L", "H"]
+        wl = np.arange(420.0, 720.0, 0.1)
+        for f, side in zip(faces, (1, 0)):
+            R, _, _, _ = f.recipe.response(wl)
+            assert stop_band_edges(wl, R)[side] == pytest.approx(f.edge_nm, abs=0.1)

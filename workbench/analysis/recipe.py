@@ -33,7 +33,7 @@ from workbench.optics.stacks import cone_response, parse_layer_formula, physical
 from workbench.optics.thinfilm import stop_band_edges
 
 __all__ = ["Recipe", "starting_stack", "refine_recipe", "RefineReport", "REFLECTS", "refine_in_camera",
-           "CameraRefineReport"]
+           "CameraRefineReport", "idealised_face_reflectance", "splitter_recipes", "FaceRecipe"]
 
 #: Which side of the edge a face reflects.
 REFLECTS = ("short", "long")
@@ -391,3 +391,120 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
                                      f"{evaluator.design.name!r} ({sol.nfev} evaluations)",))
     return refined, CameraRefineReport(0.5 * float(r0 @ r0), float(sol.cost), int(sol.nfev), str(sol.message),
                                        at_bound)
+
+
+# --------------------------------------------------------------------------
+# From a fitted idealised splitter to two face recipes
+# --------------------------------------------------------------------------
+
+#: The two faces of the idealised splitter: (name, parameter prefix, side it reflects).
+SPLITTER_FACES = (("blue-green", "blue_green", "short"), ("green-red", "green_red", "long"))
+
+
+def idealised_face_reflectance(element, wavelengths_nm, face: str) -> np.ndarray:
+    """One face of an idealised ``dichroic-splitter`` element: its reflectance over its cone, s and p averaged.
+
+    The face's edge (logistic or erf, centre and width at normal incidence)
+    is scaled per ray by √(1 − (n₀ sinθ / n_eff)²) with ``n_eff_s`` and
+    ``n_eff_p`` (s only when ``n_eff_p`` is absent), as the splitter model
+    does, and averaged with the pupil-area weights of the element's
+    quadrature (loss left out: a recipe is made for the lossless face).
+
+    Parameters
+    ----------
+    element : workbench.model.design.Element
+        A ``dichroic-splitter``.
+    wavelengths_nm : (n,) array_like
+    face : {'blue-green', 'green-red'}
+
+    Returns
+    -------
+    (n,) ndarray, fraction 0-1
+    """
+    from workbench.optics.elements import angle_shift_factor, edge
+    from workbench.optics.stacks import cone_rays
+
+    names = {f: (p, side) for f, p, side in SPLITTER_FACES}
+    if face not in names:
+        raise WorkbenchError(f"'face' must be one of {', '.join(names)} (got {face!r})")
+    if element.type != "dichroic-splitter":
+        raise WorkbenchError(f"'element' must be a dichroic-splitter (got {element.type!r})")
+    prefix, side = names[face]
+
+    def value(key, default=None):
+        p = element.param(key)
+        return default if p is None else float(p.value)
+
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    n0 = value("medium_index", 1.0)
+    angles, w = cone_rays(value(f"{prefix}_aoi_deg", 0.0), value("f_number"), n0,
+                          rings=int(element.option("rings", 4)), azimuths=int(element.option("azimuths", 8)))
+    n_effs = [value("n_eff_s", 1.8)] + ([value("n_eff_p")] if value("n_eff_p") is not None else [])
+    out = np.zeros(wl.size)
+    for n_eff in n_effs:
+        k = angle_shift_factor(angles, n_eff, n0)                           # (K,)
+        rise = edge(wl, value(f"{prefix}_nm") * k, value(f"{prefix}_width_nm", 15.0) * k,
+                    kind="long-pass", shape=element.option("shape", "logistic"))
+        r = 1.0 - rise if side == "short" else rise
+        out += w @ r
+    return out / len(n_effs)
+
+
+@dataclass(frozen=True)
+class FaceRecipe:
+    """A splitter face turned into a layer recipe: the target it was made for and how close it came."""
+
+    face: str
+    reflects: str
+    edge_nm: float
+    target_R: np.ndarray
+    recipe: Recipe
+    report: RefineReport | None
+
+
+def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refine: bool = True,
+                     max_evaluations: int = 60) -> list[FaceRecipe]:
+    """Both faces of a design's idealised splitter as layer recipes.
+
+    For each face: its idealised reflectance at its angle (cone and s/p
+    averaged, :func:`idealised_face_reflectance`), the 50 % point of that
+    curve, a symmetric-period starting stack there (:func:`starting_stack`,
+    inside glass of the element's ``medium_index``) and, with ``refine``,
+    every thickness refined to the idealised curve (:func:`refine_recipe`).
+
+    Parameters
+    ----------
+    design : workbench.model.design.Design
+    periods : int
+    high, low : str or Material
+    refine : bool
+    max_evaluations : int
+
+    Returns
+    -------
+    list of FaceRecipe
+        Blue-green face first.
+    """
+    el = next((e for e in design.chain if e.type == "dichroic-splitter"), None)
+    if el is None:
+        raise WorkbenchError(f"{design.name!r} must have a dichroic-splitter element to turn into recipes (got none)")
+    wl = design.model().wavelengths
+    p = el.param("medium_index")
+    n0 = 1.0 if p is None else float(p.value)
+    fno = el.param("f_number")
+    out = []
+    for face, prefix, side in SPLITTER_FACES:
+        target = idealised_face_reflectance(el, wl, face)
+        short, long_ = stop_band_edges(wl, target)
+        edge_nm = long_ if side == "short" else short
+        if not np.isfinite(edge_nm):
+            raise WorkbenchError(f"the {face} face's idealised edge must lie inside the design grid (it does not)")
+        aoi = el.param(f"{prefix}_aoi_deg")
+        rec = starting_stack(edge_nm, reflects=side, periods=periods, high=high, low=low,
+                             aoi_deg=0.0 if aoi is None else float(aoi.value), incident=f"{n0:g}",
+                             substrate=f"{n0:g}", f_number=None if fno is None else float(fno.value))
+        report = None
+        if refine:
+            rec, report = refine_recipe(rec, wl, target, max_evaluations=max_evaluations)
+        out.append(FaceRecipe(face, side, float(edge_nm), target, rec, report))
+    return out
