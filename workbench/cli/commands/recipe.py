@@ -1,0 +1,126 @@
+"""``workbench recipe DESIGN.toml``: the design's idealised splitter faces as layer recipes.
+
+For each face of the design's ``dichroic-splitter``: its idealised
+reflectance at its angle in the prism glass (cone and s/p averaged), a
+symmetric-period edge filter of two materials on its 50 % point, every
+thickness refined to the idealised curve. Prints each recipe (layer,
+material, physical thickness, QWOT) with the face's edge and the fit; with
+``--out DIR`` writes one layer table per face (``face-blue-green.csv``,
+``face-green-red.csv``: columns ``material``, ``thickness_nm``, ``qwot``,
+readable by ``workbench coating``) and ``recipes.json``, as one unit.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
+
+HELP = "turn a design's idealised splitter faces into thin-film layer recipes"
+
+_COLUMNS = ["layer", "material", "thickness_nm", "qwot"]
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "recipe",
+        help=HELP,
+        description=(
+            HELP + ": a symmetric-period edge filter per face on the face's averaged 50 % point, every "
+            "thickness refined to the idealised face (characteristic-matrix method, analytic derivatives)."
+        ),
+    )
+    p.add_argument("design", type=Path, metavar="DESIGN.toml", help="a design with a dichroic-splitter")
+    p.add_argument("--periods", type=int, default=20, metavar="N",
+                   help="periods of each face's stack (2N + 1 layers; default 20)")
+    p.add_argument("--high", default="TiO2", metavar="MATERIAL", help="high-index material (default TiO2)")
+    p.add_argument("--low", default="SiO2", metavar="MATERIAL", help="low-index material (default SiO2)")
+    p.add_argument("--evaluations", type=int, default=60, metavar="N",
+                   help="largest number of stack evaluations per face in the refinement (default 60; 0: none)")
+    p.add_argument("--format", choices=FORMATS, default="table", help="output format (default: table)")
+    p.add_argument("--out", type=Path, metavar="DIR", default=None,
+                   help="write one layer table per face and recipes.json into DIR (one unit)")
+    p.set_defaults(run=run)
+
+
+def _face_dict(f) -> dict:
+    rec = f.recipe
+    return {
+        "face": f.face,
+        "reflects": f.reflects,
+        "edge_nm": round(f.edge_nm, 4),
+        "reference_nm": round(rec.reference_nm, 4),
+        "aoi_deg": rec.aoi_deg,
+        "f_number": rec.f_number,
+        "incident": rec.incident.name,
+        "substrate": rec.substrate.name,
+        "layers": [{k: (round(v, 4) if isinstance(v, float) else v) for k, v in row.items()} for row in rec.table()],
+        "total_nm": round(float(rec.thicknesses_nm.sum()), 3),
+        "refinement": None if f.report is None else {
+            "rms_before": f.report.rms_before, "rms_after": f.report.rms_after,
+            "evaluations": f.report.evaluations, "message": f.report.message,
+            "layers_at_bound": [i + 1 for i in f.report.at_bound]},
+    }
+
+
+def _layer_csv(f) -> str:
+    rows = [{"material": r["material"], "thickness_nm": f"{r['thickness_nm']:.4f}", "qwot": f"{r['qwot']:.4f}"}
+            for r in f.recipe.table()]
+    head = (f"# {f.face} face: reflects the {f.reflects} side, 50 % point {f.edge_nm:.2f} nm at {f.recipe.aoi_deg:g}° "
+            f"in index {f.recipe.incident.name}; QWOT at {f.recipe.reference_nm:.2f} nm\n")
+    return head + render_rows(rows, ["material", "thickness_nm", "qwot"], "csv") + "\n"
+
+
+def run(args) -> int:
+    from workbench.analysis.recipe import splitter_recipes
+    from workbench.errors import WorkbenchError
+    from workbench.fileio.design_toml import load_design
+
+    if not 1 <= args.periods <= 200:
+        raise WorkbenchError(f"--periods must be 1-200 (got {args.periods})")
+    if not 0 <= args.evaluations <= 100000:
+        raise WorkbenchError(f"--evaluations must be 0-100000 (got {args.evaluations})")
+    folder = None
+    if args.out is not None:
+        from workbench.fileio.outdir import OutputFolder
+
+        folder = OutputFolder(args.out, option="--out", command="recipe",
+                              names=("face-blue-green.csv", "face-green-red.csv", "recipes.json"))
+        folder._validate()
+    design = load_design(args.design)
+    faces = splitter_recipes(design, periods=args.periods, high=args.high, low=args.low,
+                             refine=args.evaluations > 0, max_evaluations=max(args.evaluations, 1))
+    method = ("characteristic-matrix method; each face averaged over its cone and s, p; refined by bounded "
+              "least squares to the idealised face's reflectance (workbench.analysis.recipe)")
+    data = {"design": str(args.design), "method": method, "faces": [_face_dict(f) for f in faces]}
+    if args.format == "json":
+        text = to_json(data)
+    else:
+        blocks = []
+        for f in faces:
+            d = _face_dict(f)
+            header = [f"# {f.face} face: reflects the {f.reflects} side; 50 % point {f.edge_nm:.2f} nm at "
+                      f"{f.recipe.aoi_deg:g}° in index {f.recipe.incident.name}"
+                      + (f", f/{f.recipe.f_number:g} cone" if f.recipe.f_number else "")
+                      + f"; QWOT at {f.recipe.reference_nm:.2f} nm; {len(d['layers'])} layers, {d['total_nm']:.1f} nm"]
+            if f.report is not None:
+                header.append(f"# refined: rms R − idealised {f.report.rms_before:.4f} → {f.report.rms_after:.4f} "
+                              f"in {f.report.evaluations} evaluations ({f.report.message})")
+            rows = [{"layer": r["layer"], "material": r["material"], "thickness_nm": r["thickness_nm"],
+                     "qwot": r["qwot"]} for r in f.recipe.table()]
+            blocks.append(render_rows(rows, _COLUMNS, "csv" if args.format == "csv" else "table",
+                                      header_lines=header if args.format == "table" else (), digits=3))
+        text = ("\n\n" if args.format == "table" else "\n").join(blocks)
+        if args.format == "table":
+            text = f"# {method}\n" + text
+    if folder is not None:
+        from workbench.fileio.atomic import write_text_atomically
+
+        with folder as out:
+            for f in faces:
+                write_text_atomically(out.path / f"face-{f.face}.csv", _layer_csv(f))
+            write_text_atomically(out.path / "recipes.json", to_json(data) + "\n")
+            out.commit()
+        notice(f"wrote face-blue-green.csv, face-green-red.csv and recipes.json into {args.out}")
+    print(text)
+    return 0
