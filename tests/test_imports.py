@@ -61,6 +61,7 @@ class TestImportedModules:
         assert "scipy.optimize" in names
         assert heavy(names, ("colour", "matplotlib", "pandas", "dask", "ipywidgets")) == []
 
+    @pytest.mark.slow  # imports the heavy libraries in a fresh interpreter
     def test_detects_heavy(self):
         """The check itself: a process that imports pandas is caught (so the tests above can fail)."""
         proc = subprocess.run([sys.executable, "-X", "importtime", "-c", "import pandas"],

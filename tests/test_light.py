@@ -507,6 +507,7 @@ class TestLightReport:
 
 
 class TestLightPanel:
+    @pytest.mark.slow  # builds the light panel on the demo and draws every figure
     def test_opens_on_demo_data(self):
         """The panel evaluates the demo LED on a camera with the halogen as light B and shows every figure."""
         from workbench.widgets.common import output_png
@@ -531,6 +532,7 @@ class TestLightPanel:
         p.evaluate()
         assert p.status.text.startswith("error: ") and "\n" not in p.status.text
 
+    @pytest.mark.slow  # builds the light panel and draws its figures
     def test_upload(self):
         """An uploaded SPD is evaluated at once and named by its file name."""
         from workbench.widgets.common import upload_entry

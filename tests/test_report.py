@@ -195,6 +195,7 @@ class TestFitReportHtml:
         assert sizes[0] == ("648", "504")
         assert sizes[3] == ("540", "374.4")
 
+    @pytest.mark.slow  # draws the report's figures again as PNG
     def test_png_on_request(self, fitted):
         """image_format='png' embeds PNGs of the figure's size at the dpi asked for; other formats are refused."""
         _, ev, result = fitted
@@ -208,6 +209,7 @@ class TestFitReportHtml:
             fit_report_html(result, ev, image_format="gif")
         assert str(e.value) == "image_format must be svg or png (got 'gif')"
 
+    @pytest.mark.slow  # draws the whole report a second time
     def test_same_bytes_twice(self, fitted, page):
         """The page is the same when written twice (no date, fixed SVG ids)."""
         _, ev, result = fitted

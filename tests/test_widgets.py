@@ -381,6 +381,7 @@ class TestPrimariesPanel:
         assert "K_R 0.2126, K_G 0.7152, K_B 0.0722" in pp.info.value
         assert pp.error.text == ""
 
+    @pytest.mark.slow  # builds the primaries panel and redraws its figures
     def test_changing_set_redraws(self, pp):
         """Another named set redraws the diagram and the targets and changes the tables."""
         a, t, info = output_png(pp.chroma_plot), output_png(pp.target_plot), pp.info.value
@@ -389,12 +390,14 @@ class TestPrimariesPanel:
         # ITU-R BT.2020-2, Table 4: K_R 0.2627, K_B 0.0593
         assert "K_R 0.2627" in pp.info.value and "K_B 0.0593" in pp.info.value and pp.info.value != info
 
+    @pytest.mark.slow  # builds the primaries panel and redraws its figures
     def test_uv_diagram(self, pp):
         """The u′v′ toggle redraws the diagram."""
         a = output_png(pp.chroma_plot)
         pp.diagram.value = "uv"
         assert output_png(pp.chroma_plot) != a
 
+    @pytest.mark.slow  # builds the primaries panel and redraws its figures
     def test_typed_chromaticities(self, pp):
         """Typed x, y become the set; SMPTE C values give SMPTE C's matrix."""
         pp.mode.value = "chromaticities"
@@ -407,6 +410,7 @@ class TestPrimariesPanel:
         ref = colour.RGB_COLOURSPACES["SMPTE C"].matrix_RGB_to_XYZ  # colour-science 0.4.7
         np.testing.assert_allclose(pp.primaries.matrix_RGB_to_XYZ, ref, atol=2e-4)
 
+    @pytest.mark.slow  # builds the primaries panel and redraws its figures
     def test_collinear_chromaticities_error_matches_cli(self, pp, capsys):
         """Primaries on one line are refused with the CLI's message."""
         pp.mode.value = "chromaticities"
@@ -423,6 +427,7 @@ class TestPrimariesPanel:
         assert pp.error.text == cli_error(["primaries", "--xy", "0.64,0.33,0.3,0.6,0.15,0.06",
                                            "--white", "D99"], capsys)
 
+    @pytest.mark.slow  # builds the primaries panel and redraws its figures
     def test_emitters_from_path_and_upload_agree(self, pp):
         """The demo emitters by path and by upload give the same set and drive levels."""
         from workbench.colorimetry.primaries import primaries_from_emitters
@@ -438,6 +443,7 @@ class TestPrimariesPanel:
         np.testing.assert_allclose(pp.primaries.xy, ref.xy, rtol=1e-12)
         assert pp.drive is not None and "drive levels for white" in pp.info.value
 
+    @pytest.mark.slow  # builds the primaries panel and redraws its figures
     def test_bad_emitter_upload_error_matches_cli(self, pp, capsys, monkeypatch, tmp_path):
         """A bad uploaded emitter file shows exactly what `workbench primaries --emitters` prints."""
         monkeypatch.chdir(tmp_path)
@@ -449,6 +455,7 @@ class TestPrimariesPanel:
         assert pp.error.text == cli_error(["primaries", "--emitters", "bad_emitters.csv"], capsys)
         assert pp.primaries is prev
 
+    @pytest.mark.slow  # builds the primaries panel and redraws its figures
     def test_two_emitters_error_matches_cli(self, pp, capsys, monkeypatch, tmp_path):
         """A readable file with two spectra is refused as the CLI refuses it."""
         monkeypatch.chdir(tmp_path)
@@ -460,6 +467,7 @@ class TestPrimariesPanel:
         pp.emitter_upload.value = (upload_entry("two.csv", text),)
         assert pp.error.text == cli_error(["primaries", "--emitters", "two.csv"], capsys)
 
+    @pytest.mark.slow  # builds the primaries panel and redraws its figures
     def test_emitter_fit_reaches_bt709(self, pp):
         """The emitter-set fit reaches the BT.709 primaries and white within its tolerance."""
         from workbench.colorimetry.coordinates import xy_to_uv_prime
@@ -473,6 +481,7 @@ class TestPrimariesPanel:
         assert np.all(duv < 1e-4)
         assert output_png(pp.fit_plot) is not None and "targets reached" in pp.fit_report.value
 
+    @pytest.mark.slow  # builds the primaries panel and redraws its figures
     def test_bars_table(self, pp):
         """The bar table follows amplitude and luma: 75 % yellow Y′ and 100 % white code 235."""
         pp.bar_luma.value = "BT.709"
