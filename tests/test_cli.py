@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 
 from workbench.cli.main import main
-from workbench.cli.commands.lab import lab_command
+from workbench.cli.commands.lab import lab_command, lab_environment
 from workbench.model.spectra import Spectra, grid
 from workbench.fileio.spectra_csv import write_spectra_csv
 
@@ -144,8 +144,9 @@ class TestLab:
     def test_command_binds_loopback_with_token(self, tmp_path):
         """The server command binds 127.0.0.1, keeps token auth and opens no browser."""
         cmd = lab_command(tmp_path, port=9999, token="abc")
-        assert "--ServerApp.ip=127.0.0.1" in cmd and "--IdentityProvider.token=abc" in cmd
-        assert "--no-browser" in cmd
+        assert "--ServerApp.ip=127.0.0.1" in cmd and "--no-browser" in cmd
+        assert not any("abc" in part for part in cmd)              # the token is not on the command line
+        assert lab_environment("abc", {"PATH": "/bin"}) == {"PATH": "/bin", "JUPYTER_TOKEN": "abc"}
 
     def test_empty_token_refused(self, tmp_path):
         """Token authentication cannot be switched off."""
@@ -165,7 +166,7 @@ class TestLab:
             env[var] = str(d)
         root = tmp_path / "nb"
         root.mkdir()
-        proc = subprocess.Popen(lab_command(root, port=port, token="t0ken"), env=env,
+        proc = subprocess.Popen(lab_command(root, port=port, token="t0ken"), env=lab_environment("t0ken", env),
                                 stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, start_new_session=True)
         try:
             url = f"http://127.0.0.1:{port}/api/status"

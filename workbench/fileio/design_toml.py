@@ -724,11 +724,10 @@ def load_design(path) -> Design:
     DesignError
         The data break the schema: every problem, one per line after the summary.
     """
+    from workbench.fileio.limits import limits, read_limited
+
     p = Path(os.fspath(path))
-    try:
-        raw = p.read_bytes()
-    except OSError as err:
-        raise InputFileError(f"cannot read: {err.strerror or err}", str(path)) from None
+    raw = read_limited(p, max_bytes=limits().design_bytes, limit_name="design_mb")
     return design_from_bytes(raw, source=str(path), base_dir=p.parent)
 
 

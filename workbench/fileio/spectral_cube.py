@@ -21,6 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from workbench.errors import InputFileError, WorkbenchError
+from workbench.fileio.limits import shorten
 from workbench.model.spectra import check_wavelengths, grid, is_uniform
 
 __all__ = [
@@ -127,18 +128,25 @@ def read_sidecar(path) -> tuple[np.ndarray, dict]:
     (strictly increasing) or ``{"start": …, "stop": …, "step": …}``. Other
     keys (``"quantity"``, ``"description"`` …) are kept for the report.
     """
+    from workbench.fileio.limits import limits, read_limited
+
     p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
+    if not os.path.lexists(p):
         raise InputFileError("no such sidecar file; give the wavelengths with "
-                             "--wavelengths START:STOP:STEP or write this JSON file", str(p)) from None
-    except OSError as err:
-        raise InputFileError(f"cannot read: {err.strerror or err}", str(p)) from None
+                             "--wavelengths START:STOP:STEP or write this JSON file", str(p))
+    raw = read_limited(p, max_bytes=limits().design_bytes, limit_name="design_mb")
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as err:
+        raise InputFileError(f"expected UTF-8 JSON (byte {err.start} is not UTF-8)", str(p)) from None
     try:
         data = json.loads(text)
     except json.JSONDecodeError as err:
         raise InputFileError(f"not valid JSON ({err.msg})", str(p), line=err.lineno) from None
+    except RecursionError:
+        raise InputFileError("not valid JSON (nested too deeply)", str(p)) from None
+    except ValueError as err:  # an integer of more digits than Python converts
+        raise InputFileError(f"not valid JSON ({shorten(str(err), 60)})", str(p)) from None
     if not isinstance(data, dict) or "wavelengths_nm" not in data:
         raise InputFileError("expected a JSON object with the key 'wavelengths_nm'", str(p))
     v = data["wavelengths_nm"]
@@ -150,11 +158,24 @@ def read_sidecar(path) -> tuple[np.ndarray, dict]:
             nums = [v[k] for k in ("start", "stop", "step")]
             if not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in nums):
                 raise WorkbenchError("'wavelengths_nm' start, stop and step must be numbers in nm")
-            wl = grid(*(float(x) for x in nums))
+            try:
+                start, stop, step = (float(x) for x in nums)
+            except OverflowError:
+                raise WorkbenchError("'wavelengths_nm' start, stop and step must be numbers in nm "
+                                     "(got a number too large for a float)") from None
+            wl = grid(start, stop, step)
         elif isinstance(v, list):
             if not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in v):
                 raise WorkbenchError("'wavelengths_nm' must be a list of numbers in nm")
-            wl = check_wavelengths(np.array(v, dtype=float), what="'wavelengths_nm'")
+            from workbench.fileio.limits import check_count
+
+            check_count(len(v), "bands", "wavelengths", where="'wavelengths_nm'")
+            try:
+                arr = np.array(v, dtype=float)
+            except OverflowError:
+                raise WorkbenchError("'wavelengths_nm' must be numbers in nm "
+                                     "(got a number too large for a float)") from None
+            wl = check_wavelengths(arr, what="'wavelengths_nm'")
         else:
             raise WorkbenchError("'wavelengths_nm' must be a list of numbers or {start, stop, step} in nm")
     except WorkbenchError as err:
@@ -277,9 +298,12 @@ def open_cube(path, *, wavelengths=None, option: str = "--wavelengths") -> Spect
     InputFileError
         Naming the file (or the option) and what was expected.
     """
+    from workbench.fileio.limits import check_regular_file
+
     p = Path(path)
     if not p.exists():
         raise InputFileError("no such file or directory", str(p))
+    check_regular_file(p, allow_dir=p.is_dir() or p.suffix.lower() == ".zarr")
     if p.is_dir() or p.suffix.lower() == ".zarr":
         fmt = "zarr"
         try:

@@ -284,10 +284,9 @@ def read_nk_csv(path, *, name: str | None = None, text: str | None = None) -> Ma
     """
     source = str(path)
     if text is None:
-        try:
-            data = Path(path).read_bytes()
-        except OSError as err:
-            raise InputFileError(f"cannot read: {err.strerror or err}", source) from None
+        from workbench.fileio.limits import limits, read_limited
+
+        data = read_limited(path, max_bytes=limits().design_bytes, limit_name="design_mb")
         try:
             text = data.decode("utf-8-sig")
         except UnicodeDecodeError:

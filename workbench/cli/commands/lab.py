@@ -44,12 +44,19 @@ def register(sub) -> None:
                    help="folder to open (default: the project's notebooks/)")
     p.add_argument("--port", type=int, default=8888, help="port on 127.0.0.1 (default: 8888)")
     p.add_argument("--token", default=None,
-                   help="access token (default: a new random one each start)")
+                   help="access token (default: $WORKBENCH_LAB_TOKEN, else a new random one each start); "
+                        "passed to JupyterLab through its environment, never on its command line")
     p.set_defaults(run=run)
 
 
 def lab_command(root: Path, *, port: int, token: str) -> list[str]:
-    """The JupyterLab command line: loopback only, token auth on, no browser."""
+    """The JupyterLab command line: loopback only, token auth on, no browser.
+
+    The token is *not* on the command line (which every local user can read
+    in the process list); pass :func:`lab_environment` as the child's
+    environment, which holds it as ``JUPYTER_TOKEN`` (readable by the same
+    user only). ``token`` is taken here only to refuse an empty one.
+    """
     if not token:
         raise WorkbenchError("--token must not be empty: token authentication stays on")
     cmd = [
@@ -58,7 +65,6 @@ def lab_command(root: Path, *, port: int, token: str) -> list[str]:
         "--ServerApp.ip=127.0.0.1",
         f"--ServerApp.port={port}",
         "--ServerApp.port_retries=0",
-        f"--IdentityProvider.token={token}",
         f"--ServerApp.root_dir={root}",
         "--ServerApp.open_browser=False",
     ]
@@ -67,7 +73,23 @@ def lab_command(root: Path, *, port: int, token: str) -> list[str]:
     return cmd
 
 
+def lab_environment(token: str, base: dict | None = None) -> dict:
+    """The child's environment: ``base`` (default ``os.environ``) with ``JUPYTER_TOKEN`` set to ``token``."""
+    if not token:
+        raise WorkbenchError("--token must not be empty: token authentication stays on")
+    env = dict(os.environ if base is None else base)
+    env.pop("JUPYTER_TOKEN_FILE", None)
+    env["JUPYTER_TOKEN"] = token
+    return env
+
+
+#: Seconds JupyterLab gets to shut down (and stop its kernels) after SIGTERM before it is killed.
+STOP_TIMEOUT_S = 20.0
+
+
 def run(args) -> int:
+    import signal
+
     notice = None
     if args.dir is None:
         root, notice = default_notebook_dir()
@@ -80,18 +102,53 @@ def run(args) -> int:
         raise WorkbenchError(f"{root}: no such folder of notebooks (expected the project's notebooks/)")
     if not 1 <= args.port <= 65535:
         raise WorkbenchError(f"--port must be 1-65535 (got {args.port})")
-    token = args.token or secrets.token_hex(24)
+    token = args.token or os.environ.get("WORKBENCH_LAB_TOKEN") or secrets.token_hex(24)
     url = f"http://127.0.0.1:{args.port}/lab?token={token}"
     print(f"JupyterLab on {root}", file=sys.stderr)
     print(f"open: {url}", flush=True)
     print("stop with Ctrl-C", file=sys.stderr, flush=True)
-    proc = subprocess.Popen(lab_command(root, port=args.port, token=token))
-    try:
-        return proc.wait()
-    except KeyboardInterrupt:
-        proc.terminate()
+    proc = subprocess.Popen(lab_command(root, port=args.port, token=token), env=lab_environment(token))
+    received = []
+
+    def forward(signum, frame):
+        received.append(signum)
         try:
-            proc.wait(timeout=10)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-        return 130
+            proc.send_signal(signum if signum != signal.SIGHUP else signal.SIGTERM)
+        except OSError:
+            pass
+
+    old = {}
+    for sig in (signal.SIGTERM, signal.SIGHUP):
+        try:
+            old[sig] = signal.signal(sig, forward)
+        except (ValueError, OSError):  # not the main thread
+            pass
+    try:
+        while True:
+            try:
+                code = proc.wait()
+                break
+            except KeyboardInterrupt:
+                # Ctrl-C reaches JupyterLab too (same process group); ask it once more to stop, then wait
+                _stop(proc)
+                return 130
+        if received:
+            return 128 + received[0]
+        return code
+    finally:
+        for sig, handler in old.items():
+            signal.signal(sig, handler)
+        if proc.poll() is None:
+            _stop(proc)
+
+
+def _stop(proc) -> None:
+    """SIGTERM to JupyterLab, wait for it (it stops its kernels), kill it after STOP_TIMEOUT_S."""
+    try:
+        proc.terminate()
+        proc.wait(timeout=STOP_TIMEOUT_S)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+        proc.wait()
+    except OSError:
+        pass
