@@ -116,9 +116,11 @@ class TestBadInput:
         assert one_error_line(capsys) == "error: /no/such/spd.csv: cannot read: No such file or directory"
 
     def test_percent_emission(self, capsys):
-        """A percent file is not an SPD."""
+        """A transmittance file is not an SPD: refused naming the file and --kind."""
         assert main(["light", str(DEMO / "lens.csv")]) == 2
-        assert "the kind is emission" in one_error_line(capsys)
+        assert one_error_line(capsys) == (
+            f"error: {DEMO / 'lens.csv'}: holds transmittance (so says the header 'lens T%'), but "
+            "`workbench light` takes emission; pass --kind emission if it is one")
 
     def test_two_spectra(self, tmp_path, capsys):
         """Two spectra without --spectrum: named, exit 2; with --spectrum it runs."""

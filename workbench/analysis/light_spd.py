@@ -77,7 +77,24 @@ def _one_spectrum(s: Spectra, spectrum: str | None) -> Spectra:
     return s
 
 
-def read_light(path, *, spectrum: str | None = None) -> Spectra:
+def absolute_watts(s: Spectra) -> Spectra:
+    """An SPD with its units checked: photon units converted to W·m⁻²·nm⁻¹ (said in the notes).
+
+    Units are read by :func:`workbench.fileio.units.spectral_unit`; text it
+    does not know is refused, naming the file (never taken as relative).
+    """
+    from workbench.fileio.units import spectral_unit, to_watts
+
+    unit = spectral_unit(s.units, where=f"{light_label(s)}: units")
+    if not unit.photons:
+        return s
+    values = to_watts(s.values, s.wavelengths, unit)
+    note = (f"{light_label(s)}: photon units {s.units!r} converted to {unit.si_watts} by E = N·h·c/λ "
+            "(h, c: SI defining constants)")
+    return replace(s, values=values, units=unit.si_watts, notes=s.notes + (note,))
+
+
+def read_light(path, *, spectrum: str | None = None, kind: str | None = None) -> Spectra:
     """One emission SPD from a CSV file (spectrometer exports welcome).
 
     Read by :func:`workbench.fileio.spectra_csv.read_spectra_csv` with
@@ -91,16 +108,22 @@ def read_light(path, *, spectrum: str | None = None) -> Spectra:
         ``values`` (1, n) in the file's units (``units`` as the header says,
         ``'relative'`` when it says none).
     """
+    from workbench.fileio.kinds import read_for
     from workbench.fileio.spectra_csv import read_spectra_csv
 
-    return _one_spectrum(read_spectra_csv(path, kind="emission"), spectrum)
+    s = read_for(lambda k: read_spectra_csv(path, kind=k), ("emission",), command="light",
+                 default="emission", kind=kind)
+    return absolute_watts(_one_spectrum(s, spectrum))
 
 
 def parse_light(data: bytes | str, *, source: str, spectrum: str | None = None) -> Spectra:
     """:func:`read_light` for text already in memory (an uploaded file); ``source`` names it in messages."""
+    from workbench.fileio.kinds import read_for
     from workbench.fileio.spectra_csv import parse_spectra_text
 
-    return _one_spectrum(parse_spectra_text(data, source=source, kind="emission"), spectrum)
+    s = read_for(lambda k: parse_spectra_text(data, source=source, kind=k), ("emission",),
+                 command="light", default="emission")
+    return absolute_watts(_one_spectrum(s, spectrum))
 
 
 def light_label(s: Spectra) -> str:

@@ -160,7 +160,53 @@ _KIND_WORDS = {
     "sensitivity": r"sensitivity|responsivity|quantum efficiency|" + _NOT_LETTER_BEFORE
     + r"qe" + _NOT_LETTER_AFTER,
 }
+_KIND_WORDS["sensitivity"] += r"|" + _NOT_LETTER_BEFORE + r"a\s*/\s*w" + _NOT_LETTER_AFTER
 _KIND_PATTERNS = {k: re.compile(p, re.IGNORECASE) for k, p in _KIND_WORDS.items()}
+# A header cell that is only a symbol, with an optional unit or % in brackets: T, Ti, τ, τi
+# (transmittance, internal transmittance), R, ρ (reflectance). R counts only when the header
+# is not an R, G, B set of channels.
+_SYMBOL_KINDS = (
+    (re.compile(r"(?:t|ti|t_i|tint|τ|τi|τ_i)", re.IGNORECASE), "transmittance"),
+    (re.compile(r"(?:r|ρ)", re.IGNORECASE), "reflectance"),
+)
+_SYMBOL_TAIL = re.compile(r"\s*(?:[(\[][^()\[\]]*[)\]]|%)?\s*")
+#: The rule by which a header names the kind (said in the note when the kind comes from it).
+KIND_RULE = ("header rule: T, Ti, τ, transmittance/transmission → transmittance; R, ρ, "
+             "reflectance → reflectance; QE, quantum efficiency, responsivity, sensitivity, A/W → "
+             "sensitivity; irradiance, radiance, SPD, emission, W/(m² nm) → emission")
+#: The note of a file whose kind nobody said (commands that take another kind check for it).
+KIND_UNSAID_NOTE = "kind taken as reflectance (none given and the header names none)"
+#: A metadata line above the table stating the values' units: 'Units;W/(m2 nm)', 'Y units: counts'.
+_METADATA_UNITS = re.compile(
+    r"\s*(?:y[ _-]?)?units?(?:\s+of\s+values)?\s*[,;:\t=]\s*(?P<units>[^,;\t]+?)\s*[,;\t]*",
+    re.IGNORECASE)
+
+
+def _as_energy(values, wl, units):
+    """Photon counts as the watts they carry (photon units are 10¹³-10¹⁹ per s m² nm), else as they are."""
+    from workbench.fileio.units import spectral_unit, to_watts
+
+    try:
+        unit = spectral_unit(units)
+    except WorkbenchError:
+        return values
+    return to_watts(values, wl, unit) if unit.photons else values
+
+
+def _symbol_kinds(cells) -> dict:
+    """{kind: first cell} for header cells that are only a kind's symbol (T, Ti, τ, R, ρ)."""
+    cells = list(cells)
+    bare = [c.split("(")[0].split("[")[0].replace("%", "").strip() for c in cells]
+    rgb = {b.upper() for b in bare} >= {"R", "G", "B"}
+    out = {}
+    for cell, b in zip(cells, bare):
+        rest = cell.strip()[len(b):] if cell.strip().startswith(b) else None
+        if rest is None or not _SYMBOL_TAIL.fullmatch(rest):
+            continue
+        for pattern, kind in _SYMBOL_KINDS:
+            if pattern.fullmatch(b) and not (kind == "reflectance" and rgb):
+                out.setdefault(kind, cell)
+    return out
 _UNITS_TOKEN = re.compile(_W_PER_AREA + r"\S*", re.IGNORECASE)
 _BRACKETED = re.compile(r"[(\[]([^()\[\]]*)[)\]]")
 
@@ -452,6 +498,13 @@ def _header_says_percent(cell: str) -> bool:
 
 
 def _header_units(cell: str) -> str | None:
+    # a unit with brackets of its own, 'Irradiance [W/(m² nm)]': the outermost bracket's content
+    for open_, close in (("[", "]"), ("(", ")")):
+        a, b = cell.find(open_), cell.rfind(close)
+        if 0 <= a < b:
+            inside = cell[a + 1:b].strip()
+            if "(" in inside and inside and not _header_says_percent(inside):
+                return inside
     for inside in reversed(_BRACKETED.findall(cell)):
         inside = inside.strip()
         if inside and not _header_says_percent(inside):
@@ -689,8 +742,8 @@ class _Reader:
         check_count(wl.size, "bands", "wavelengths", where=self.source)
         if self.scale_arg == "auto" and self.stated_units is None:
             # a scale given by the caller, or units stated by a '# kind:' line, are their author's word
-            for text in check_spectral_values(values, kind=self.kind, source=self.source,
-                                              wavelengths=wl, names=names):
+            for text in check_spectral_values(_as_energy(values, wl, self.units), kind=self.kind,
+                                              source=self.source, wavelengths=wl, names=names):
                 self.notes.append(f"read {text}")
         count = len(names)
         summary = (
@@ -762,6 +815,11 @@ class _Reader:
                     "expected one header cell per column",
                     number,
                 )
+        self.metadata_units = None
+        for number, line in content[:metadata]:
+            m = _METADATA_UNITS.fullmatch(line)
+            if m is not None and self.metadata_units is None:
+                self.metadata_units = (m.group("units"), number)
         if metadata:
             self.note(f"{_plural(metadata, 'metadata line')} above the table skipped")
         for number, cells in zip(self.row_lines, self.rows):
@@ -996,6 +1054,9 @@ class _Reader:
             said_by = f"the '# kind:' line (line {self.directive[2]})"
         else:
             found = _first_kinds(self.header[1:]) if self.header is not None else {}
+            if self.header is not None:
+                for k, c in _symbol_kinds(self.header[1:]).items():
+                    found.setdefault(k, c)
             if len(found) > 1:
                 listed = ", ".join(f"{k} in {c!r}" for k, c in found.items())
                 raise self.error(
@@ -1014,9 +1075,10 @@ class _Reader:
             self.kind = file_kind
             if self.directive is None:
                 self.note(f"kind {file_kind} taken from {said_by}")
+                self.note(KIND_RULE)
         else:
             self.kind = "reflectance"
-            self.note("kind taken as reflectance (none given and the header names none)")
+            self.note(KIND_UNSAID_NOTE)
         # Units stated by a '# kind: ...; units: ...' line of the same kind.
         self.stated_units = None
         if self.directive is not None and self.directive[0] == self.kind:
@@ -1128,6 +1190,9 @@ class _Reader:
             )
         if units:
             self.units = next(iter(units))
+        elif self.metadata_units is not None:
+            self.units = self.metadata_units[0]
+            self.note(f"units {self.units!r} taken from the metadata line {self.metadata_units[1]}")
         else:
             self.units = "relative"
             self.note("units taken as 'relative' (the header gives none)")

@@ -32,6 +32,8 @@ def register(subparsers) -> None:
     p.add_argument("--format", choices=("table", "json"), default="table",
                    help="output format on stdout (default table)")
     p.add_argument("--spectrum", metavar="NAME", help="which spectrum, when the file holds several")
+    p.add_argument("--kind", choices=("emission",), default=None,
+                   help="read SPD.csv as emission although its header names another kind")
     p.add_argument("--camera", metavar="DESIGN.toml|SENS.csv",
                    help="a camera: a design file, or a CSV of three sensitivities R, G, B")
     p.add_argument("--primaries", metavar="NAME", default="ITU-R BT.709",
@@ -192,7 +194,7 @@ def run(args) -> int:
 
         figures = OutputFolder(args.figures, option="--figures", command="light", names=FIGURE_FILES)
         figures._validate()
-    spd = read_light(args.spd, spectrum=args.spectrum)
+    spd = read_light(args.spd, spectrum=args.spectrum, kind=args.kind)
     other = read_light(args.compare, spectrum=args.compare_spectrum) if args.compare else None
     camera = _load_camera(args.camera, args.primaries) if args.camera else None
     ref = _ssi_reference(args.ssi_reference)

@@ -12,6 +12,7 @@ from workbench.colorimetry.coordinates import XYZ_to_Lab, XYZ_to_uv_prime, XYZ_t
 from workbench.errors import WorkbenchError
 from workbench.model.spectra import KINDS, grid
 from workbench.fileio.limits import check_step, limits
+from workbench.fileio.kinds import read_for
 from workbench.fileio.spectra_csv import read_spectra_csv
 from workbench.colorimetry.tristimulus import tristimulus
 from workbench.cli.commands._output import FORMATS, notice, render_rows
@@ -72,7 +73,9 @@ def run(args) -> int:
                                           and args.resample >= limits().min_step_nm):
         raise WorkbenchError(f"--resample: expected a step of at least {limits().min_step_nm:g} nm "
                              f"(got {args.resample:g})")
-    spectra = read_spectra_csv(args.file, kind=args.kind)
+    spectra = read_for(lambda k: read_spectra_csv(args.file, kind=k),
+                       ("reflectance", "transmittance", "emission"), command="tristimulus",
+                       default="reflectance", kind=args.kind)
     if args.resample is not None:
         lo, hi = spectra.wavelengths[0], spectra.wavelengths[-1]
         step = args.resample
