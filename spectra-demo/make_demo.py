@@ -149,6 +149,10 @@ def nir_variant(design: str) -> str:
         ('name = "Lanternfield Tern-3, prism block rev A"',
          'name = "Lanternfield Tern-3, prism block rev A, 380-1000 nm"'),
         ("stop_nm = 780", "stop_nm = 1000"),
+        # the variant judges the near infrared; it keeps the ν objective
+        ('# one shared least-squares matrix for every light; the fit balances the lights: it minimises\n'
+         "# (smoothly) the worst light's mean ΔE00 instead of the average\n"
+         'objective = "mean-delta-e00"\nacross_illuminants = "worst"', 'objective = "vora"'),
         ('source = "cie-13.3"', 'source = "cie-13.3"\nextrapolation = "constant"'),
         ('source = "cie-224"', 'source = "cie-224"\nextrapolation = "constant"'),
         ('file = "studio_reflectances.csv"', 'file = "studio_reflectances.csv"\nextrapolation = "constant"'),
@@ -291,7 +295,10 @@ name = "tungsten"
 cie = "A"
 
 [fit]
-objective = "vora"
+# one shared least-squares matrix for every light; the fit balances the lights: it minimises
+# (smoothly) the worst light's mean ΔE00 instead of the average
+objective = "mean-delta-e00"
+across_illuminants = "worst"
 recording_illuminant = "daylight"
 viewing_illuminant = "daylight"
 # ΔE00 statistics under these; the halogen stays available to the light-source tools

@@ -109,10 +109,10 @@ class TestFitStatus:
 
     def test_stopped_by_the_user(self, tmp_path, capsys, demo_design_path, monkeypatch):
         """Ctrl-C during the search: status 3 'stopped', the best point so far written, exit 130."""
-        from workbench.analysis.evaluator import DesignEvaluator as Ev
+        from workbench.analysis.fit import _Objective as Obj
 
         calls = {"n": 0}
-        residuals = Ev.residuals
+        residuals = Obj.__call__
 
         def interrupted(self, x):
             calls["n"] += 1
@@ -120,19 +120,36 @@ class TestFitStatus:
                 raise KeyboardInterrupt
             return residuals(self, x)
 
-        monkeypatch.setattr(Ev, "residuals", interrupted)
+        monkeypatch.setattr(Obj, "__call__", interrupted)
         rc, m, cap = self._run(tmp_path, capsys, demo_design_path)
         assert (rc, m["status"], m["status_name"]) == (130, 3, "stopped")
         assert "stopped (status 3)" in cap.err
 
     def test_infeasible(self, tmp_path, capsys, demo_design_path, monkeypatch):
         """No evaluation gives a finite residual: status 4 'infeasible', exit 5."""
-        from workbench.analysis.evaluator import DesignEvaluator as Ev
+        from workbench.analysis.fit import _Objective as Obj
 
-        monkeypatch.setattr(Ev, "residuals", lambda self, x: np.full((np.atleast_2d(x).shape[0], 4), np.nan))
+        monkeypatch.setattr(Obj, "__call__", lambda self, x: np.full((np.atleast_2d(x).shape[0], 4), np.nan))
         rc, m, cap = self._run(tmp_path, capsys, demo_design_path)
         assert (rc, m["status"], m["status_name"]) == (5, 4, "infeasible")
         assert "infeasible (status 4)" in cap.err
+
+    def test_worst_needs_the_delta_e_objective(self, tmp_path, capsys, demo_design_path):
+        """--across-illuminants worst on a ν-objective design: one line naming the file, exit 2."""
+        text = demo_design_path.read_text().replace(
+            'objective = "mean-delta-e00"\nacross_illuminants = "worst"', 'objective = "vora"')
+        import shutil
+
+        for f in demo_design_path.parent.glob("*.csv"):
+            shutil.copy(f, tmp_path / f.name)
+        p = tmp_path / "vora_variant.toml"
+        p.write_text(text)
+        rc = main(["fit", str(p), "--out", str(tmp_path / "o"), "--quiet", "--across-illuminants", "worst"])
+        assert rc == 2
+        assert capsys.readouterr().err.strip().splitlines() == [
+            f"error: {p}: illuminant weights and the worst-illuminant objective need [fit] objective = "
+            "\"mean-delta-e00\" (got 'vora')"]
+        assert not (tmp_path / "o").exists()
 
     def test_status_table_is_the_one_source(self):
         """Codes 0-4 each have a name, a message and an exit status; only 'converged' exits 0."""
@@ -144,13 +161,20 @@ class TestFitStatus:
         assert 2 not in exits  # 2 is bad input
 
     @pytest.mark.parametrize("extra, message", [
+        (["--illuminant-weight", "tungsten"],
+         "error: '--illuminant-weight' must be NAME=W with W > 0 (got 'tungsten')"),
+        (["--illuminant-weight", "tungsten=-1"],
+         "error: '--illuminant-weight' must be NAME=W with W > 0 (got 'tungsten=-1')"),
+        (["--illuminant-weight", "moon=2"],
+         "error: 'illuminant weight moon' must name one of the fit's illuminants (daylight, tungsten, "
+         "stage-led) (got 'moon')"),
         (["--max-evaluations", "0"], "error: '--max-evaluations' must be a whole number >= 1 (got 0)"),
         (["--max-evaluations", "-5"], "error: '--max-evaluations' must be a whole number >= 1 (got -5)"),
         (["--time-limit", "0"], "error: '--time-limit' must be a number of seconds > 0 (got 0)"),
         (["--time-limit", "nan"], "error: '--time-limit' must be a number of seconds > 0 (got nan)"),
     ])
-    def test_bad_budget(self, tmp_path, capsys, demo_design_path, extra, message):
-        """A budget or time limit <= 0: one line, exit 2, nothing written."""
+    def test_bad_options(self, tmp_path, capsys, demo_design_path, extra, message):
+        """A budget or time limit <= 0, a bad illuminant weight: one line, exit 2, nothing written."""
         rc = main(["fit", str(demo_design_path), "--out", str(tmp_path / "o"), "--quiet", *extra])
         assert rc == 2
         assert capsys.readouterr().err.strip().splitlines() == [message]

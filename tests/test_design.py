@@ -219,6 +219,15 @@ BAD = {
         'PATH: 1 problem in the design file (chain[0].type)\n'
         "  chain[0].type: expected one of measured, glass, long-pass, short-pass, band-pass, neutral-density, colour-correction, dichroic-splitter, sensor-qe (got 'shortpass')"
     ),
+    'fit_across_illuminants': (
+        'PATH: 4 problems in the design file (fit.across_illuminants, fit.illuminant_weights.day, '
+        'fit.illuminant_weights.night, ...)\n'
+        "  fit.across_illuminants: expected one of weighted-mean, worst (got 'median')\n"
+        '  fit.illuminant_weights.day: expected a number > 0 (got 0)\n'
+        "  fit.illuminant_weights.night: expected the name of one of the [[illuminants]] (day) (got 'night')\n"
+        '  fit.objective: expected "mean-delta-e00" when illuminant_weights or across_illuminants = "worst" '
+        "is given (got 'vora')"
+    ),
     'fit_matrix_rule': (
         'PATH: 3 problems in the design file (fit.matrix, fit.matrix_scope, fit.seed)\n'
         "  fit.matrix: expected one of least-squares, white-preserving, delta-e00 (got 'fancy')\n"

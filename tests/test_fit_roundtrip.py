@@ -49,7 +49,7 @@ def demo_folder(tmp_path_factory):
 
 def _variant(folder: Path, scope, method, objective, start) -> Path:
     text = (folder / "tern3_design.toml").read_text()
-    text = text.replace('objective = "vora"', f'objective = "{objective}"')
+    text = text.replace('objective = "mean-delta-e00"\nacross_illuminants = "worst"', f'objective = "{objective}"')
     text = text.replace('matrix = "least-squares"', f'matrix = "{method}"')
     text = text.replace('matrix_scope = "shared"',
                         f'matrix_scope = "{scope}"\nglobal_start = "{start}"\nstarts = 3\nseed = 4')
@@ -62,7 +62,7 @@ def _round_trip(folder: Path, tmp_path: Path, capsys, case) -> None:
     design = _variant(folder, *case)
     out = tmp_path / "fitted"
     rc = main(["fit", str(design), "--out", str(out), "--quiet", "--no-report", "--max-evaluations", "60"])
-    assert rc in (0, 1), capsys.readouterr().err
+    assert rc in (0, 3), capsys.readouterr().err  # converged or budget spent: the best point is written
     metrics = json.loads((out / "metrics.json").read_text())
     fitted = out / "design.toml"
     capsys.readouterr()

@@ -462,3 +462,73 @@ class TestBoundCosts:
     def test_none_when_nothing_at_a_bound(self, tmp_path):
         """A fit whose optimum lies inside the bounds reports no bound costs."""
         assert self._fit(tmp_path, 80.0).bound_costs == ()
+
+
+@pytest.fixture(scope="module")
+def demo_de(demo_design):
+    """The demo design with the ΔE00 objective, and its evaluator."""
+    from dataclasses import replace
+
+    d = replace(demo_design, fit=replace(demo_design.fit, objective="mean-delta-e00"))
+    return d, DesignEvaluator(d)
+
+
+class TestAcrossIlluminants:
+    """Weights per illuminant and the worst-illuminant (smooth maximum) objective."""
+
+    def test_worst_residual_sums_to_the_smooth_maximum(self, demo_de):
+        """Σ r² = (Σ_j m_j^p)^(1/p) of the per-illuminant weighted means, between max and J^(1/p)·max."""
+        from workbench.analysis.fit import WORST_P, _Objective
+
+        _, ev = demo_de
+        obj = _Objective(ev, across="worst")
+        x = ev.start[None]
+        r = obj(x)[0]
+        m = obj.headline(x)["mean_by_illuminant"][0]
+        G = np.sum(m ** WORST_P) ** (1 / WORST_P)
+        assert float(r @ r) == pytest.approx(G, rel=1e-12)
+        assert m.max() <= G <= len(m) ** (1 / WORST_P) * m.max()
+
+    def test_weights_scale_the_illuminant_blocks(self, demo_de):
+        """With weights ω the cost is Σ_j (ω_j/Σω)·RMS_j² (sample-weighted RMS ΔE00 per illuminant)."""
+        from workbench.analysis.fit import _Objective
+
+        _, ev = demo_de
+        names = ev.bench.illuminant_names
+        om = np.array([1.0, 3.0, 0.5])
+        obj = _Objective(ev, illuminant_weights=dict(zip(names, om)))
+        x = ev.start[None]
+        r = obj(x)[0]
+        _, C, M = obj.parts(x)
+        d = ev.bench.delta_e(C, M)[0]
+        w = ev.bench.weights
+        rms2 = (d ** 2 @ w) / w.sum()
+        assert float(r @ r) == pytest.approx(float(om @ rms2 / om.sum()), rel=1e-12)
+
+    def test_worst_balances_the_lights(self, demo_de):
+        """On the demo (shared least-squares matrix) the worst light's mean ΔE00 drops below the mean fit's."""
+        d, ev = demo_de
+        mean_fit = fit_design(d, progress=False, evaluator=ev, across_illuminants="weighted-mean")
+        worst_fit = fit_design(d, progress=False, evaluator=ev, across_illuminants="worst")
+        worst = {r: max(v["mean"] for v in f.after.delta_E00.values())
+                 for r, f in (("mean", mean_fit), ("worst", worst_fit))}
+        assert worst_fit.converged and worst_fit.across_illuminants == "worst"
+        assert worst["worst"] < worst["mean"] - 0.03
+        assert worst["worst"] < 1.2
+
+    def test_needs_the_delta_e_objective(self, demo_design):
+        """The ν objective with the worst-illuminant rule is refused in one line."""
+        from dataclasses import replace
+
+        vora = replace(demo_design, fit=replace(demo_design.fit, objective="vora", across_illuminants="weighted-mean"))
+        with pytest.raises(WorkbenchError) as e:
+            fit_design(vora, progress=False, across_illuminants="worst")
+        assert str(e.value) == (f"{demo_design.source}: illuminant weights and the worst-illuminant objective "
+                                "need [fit] objective = \"mean-delta-e00\" (got 'vora')")
+
+    def test_unknown_illuminant_weight(self, demo_design):
+        """A weight for a light the fit does not use is refused, naming the fit's lights."""
+        with pytest.raises(WorkbenchError) as e:
+            fit_design(demo_design, progress=False, illuminant_weights={"moon": 2.0})
+        assert str(e.value) == ("'illuminant weight moon' must name one of the fit's illuminants "
+                                "(daylight, tungsten, stage-led) (got 'moon')")

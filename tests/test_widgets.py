@@ -260,14 +260,14 @@ class TestDesignPanelFit:
         from workbench.analysis.evaluator import DesignEvaluator
 
         started = threading.Event()
-        real = DesignEvaluator.residuals
+        real = DesignEvaluator.sensitivities
 
         def slow(self, x):
             started.set()
             time.sleep(0.05)
             return real(self, x)
 
-        monkeypatch.setattr(DesignEvaluator, "residuals", slow)
+        monkeypatch.setattr(DesignEvaluator, "sensitivities", slow)
         panel.fit()
         assert started.wait(30)
         assert panel.fitting and panel.sliders[EDGE].disabled

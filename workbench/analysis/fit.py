@@ -22,7 +22,7 @@ import numpy as np
 
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
 from workbench.errors import WorkbenchError
-from workbench.model.design import CHANNELS, Design
+from workbench.model.design import ACROSS_ILLUMINANTS, CHANNELS, Design
 from workbench.report.html import fit_result_html
 from workbench.report.json_text import json_text
 
@@ -58,8 +58,6 @@ FIT_STATUS_TABLE: dict[FitStatus, tuple[str, str, int]] = {
 }
 
 
-#: How the illuminants combine in the ``mean-delta-e00`` objective.
-ACROSS_ILLUMINANTS = ("weighted-mean", "worst")
 
 BOUND_COSTS_METHOD = (
     "first-order change per unit of relaxing each bound a parameter ends at (a min lowered, a max "
@@ -301,7 +299,9 @@ class _Objective:
     a smooth maximum of the weighted per-illuminant mean ΔE00 m_j (max ≤ G ≤
     J^(1/p)·max; for J = 3, within 3.5 %): r_jk = √(c_j w_k d_jk / Σw) with
     c_j = ω_j (ω_j m_j / G)^(p−1), since Σ_j c_j m_j = G^p / G^(p−1) = G.
-    The noise term of ``noise_weight`` is appended as in the evaluator.
+    The noise term of ``noise_weight`` and the evaluator's extra blocks
+    (:meth:`DesignEvaluator.extra_residuals`) are appended as in the
+    evaluator.
     """
 
     def __init__(self, ev: DesignEvaluator, *, illuminant_weights=None, across="weighted-mean",
@@ -341,7 +341,7 @@ class _Objective:
             return self.ev.residuals(X)
         X = np.atleast_2d(np.asarray(X, dtype=float))
         ev = self.ev
-        _, C, M = self.parts(X)
+        S, C, M = self.parts(X)
         d = ev.bench.delta_e(C, M)                                  # (B, J, K)
         w = ev.bench.weights
         J = d.shape[1]
@@ -359,11 +359,12 @@ class _Objective:
         if self.noise_weight > 0:
             rn = np.linalg.norm(M, axis=-1) / math.sqrt(J * 3)
             parts.append(self.noise_weight * rn.reshape(rn.shape[0], -1))
+        parts.extend(ev.extra_residuals(S))
         return np.concatenate(parts, axis=-1)
 
     def headline(self, X) -> dict:
         """For points X (B, n): ``cost`` Σr², ``vora_value``, ``mean_delta_E00`` (weighted over samples ×
-        illuminants, as :attr:`Measures.weighted_mean_delta_E00`), ``mean_by_illuminant`` (B, J) and
+        illuminants, as :attr:`Measures.weighted_mean_delta_E00`), ``mean_by_illuminant`` (B, J, sample-weighted) and
         ``noise_gain`` (B,) the largest row norm of the matrix."""
         from workbench.analysis.measures import vora_value
 
@@ -377,7 +378,7 @@ class _Objective:
             "cost": np.sum(r * r, axis=-1),
             "vora_value": np.atleast_1d(vora_value(np.swapaxes(S, -1, -2), ev.cmfs, ev.rec, ev.view)),
             "mean_delta_E00": np.einsum("bjk,k->b", d, w) / (w.sum() * d.shape[1]),
-            "mean_by_illuminant": d.mean(axis=-1),
+            "mean_by_illuminant": np.einsum("bjk,k->bj", d, w) / w.sum(),
             "noise_gain": np.linalg.norm(M, axis=-1).max(axis=(-2, -1)),
         }
 
@@ -453,6 +454,11 @@ def bound_cost_text(row: dict) -> str:
             f"{row['d_vora']:+.3g} ν, {row['d_mean_delta_E00']:+.3g} mean ΔE00 per {u} {row['direction']}")
 
 
+#: The local solver's convergence test (scipy.optimize.least_squares): relative change of the cost,
+#: of the point, and the scaled gradient.
+LOCAL_TOLERANCES = {"ftol": 1e-12, "xtol": 1e-10, "gtol": 1e-10}
+
+
 def _local(track: _Tracker, u0, lo, hi, nf, span, base):
     """One bounded least-squares run in normalised coordinates u ∈ [0, 1] (filters) + raw matrix entries.
 
@@ -478,8 +484,80 @@ def _local(track: _Tracker, u0, lo, hi, nf, span, base):
         return ((R[1:] - R[0]) / (sign * h)[:, None]).T
 
     r = least_squares(fun, u0, jac=jac, bounds=(lo, hi), method="trf", x_scale=1.0,
-                      xtol=1e-10, ftol=1e-12, gtol=1e-10, max_nfev=track.remaining() + 1)
-    return r, x_of(r.x)[0]
+                      max_nfev=track.remaining() + 1, **LOCAL_TOLERANCES)
+    return bool(r.success and r.status > 0), str(r.message).rstrip(".")
+
+
+#: The quasi-Newton run's convergence test: L-BFGS-B's own, or a projected gradient (normalised
+#: coordinates: a parameter's whole range = 1) no larger than this fraction of the cost.
+PROJECTED_GRADIENT_TOL = 1e-4
+
+
+def _local_quasi_newton(track: _Tracker, u0, lo, hi, nf, span, base):
+    """One bounded quasi-Newton run (L-BFGS-B) on the cost Σr², the gradient from one batch of forward differences.
+
+    For large-residual objectives (ΔE00 of order 1) where Gauss-Newton
+    steps crawl: L-BFGS-B builds the curvature the Gauss-Newton Hessian
+    JᵀJ lacks. Converged when L-BFGS-B says so, or when it stops at the
+    precision of the differences with a projected gradient ≤
+    :data:`PROJECTED_GRADIENT_TOL` × the cost.
+
+    References
+    ----------
+    Byrd, R. H., Lu, P., Nocedal, J. & Zhu, C. (1995). A limited memory
+    algorithm for bound constrained optimization. *SIAM J. Sci. Comput.*
+    16(5), 1190-1208.
+    """
+    from scipy.optimize import minimize
+
+    n = u0.size
+
+    def fg(u):
+        h = np.where(np.arange(n) < nf, 1e-6, 1e-7)
+        sign = np.where(u + h > hi, -1.0, 1.0)
+        U = np.repeat(u[None], n + 1, axis=0)
+        U[1 + np.arange(n), np.arange(n)] += sign * h
+        R = track(np.concatenate([base[:nf] + U[:, :nf] * span, U[:, nf:]], axis=1))
+        f = np.sum(R * R, axis=-1)
+        return float(f[0]), (f[1:] - f[0]) / (sign * h)
+
+    bounds = [(float(a) if np.isfinite(a) else None, float(b) if np.isfinite(b) else None) for a, b in zip(lo, hi)]
+    r = minimize(fg, u0, jac=True, method="L-BFGS-B", bounds=bounds,
+                 options={"maxfun": track.remaining() + 1, "maxiter": 10 ** 9, "ftol": 1e-12,
+                          "gtol": 1e-9, "maxcor": 20})
+    g = np.asarray(r.jac, dtype=float)
+    u = r.x
+    # the projected gradient: components pushing outward at an active bound do not count
+    pg = np.where(((u <= lo) & (g > 0)) | ((u >= hi) & (g < 0)), 0.0, g)
+    small = float(np.max(np.abs(pg))) <= PROJECTED_GRADIENT_TOL * max(float(r.fun), 1e-12)
+    msg = str(r.message).rstrip(".: ")
+    if not r.success and small:
+        msg += f"; projected gradient ≤ {PROJECTED_GRADIENT_TOL:g} × cost"
+    return bool(r.success or small), msg
+
+
+def check_fit_options(design: Design, *, illuminant_weights=None, across_illuminants=None):
+    """The illuminant weights (dict) and rule of a fit, checked: one clear :class:`WorkbenchError` each.
+
+    Call it before any work (the command line does, before its output
+    folder); :func:`fit_design` calls it too.
+    """
+    fit = design.fit
+    weights = dict(fit.illuminant_weights if illuminant_weights is None else illuminant_weights)
+    across = across_illuminants or fit.across_illuminants
+    if across not in ACROSS_ILLUMINANTS:
+        raise WorkbenchError(f"'across_illuminants' must be one of {', '.join(ACROSS_ILLUMINANTS)} (got {across!r})")
+    names = list(fit.illuminants) or [i.name for i in design.illuminants] or ["D65"]
+    for k, v in weights.items():
+        if k not in names:
+            raise WorkbenchError(f"'illuminant weight {k}' must name one of the fit's illuminants "
+                                 f"({', '.join(names)}) (got {k!r})")
+        if isinstance(v, bool) or not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
+            raise WorkbenchError(f"'illuminant weight {k}' must be a number > 0 (got {v!r})")
+    if (across == "worst" or any(v != 1 for v in weights.values())) and fit.objective != "mean-delta-e00":
+        raise WorkbenchError(f"{design.source or design.name}: illuminant weights and the worst-illuminant "
+                             f"objective need [fit] objective = \"mean-delta-e00\" (got {fit.objective!r})")
+    return weights, across
 
 
 def fit_design(design: Design, *, progress: bool = True, stop: threading.Event | None = None,
@@ -553,20 +631,8 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     if time_limit is not None and not (isinstance(time_limit, (int, float)) and math.isfinite(time_limit)
                                        and time_limit > 0):
         raise WorkbenchError(f"'time_limit' must be a number of seconds > 0 (got {time_limit!r})")
-    fit_weights = dict(getattr(fit, "illuminant_weights", ()) if illuminant_weights is None
-                       else illuminant_weights)
-    across = across_illuminants or getattr(fit, "across_illuminants", "weighted-mean")
-    if across not in ACROSS_ILLUMINANTS:
-        raise WorkbenchError(f"'across_illuminants' must be one of {', '.join(ACROSS_ILLUMINANTS)} (got {across!r})")
-    for k, v in fit_weights.items():
-        if k not in ev.bench.illuminant_names:
-            raise WorkbenchError(f"'illuminant_weights' must name the fit's illuminants "
-                                 f"({', '.join(ev.bench.illuminant_names)}) (got {k!r})")
-        if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
-            raise WorkbenchError(f"'illuminant_weights.{k}' must be a number > 0 (got {v!r})")
-    if (across == "worst" or any(v != 1 for v in fit_weights.values())) and fit.objective != "mean-delta-e00":
-        raise WorkbenchError(f"{design.source or design.name}: illuminant weights and the worst-illuminant "
-                             f"objective need [fit] objective = \"mean-delta-e00\" (got {fit.objective!r})")
+    fit_weights, across = check_fit_options(design, illuminant_weights=illuminant_weights,
+                                            across_illuminants=across_illuminants)
     nf = len(ev.free)
     if nf == 0:
         raise WorkbenchError(f"{design.source or design.name}: no free parameters to fit "
@@ -626,11 +692,11 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
                 pass
             bx = track.best_x
             starts = [np.concatenate([(bx[:nf] - base) / span, m0])]
+        local = _local_quasi_newton if fit.objective == "mean-delta-e00" else _local
         for i, u0 in enumerate(starts):
             track.tag = ("local", i)
-            r, _ = _local(track, np.clip(u0, lo, hi), lo, hi, nf, span, base)
-            message = str(r.message).rstrip(".")
-            if r.success and r.status > 0:
+            ok, message = local(track, np.clip(u0, lo, hi), lo, hi, nf, span, base)
+            if ok:
                 converged_runs.add(("local", i))
         status = FitStatus.CONVERGED if track.best_tag in converged_runs else FitStatus.BUDGET_SPENT
     except FitStopped as e:

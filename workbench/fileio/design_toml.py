@@ -28,6 +28,7 @@ import numpy as np
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.atomic import write_text_atomically
 from workbench.model.design import (
+    ACROSS_ILLUMINANTS,
     CHANNELS,
     ELEMENT_TYPES,
     GLOBAL_STARTS,
@@ -459,12 +460,13 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
         return None
     c.unknown(t, ("objective", "recording_illuminant", "viewing_illuminant", "weights", "illuminants",
                   "matrix", "matrix_scope", "noise_weight", "global_start", "starts", "seed",
-                  "max_evaluations", "infrared_cutoff_nm", "infrared_weight", "max_infrared_share"), "fit")
+                  "max_evaluations", "infrared_cutoff_nm", "infrared_weight", "max_infrared_share",
+                  "illuminant_weights", "across_illuminants"), "fit")
     n0 = len(c.problems)
     objective = c.choice(t.get("objective", "vora"), OBJECTIVES, "fit.objective")
     extra = {}
     for k, choices in (("matrix", MATRIX_METHODS), ("matrix_scope", MATRIX_SCOPES),
-                       ("global_start", GLOBAL_STARTS)):
+                       ("global_start", GLOBAL_STARTS), ("across_illuminants", ACROSS_ILLUMINANTS)):
         if k in t:
             extra[k] = c.choice(t[k], choices, f"fit.{k}")
     if "noise_weight" in t:
@@ -503,6 +505,23 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
             if ill[k] is not None and ill[k] not in illuminant_names:
                 c.bad(f"fit.{k}", "the name of one of the [[illuminants]] ("
                       + (", ".join(illuminant_names) or "none defined") + ")", ill[k])
+    if "illuminant_weights" in t:
+        w = c.table(t["illuminant_weights"], "fit.illuminant_weights")
+        iw = []
+        for k, x in (w or {}).items():
+            f = _number(x)
+            if k not in illuminant_names:
+                c.bad(f"fit.illuminant_weights.{k}", "the name of one of the [[illuminants]] ("
+                      + (", ".join(illuminant_names) or "none defined") + ")", k)
+            elif f is None or f <= 0:
+                c.bad(f"fit.illuminant_weights.{k}", "a number > 0", x)
+            else:
+                iw.append((k, f))
+        extra["illuminant_weights"] = tuple(iw)
+    if (("illuminant_weights" in t or extra.get("across_illuminants", "weighted-mean") != "weighted-mean")
+            and objective is not None and objective != "mean-delta-e00"):
+        c.bad("fit.objective", '"mean-delta-e00" when illuminant_weights or across_illuminants = "worst" '
+              "is given", objective)
     weights = []
     if "weights" in t:
         w = c.table(t["weights"], "fit.weights")
@@ -838,9 +857,12 @@ def design_to_dict(d: Design, rebase=None) -> dict:
         fit["viewing_illuminant"] = d.fit.viewing_illuminant
     if d.fit.weights:
         fit["weights"] = dict(d.fit.weights)
+    if d.fit.illuminant_weights:
+        fit["illuminant_weights"] = dict(d.fit.illuminant_weights)
     defaults = Fit()
     for k in ("illuminants", "matrix", "matrix_scope", "noise_weight", "global_start", "starts",
-              "seed", "max_evaluations", "infrared_cutoff_nm", "infrared_weight", "max_infrared_share"):
+              "seed", "max_evaluations", "infrared_cutoff_nm", "infrared_weight", "max_infrared_share",
+              "across_illuminants"):
         v = getattr(d.fit, k)
         if v != getattr(defaults, k):
             fit[k] = list(v) if isinstance(v, tuple) else v

@@ -56,6 +56,7 @@ OBJECTIVES = ("vora", "mean-delta-e00", "luther-residual")
 MATRIX_METHODS = ("least-squares", "white-preserving", "delta-e00")
 MATRIX_SCOPES = ("shared", "per-illuminant")
 GLOBAL_STARTS = ("none", "multi-start", "differential-evolution")
+ACROSS_ILLUMINANTS = ("weighted-mean", "worst")
 TARGET_KINDS = ("observer", "primaries", "chromaticities", "emitters")
 TOLERANCE_DISTRIBUTIONS = ("normal", "uniform")
 EXTRAPOLATIONS = ("none", "constant", "zero")
@@ -209,7 +210,9 @@ class Fit:
     ``seed`` an optional global search before the local fit.
     ``infrared_cutoff_nm``, ``infrared_weight`` and ``max_infrared_share``
     report, weight or cap each channel's signal from the near infrared
-    (:mod:`workbench.analysis.near_infrared`).
+    (:mod:`workbench.analysis.near_infrared`). ``illuminant_weights`` and
+    ``across_illuminants`` ('weighted-mean' or 'worst') combine the
+    illuminants in the ``mean-delta-e00`` objective (:mod:`workbench.analysis.fit`).
     """
 
     objective: str = "vora"
@@ -227,6 +230,8 @@ class Fit:
     infrared_cutoff_nm: float = 700.0
     infrared_weight: float = 0.0
     max_infrared_share: float | None = None
+    illuminant_weights: tuple[tuple[str, float], ...] = ()
+    across_illuminants: str = "weighted-mean"
 
 
 @dataclass(frozen=True)

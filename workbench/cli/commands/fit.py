@@ -64,6 +64,12 @@ def register(subparsers) -> None:
     p.add_argument("--seed", type=int, default=None, help="seed of the global search (default: the design's)")
     p.add_argument("--max-evaluations", type=int, default=None, metavar="N",
                    help="evaluation budget of the whole fit (default: the design's [fit] max_evaluations)")
+    p.add_argument("--across-illuminants", choices=("weighted-mean", "worst"), default=None,
+                   help="how the illuminants combine in the mean-delta-e00 objective: their weighted mean "
+                        "or a smooth maximum (the worst light) (default: the design's)")
+    p.add_argument("--illuminant-weight", action="append", default=None, metavar="NAME=W",
+                   help="weight of one illuminant in the mean-delta-e00 objective, > 0 (repeatable; "
+                        "default: the design's [fit.illuminant_weights], else 1)")
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
                    help="wall-time limit of the whole fit in seconds (default: none)")
     p.add_argument("--no-report", action="store_true", help="skip report.html")
@@ -175,7 +181,7 @@ def _print_summary(design, result) -> None:
 
 
 def run(args) -> int:
-    from workbench.analysis.fit import fit_design
+    from workbench.analysis.fit import check_fit_options, fit_design
     from workbench.fileio.outdir import OutputFolder
     from workbench.fileio.spectra_csv import write_spectra_csv
 
@@ -185,11 +191,25 @@ def run(args) -> int:
         raise WorkbenchError(f"'--time-limit' must be a number of seconds > 0 (got {args.time_limit:g})")
     if args.seed is not None and not 0 <= args.seed < 2**32:
         raise WorkbenchError(f"'--seed' must be a whole number 0-4294967295 (got {args.seed})")
+    weights = None
+    if args.illuminant_weight:
+        weights = {}
+        for item in args.illuminant_weight:
+            name, eq, value = item.partition("=")
+            try:
+                w = float(value)
+            except ValueError:
+                w = math.nan
+            if not eq or not name or not (math.isfinite(w) and w > 0):
+                raise WorkbenchError(f"'--illuminant-weight' must be NAME=W with W > 0 (got {item!r})")
+            weights[name] = w
     design = load_design(args.design)
+    check_fit_options(design, illuminant_weights=weights, across_illuminants=args.across_illuminants)
     # the output folder is one unit: validated and locked now, written into a staging folder, swapped in last
     with OutputFolder(args.out, option="--out", command="fit", names=FILES) as out:
         result = fit_design(design, progress=not args.quiet, global_start=args.global_start,
-                            seed=args.seed, max_evaluations=args.max_evaluations, time_limit=args.time_limit)
+                            seed=args.seed, max_evaluations=args.max_evaluations, time_limit=args.time_limit,
+                            across_illuminants=args.across_illuminants, illuminant_weights=weights)
         for n in result.notes:
             notice(n)
         result.design.save(out / "design.toml")
