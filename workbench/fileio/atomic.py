@@ -19,6 +19,11 @@ def write_atomically(target, write) -> None:
     and renamed over ``target`` with ``os.replace``; on any failure
     (including Ctrl-C) it is removed and the previous ``target`` is left as
     it was. An OS error becomes :class:`InputFileError` naming the file.
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``rename()``: the replacement of the target is
+    atomic; Python's ``os.replace``.
     """
     target = Path(target)
     tmp = target.with_name(f".{target.name}.{uuid.uuid4().hex[:12]}.tmp")
@@ -47,11 +52,23 @@ def write_atomically(target, write) -> None:
 
 
 def write_text_atomically(target, text: str) -> None:
-    """Write ``text`` (UTF-8, newlines as given) to ``target`` atomically; see :func:`write_atomically`."""
+    """Write ``text`` (UTF-8, newlines as given) to ``target`` atomically; see :func:`write_atomically`.
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``rename()``: the replacement of the target is
+    atomic; Python's ``os.replace``.
+    """
     data = text.encode("utf-8")
     write_atomically(target, lambda fh: fh.write(data))
 
 
 def write_bytes_atomically(target, data: bytes) -> None:
-    """Write ``data`` to ``target`` atomically; see :func:`write_atomically`."""
+    """Write ``data`` to ``target`` atomically; see :func:`write_atomically`.
+
+    References
+    ----------
+    IEEE Std 1003.1-2017 (POSIX), ``rename()``: the replacement of the target is
+    atomic; Python's ``os.replace``.
+    """
     write_atomically(target, lambda fh: fh.write(data))

@@ -742,6 +742,11 @@ def load_design(path) -> Design:
         The file cannot be read or is not TOML (message names line and column).
     DesignError
         The data break the schema: every problem, one per line after the summary.
+
+    References
+    ----------
+    TOML v1.0.0 (2021), *Tom's Obvious Minimal Language*, https://toml.io/en/v1.0.0
+    (read with Python's ``tomllib``, PEP 680).
     """
     from workbench.fileio.limits import limits, read_limited
 
@@ -754,6 +759,11 @@ def design_from_bytes(raw: bytes, *, source: str, base_dir=".") -> Design:
     """A design file's bytes (a file, an upload) read and validated as :func:`load_design` reads a file.
 
     Relative file names resolve against ``base_dir``; messages name ``source``.
+
+    References
+    ----------
+    TOML v1.0.0 (2021), *Tom's Obvious Minimal Language*, https://toml.io/en/v1.0.0
+    (read with Python's ``tomllib``, PEP 680).
     """
     try:
         text = bytes(raw).decode("utf-8")
@@ -890,6 +900,11 @@ def save_design(design: Design, path) -> None:
 
     Relative file names are rewritten relative to the new file's folder when
     it differs from the design's ``base_dir``, so they name the same files.
+
+    References
+    ----------
+    TOML v1.0.0 (2021), *Tom's Obvious Minimal Language*, https://toml.io/en/v1.0.0
+    (read with Python's ``tomllib``, PEP 680).
     """
     import tomli_w
 

@@ -260,6 +260,12 @@ def read_spectra_csv(
     WorkbenchError
         An argument is not one of its choices.
 
+    References
+    ----------
+    Shafranovich, Y. (2005). RFC 4180, *Common Format and MIME Type for
+    Comma-Separated Values (CSV) Files*.
+    docs/methods.md §1 (the spectral data model).
+
     Examples
     --------
     >>> import tempfile, pathlib
@@ -300,6 +306,12 @@ def parse_spectra_text(
     Returns
     -------
     Spectra
+
+    References
+    ----------
+    Shafranovich, Y. (2005). RFC 4180, *Common Format and MIME Type for
+    Comma-Separated Values (CSV) Files*.
+    docs/methods.md §1 (the spectral data model).
 
     Examples
     --------
@@ -362,6 +374,12 @@ def write_spectra_csv(spectra: Spectra, path) -> None:
         ``name, value`` (which would read as a long table).
     InputFileError
         The file cannot be written.
+
+    References
+    ----------
+    Shafranovich, Y. (2005). RFC 4180, *Common Format and MIME Type for
+    Comma-Separated Values (CSV) Files*.
+    docs/methods.md §1 (the spectral data model).
     """
     if not isinstance(spectra, Spectra):
         raise WorkbenchError(f"spectra must be a Spectra (got {type(spectra).__name__})")
