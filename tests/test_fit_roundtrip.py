@@ -16,9 +16,10 @@ from pathlib import Path
 
 import pytest
 
+from workbench import demo_dir
 from workbench.cli.main import main
 
-DEMO = Path(__file__).resolve().parents[1] / "spectra-demo"
+DEMO = demo_dir()
 
 SCOPES = ("shared", "per-illuminant")
 METHODS = ("least-squares", "white-preserving", "delta-e00")

@@ -8,12 +8,13 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from workbench import demo_dir
 from workbench.cli.main import main
 from workbench.errors import WorkbenchError
 from workbench.fileio.design_toml import design_from_bytes
 from workbench.fileio.spectral_cube import read_sidecar
 
-DEMO = os.path.join(os.path.dirname(__file__), os.pardir, "spectra-demo")
+DEMO = str(demo_dir())
 DESIGN_TEXT = open(os.path.join(DEMO, "tern3_design.toml"), encoding="utf-8").read()
 
 _toml_values = st.one_of(

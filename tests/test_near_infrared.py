@@ -9,6 +9,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from workbench import demo_dir
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.near_infrared import CAP_WEIGHT, infrared_residuals, infrared_share
 from workbench.errors import WorkbenchError
@@ -16,7 +17,7 @@ from workbench.fileio.design_toml import design_from_dict, design_to_dict, load_
 from workbench.model.spectra import grid
 
 ROOT = Path(__file__).parents[1]
-NIR_DEMO = ROOT / "spectra-demo" / "tern3_nir_design.toml"
+NIR_DEMO = demo_dir() / "tern3_nir_design.toml"
 
 
 def without_ir_cut(design):

@@ -1,12 +1,12 @@
 """The design grid past the CIE tables (300-1100 nm): illuminants and colour-matching functions."""
 
 import shutil
-from pathlib import Path
 
 import colour
 import numpy as np
 import pytest
 
+from workbench import demo_dir
 from workbench.colorimetry.cie import cmfs_on, daylight_M1_M2, illuminant_A, illuminant_on
 from workbench.errors import WorkbenchError
 from workbench.fileio.design_toml import load_design
@@ -93,7 +93,7 @@ class TestIlluminantOnTheNirGrid:
         assert (t.values == 100).all()
 
 
-DEMO = Path(__file__).parents[1] / "spectra-demo" / "tern3_design.toml"
+DEMO = demo_dir() / "tern3_design.toml"
 
 
 def nir_variant(tmp_path, **replace):
