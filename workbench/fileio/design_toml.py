@@ -229,7 +229,8 @@ def _check_grid(c: _Checker, v) -> Grid | None:
     t = c.table(v, "grid")
     if t is None:
         return None
-    c.unknown(t, ("start_nm", "stop_nm", "step_nm"), "grid")
+    c.unknown(t, ("start_nm", "stop_nm", "step_nm", "resampling"), "grid")
+    resampling = c.choice(t.get("resampling", "interpolation"), ("interpolation", "band"), "grid.resampling")
     vals = {}
     for k in ("start_nm", "stop_nm", "step_nm"):
         f = _number(t.get(k))
@@ -246,7 +247,7 @@ def _check_grid(c: _Checker, v) -> Grid | None:
     if vals["stop_nm"] <= vals["start_nm"]:
         c.bad("grid.stop_nm", f"a number above start_nm = {vals['start_nm']:g} nm", t.get("stop_nm"))
         return None
-    g = Grid(vals["start_nm"], vals["stop_nm"], vals["step_nm"])
+    g = Grid(vals["start_nm"], vals["stop_nm"], vals["step_nm"], resampling or "interpolation")
     try:
         wl = g.wavelengths
     except WorkbenchError:
@@ -811,7 +812,8 @@ def design_to_dict(d: Design, rebase=None) -> dict:
     if d.description:
         out["description"] = d.description
     out["observer"] = int(d.observer)
-    out["grid"] = {"start_nm": d.grid.start_nm, "stop_nm": d.grid.stop_nm, "step_nm": d.grid.step_nm}
+    out["grid"] = {"start_nm": d.grid.start_nm, "stop_nm": d.grid.stop_nm, "step_nm": d.grid.step_nm,
+                   **({"resampling": d.grid.resampling} if d.grid.resampling != "interpolation" else {})}
     t = d.target
     tgt: dict[str, Any] = {"kind": t.kind}
     if t.name is not None:

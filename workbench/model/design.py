@@ -24,7 +24,7 @@ import numpy as np
 
 from workbench.optics import elements as optics
 from workbench.errors import RangeCoverageError, WorkbenchError
-from workbench.model.spectra import Spectra, grid as make_grid
+from workbench.model.spectra import Spectra, coarsening_method, grid as make_grid
 
 if TYPE_CHECKING:  # names for annotations only: the chain sits above the schema
     from workbench.optics.chain import ChainModel, ElementCurve
@@ -146,11 +146,17 @@ class Element:
 
 @dataclass(frozen=True)
 class Grid:
-    """The wavelength grid, nm: ``start_nm`` to ``stop_nm`` inclusive in ``step_nm`` steps."""
+    """The wavelength grid, nm: ``start_nm`` to ``stop_nm`` inclusive in ``step_nm`` steps.
+
+    ``resampling``: how finer measured curves are put on it, ``'interpolation'``
+    (CIE 167 rules) or ``'band'`` (a triangular band-pass average over each
+    step, :func:`workbench.model.spectra.band_matrix`).
+    """
 
     start_nm: float
     stop_nm: float
     step_nm: float
+    resampling: str = "interpolation"
 
     @property
     def wavelengths(self) -> np.ndarray:
@@ -401,7 +407,8 @@ class Design:
             from workbench.optics.chain import uncovered
 
             raise WorkbenchError(f"{where} ({spec.file}): " + uncovered(s, wl, "entry"))
-        s = s.resample(wl, extrapolation=spec.extrapolation)
+        s = s.resample(wl, extrapolation=spec.extrapolation,
+                       method=coarsening_method(s.wavelengths, wl, self.grid.resampling))
         return f"{name} ({spec.file})", s.flat()[0], s.notes
 
     def sample_set(self, name: str) -> Spectra:

@@ -38,6 +38,8 @@ __all__ = [
     "grid",
     "is_uniform",
     "resampling_matrix",
+    "band_matrix",
+    "coarsening_method",
     "resample_values",
     "check_wavelengths",
 ]
@@ -45,7 +47,7 @@ __all__ = [
 KINDS = ("reflectance", "transmittance", "emission", "sensitivity")
 Kind = Literal["reflectance", "transmittance", "emission", "sensitivity"]
 
-INTERPOLATION_METHODS = ("auto", "sprague", "cubic-spline", "linear")
+INTERPOLATION_METHODS = ("auto", "sprague", "cubic-spline", "linear", "band")
 EXTRAPOLATION_POLICIES = ("none", "constant", "zero")
 
 #: Relative tolerance on the step for calling a grid uniform.
@@ -173,6 +175,64 @@ def _linear_matrix(x: np.ndarray, xt: np.ndarray) -> np.ndarray:
     return M
 
 
+def band_matrix(x: np.ndarray, xt: np.ndarray) -> np.ndarray:
+    """Rows averaging data on ``x`` over a triangular band-pass at each ``xt`` (m, n).
+
+    The band of ``xt[i]`` rises linearly from ``xt[i-1]`` to 1 at ``xt[i]``
+    and falls to 0 at ``xt[i+1]`` (at the ends the neighbouring step is
+    mirrored): on a uniform output grid a triangle whose full width at half
+    maximum is the step. Each row is ∫ T(λ) f(λ) dλ / ∫ T(λ) dλ for the
+    piecewise-linear f through the data, integrated exactly (on each
+    interval between data points and triangle knots the product is
+    quadratic, so Simpson's rule is exact), over the part of the band the
+    data cover.
+
+    References
+    ----------
+    CIE 167:2005, *Recommended practice for tabulating spectral data for use
+    in colour computations* (triangular band-pass of width equal to the
+    interval; from memory). ASTM E2729-09, *Standard practice for
+    rectification of spectrophotometric bandpass differences*. docs/methods.md §1.
+    """
+    m = xt.size
+    d = np.diff(xt)
+    left = np.concatenate([[d[0] if m > 1 else 1.0], d])
+    right = np.concatenate([d, [d[-1] if m > 1 else 1.0]])
+    M = np.zeros((m, x.size))
+    for i in range(m):
+        a, c, b = xt[i] - left[i], xt[i], xt[i] + right[i]
+        lo, hi = max(a, x[0]), min(b, x[-1])
+        if hi <= lo:
+            continue
+        knots = np.unique(np.concatenate([[lo, hi], x[(x > lo) & (x < hi)], [c] if lo < c < hi else []]))
+        p, q = knots[:-1], knots[1:]
+        mid = 0.5 * (p + q)
+
+        def tri(t):
+            return np.where(t <= c, (t - a) / (c - a), (b - t) / (b - c))
+
+        w = (q - p) / 6.0
+        row = (w * tri(p)) @ _linear_matrix(x, p) + (4 * w * tri(mid)) @ _linear_matrix(x, mid) \
+            + (w * tri(q)) @ _linear_matrix(x, q)
+        M[i] = row / row.sum()
+    return M
+
+
+def coarsening_method(wavelengths, target, preference: str = "interpolation") -> str:
+    """``'band'`` when ``preference`` is ``'band'`` and the data are at least as fine as ``target``, else ``'auto'``.
+
+    A design (``[grid] resampling = "band"``) asks for band averaging; data
+    coarser than the grid can only be interpolated.
+    """
+    if preference != "band":
+        return "auto"
+    x = np.asarray(wavelengths, dtype=float)
+    xt = np.asarray(target, dtype=float)
+    if x.size < 2 or xt.size < 2:
+        return "auto"
+    return "band" if np.max(np.diff(x)) <= np.min(np.diff(xt)) + 1e-9 else "auto"
+
+
 def _spline_matrix(x: np.ndarray, xt: np.ndarray) -> np.ndarray:
     from scipy.interpolate import CubicSpline
 
@@ -187,7 +247,9 @@ def _cached_matrix(x_key: bytes, xt_key: bytes, method: str, extrapolation: str)
     xt = np.frombuffer(xt_key, dtype=float)
     inside = (xt >= x[0] - 1e-9) & (xt <= x[-1] + 1e-9)
     xi = np.clip(xt, x[0], x[-1])
-    if method == "sprague":
+    if method == "band":
+        M = band_matrix(x, xt)
+    elif method == "sprague":
         M = _sprague_matrix(x, xi)
     elif method == "cubic-spline":
         M = _spline_matrix(x, xi)
@@ -196,7 +258,7 @@ def _cached_matrix(x_key: bytes, xt_key: bytes, method: str, extrapolation: str)
     # Exact nodes reproduce the data exactly (guards against rounding).
     idx = np.searchsorted(x, xt)
     exact = (idx < x.size) & (np.abs(x[np.minimum(idx, x.size - 1)] - xt) <= 1e-9)
-    for r in np.flatnonzero(exact):
+    for r in np.flatnonzero(exact & (method != "band")):
         M[r] = 0.0
         M[r, idx[r]] = 1.0
     if extrapolation == "zero":
@@ -227,9 +289,13 @@ def resampling_matrix(
         Source grid, strictly increasing.
     target : (m,) array_like, nm
         Target grid, strictly increasing.
-    method : {'auto', 'sprague', 'cubic-spline', 'linear'}
+    method : {'auto', 'sprague', 'cubic-spline', 'linear', 'band'}
         ``'auto'`` chooses Sprague for uniform data with at least 6 points and
-        a not-a-knot cubic spline otherwise (CIE 167:2005).
+        a not-a-knot cubic spline otherwise (CIE 167:2005). ``'band'``
+        averages over each output band with a triangular band-pass
+        (:func:`band_matrix`), for coarsening a finely sampled export: it
+        keeps the energy in each band where point sampling would alias
+        narrow lines.
     extrapolation : {'none', 'constant', 'zero'}
         ``'none'`` raises :class:`RangeCoverageError` when the target reaches
         outside the source; ``'constant'`` repeats the end values (CIE
@@ -273,6 +339,10 @@ def resampling_matrix(
                 f"Sprague interpolation needs at least 6 points (got {x.size}); "
                 "use method='linear'"
             )
+    if method == "band" and xt.size > 1 and np.max(np.diff(x)) > np.min(np.diff(xt)) + 1e-9:
+        raise WorkbenchError(
+            f"band averaging is for coarsening: the output step ({np.min(np.diff(xt)):g} nm) must be at "
+            f"least the data's ({np.max(np.diff(x)):g} nm); use interpolation (method='auto')")
     if extrapolation == "none" and (xt[0] < x[0] - 1e-9 or xt[-1] > x[-1] + 1e-9):
         raise RangeCoverageError(
             f"data cover {x[0]:g}-{x[-1]:g} nm but {xt[0]:g}-{xt[-1]:g} nm is needed; "
@@ -312,6 +382,8 @@ _METHOD_SOURCE = {
     "sprague": "Sprague interpolation (CIE 167:2005)",
     "cubic-spline": "not-a-knot cubic spline (CIE 167:2005, non-uniform data)",
     "linear": "linear interpolation",
+    "band": ("averaging over each output band with a triangular band-pass from the previous to the "
+             "next output wavelength (FWHM = the step; CIE 167:2005, ASTM E2729-style)"),
 }
 
 

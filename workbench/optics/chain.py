@@ -13,7 +13,7 @@ import numpy as np
 
 from workbench.errors import WorkbenchError
 from workbench.model.design import CHANNELS, Design, Element
-from workbench.model.spectra import Spectra
+from workbench.model.spectra import Spectra, coarsening_method
 from workbench.optics import elements as optics
 
 __all__ = ["ElementCurve", "ChainModel", "uncovered"]
@@ -89,7 +89,8 @@ class ChainModel:
             if extrapolation == "none" and not s.covers(self.wavelengths[0], self.wavelengths[-1]):
                 raise WorkbenchError(
                     f"{key} {e.name!r} ({file}): " + uncovered(s, self.wavelengths, "element"))
-            s = s.resample(self.wavelengths, extrapolation=extrapolation)
+            s = s.resample(self.wavelengths, extrapolation=extrapolation,
+                           method=coarsening_method(s.wavelengths, self.wavelengths, design.grid.resampling))
             notes.extend(s.notes)
             self._tables[e.name] = s.values
         self.notes = tuple(notes)

@@ -49,6 +49,9 @@ def register(sub) -> None:
     p.add_argument("--resample", type=float, metavar="STEP_NM", default=None,
                    help="resample onto a uniform grid of this step first (Sprague for uniform, "
                    "cubic spline for non-uniform data, CIE 167); needed for non-uniform files")
+    p.add_argument("--band", action="store_true",
+                   help="with --resample to a coarser step: average over each output band with a triangular "
+                   "band-pass (CIE 167, ASTM E2729-style) instead of interpolating")
     p.add_argument("--relative", action="store_true",
                    help="emission: scale each spectrum to Y = 100 even when its units are absolute")
     p.add_argument("--format", choices=FORMATS, default="table", help="output format (default: table)")
@@ -82,7 +85,7 @@ def run(args) -> int:
         check_step(float(lo), float(hi), step, what="--resample")
         start = np.ceil(lo / step - 1e-9) * step
         stop = np.floor(hi / step + 1e-9) * step
-        spectra = spectra.resample(grid(start, stop, step))
+        spectra = spectra.resample(grid(start, stop, step), method="band" if args.band else "auto")
     elif not spectra.uniform:
         raise WorkbenchError(
             f"{args.file}: wavelengths are not equally spaced ({spectra.describe_grid()}); "
