@@ -1,14 +1,15 @@
 """Every notebook runs headlessly from top to bottom with no error output."""
 
-from pathlib import Path
 
 import nbformat
 import pytest
 from nbclient import NotebookClient
 
+from workbench import notebooks_dir
+
 pytestmark = pytest.mark.slow  # each notebook starts a kernel and runs the analyses end to end
 
-NOTEBOOKS = sorted((Path(__file__).parents[1] / "notebooks").glob("*.ipynb"))
+NOTEBOOKS = sorted(notebooks_dir().glob("*.ipynb"))
 
 
 @pytest.mark.parametrize("path", NOTEBOOKS, ids=[p.name for p in NOTEBOOKS])
