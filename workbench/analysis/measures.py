@@ -115,8 +115,11 @@ def vora_value(S, X, illuminant_rec=None, illuminant_view=None):
 
     Examples
     --------
-    >>> X = np.random.default_rng(0).random((31, 3))
-    >>> round(float(vora_value(X @ [[1, 2, 0], [0, 1, 0], [3, 0, 1]], X)), 12)
+    >>> from workbench.colorimetry.cie import cmfs_on
+    >>> X = cmfs_on(np.arange(400.0, 701.0, 10.0)).values
+    >>> round(float(vora_value(X, X)), 12)  # the CIE functions themselves (Luther condition)
+    1.0
+    >>> round(float(vora_value(X @ [[1, 2, 0], [0, 1, 0], [3, 0, 1]], X)), 12)  # any invertible mix of them
     1.0
     """
     M = _weight(_as_matrix(S, "S"), illuminant_rec, "illuminant_rec")
