@@ -459,7 +459,7 @@ def bound_cost_text(row: dict) -> str:
 LOCAL_TOLERANCES = {"ftol": 1e-12, "xtol": 1e-10, "gtol": 1e-10}
 
 
-def _local(track: _Tracker, u0, lo, hi, nf, span, base):
+def _local(track: _Tracker, u0, lo, hi, nf, span, base, iterations=None):
     """One bounded least-squares run in normalised coordinates u ∈ [0, 1] (filters) + raw matrix entries.
 
     Capped only by the tracker (the whole fit's budget and time): the
@@ -484,16 +484,20 @@ def _local(track: _Tracker, u0, lo, hi, nf, span, base):
         return ((R[1:] - R[0]) / (sign * h)[:, None]).T
 
     r = least_squares(fun, u0, jac=jac, bounds=(lo, hi), method="trf", x_scale=1.0,
-                      max_nfev=track.remaining() + 1, **LOCAL_TOLERANCES)
+                      max_nfev=(track.remaining() + 1) if iterations is None else iterations,
+                      **LOCAL_TOLERANCES)
     return bool(r.success and r.status > 0), str(r.message).rstrip(".")
 
+
+#: Iterations of the short local runs from each multi-start candidate before the best is run to convergence.
+SHORT_RUN = 12
 
 #: The quasi-Newton run's convergence test: L-BFGS-B's own, or a projected gradient (normalised
 #: coordinates: a parameter's whole range = 1) no larger than this fraction of the cost.
 PROJECTED_GRADIENT_TOL = 1e-4
 
 
-def _local_quasi_newton(track: _Tracker, u0, lo, hi, nf, span, base):
+def _local_quasi_newton(track: _Tracker, u0, lo, hi, nf, span, base, iterations=None):
     """One bounded quasi-Newton run (L-BFGS-B) on the cost Σr², the gradient from one batch of forward differences.
 
     For large-residual objectives (ΔE00 of order 1) where Gauss-Newton
@@ -523,7 +527,8 @@ def _local_quasi_newton(track: _Tracker, u0, lo, hi, nf, span, base):
 
     bounds = [(float(a) if np.isfinite(a) else None, float(b) if np.isfinite(b) else None) for a, b in zip(lo, hi)]
     r = minimize(fg, u0, jac=True, method="L-BFGS-B", bounds=bounds,
-                 options={"maxfun": track.remaining() + 1, "maxiter": 10 ** 9, "ftol": 1e-12,
+                 options={"maxfun": track.remaining() + 1,
+                          "maxiter": 10 ** 9 if iterations is None else iterations, "ftol": 1e-12,
                           "gtol": 1e-9, "maxcor": 20})
     g = np.asarray(r.jac, dtype=float)
     u = r.x
@@ -693,6 +698,15 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
             bx = track.best_x
             starts = [np.concatenate([(bx[:nf] - base) / span, m0])]
         local = _local_quasi_newton if fit.objective == "mean-delta-e00" else _local
+        if len(starts) > 1:
+            # a short local run from each candidate, then the best point found run to convergence
+            for i, u0 in enumerate(starts):
+                track.tag = ("short", i)
+                ok, message = local(track, np.clip(u0, lo, hi), lo, hi, nf, span, base, iterations=SHORT_RUN)
+                if ok:
+                    converged_runs.add(("short", i))
+            bx = track.best_x
+            starts = [np.concatenate([(bx[:nf] - base) / span, bx[nf:]])]
         for i, u0 in enumerate(starts):
             track.tag = ("local", i)
             ok, message = local(track, np.clip(u0, lo, hi), lo, hi, nf, span, base)
