@@ -339,6 +339,9 @@ def _check_element(c: _Checker, v, i: int) -> Element | None:
             ok = False
         else:
             options.append((k, val))
+    if etype == "glass" and t.get("transmittance") == "total" and t.get("reflection") == "none":
+        c.bad(key, 'one statement of what the file holds: transmittance = "total" (faces included) '
+              'contradicts reflection = "none" (an internal transmittance with no faces)', show_got=False)
     if etype == "sensor-qe" and "column" in t and "columns" in t:
         c.bad(key, "either column (one curve for all channels) or columns (one per channel), not both",
               show_got=False)

@@ -499,6 +499,7 @@ ELEMENT_TYPES: dict[str, tuple[dict[str, ParamSpec], dict[str, tuple]]] = {
         "file": ("file", True, None), "column": ("str", False, None),
         "measured_thickness_mm": ("positive", True, None),
         "reflection": (optics.REFLECTION_MODELS, False, "approx"),
+        "transmittance": (optics.GLASS_DATA, False, None),
         "extrapolation": (EXTRAPOLATIONS, False, "none"),
     }),
     "long-pass": ({

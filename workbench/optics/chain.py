@@ -7,6 +7,7 @@ with plain numpy; :class:`ElementCurve` is one element's curve per channel.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -56,6 +57,7 @@ class ChainModel:
         self.design = design
         self.wavelengths = design.grid.wavelengths
         self._tables: dict[str, np.ndarray] = {}
+        self._glass_data: dict[str, str] = {}
         notes: list[str] = []
         self.units = "1"
         for i, e in enumerate(design.chain):
@@ -85,6 +87,8 @@ class ChainModel:
                     f"{key}: expected column {missing[0]!r} in {file} (it holds {', '.join(s.names[:6])})"
                 )
             s = s.select(names)
+            if e.type == "glass":
+                self._glass_data[e.name] = self._glass_holds(e, key, file, names[0], notes)
             extrapolation = e.option("extrapolation", "none")
             if extrapolation == "none" and not s.covers(self.wavelengths[0], self.wavelengths[-1]):
                 raise WorkbenchError(
@@ -95,6 +99,31 @@ class ChainModel:
             self._tables[e.name] = s.values
         self.notes = tuple(notes)
         self._memo: dict[str, tuple] = {}
+
+    @staticmethod
+    def _glass_holds(e: Element, key: str, file: str, column: str, notes: list) -> str:
+        """'total' or 'internal': the element's ``transmittance`` key, else its column's header.
+
+        A header naming internal transmittance (Ti, τi, 'internal') is read
+        as such; a key contradicting the header is refused.
+        """
+        said = e.option("transmittance")
+        bare = re.sub(r"\s*(?:[(\[][^()\[\]]*[)\]]|%)\s*$", "", column.strip())
+        header_internal = (re.fullmatch(r"ti|τi|t_i|τ_i|tint", bare, re.IGNORECASE) is not None
+                           or re.search(r"(?<![a-z])internal(?![a-z])", column, re.IGNORECASE) is not None)
+        if e.option("reflection") == "none":
+            return "internal"
+        if said is None:
+            if header_internal:
+                notes.append(f"{key} {e.name!r} ({file}): column {column!r} read as internal transmittance "
+                             "(its header says so); the faces are added from refractive_index")
+                return "internal"
+            return "total"
+        if said == "total" and header_internal:
+            raise WorkbenchError(
+                f"{key} {e.name!r} ({file}): the header {column!r} says internal transmittance but "
+                'transmittance = "total"; set transmittance = "internal" (or name the column as total)')
+        return said
 
     def parameter_names(self) -> tuple[str, ...]:
         return tuple(self.design.parameters())
@@ -118,7 +147,7 @@ class ChainModel:
         if t == "glass":
             return optics.glass_transmittance(
                 self._tables[e.name][0], e.option("measured_thickness_mm"), g("thickness_mm"),
-                g("refractive_index"), reflection=e.option("reflection"))
+                g("refractive_index"), reflection=e.option("reflection"), data=self._glass_data[e.name])
         if t in ("long-pass", "short-pass"):
             return optics.edge(wl, g("center_nm"), g("width_nm"), kind=t, shape=e.option("shape"),
                                pass_level=g("pass_level"), block_level=g("block_level"))

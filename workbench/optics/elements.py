@@ -54,6 +54,7 @@ __all__ = [
     "EDGE_SHAPES",
     "EDGE_KINDS",
     "REFLECTION_MODELS",
+    "GLASS_DATA",
     "SPLITTER_ORDERS",
     "angle_shifted_wavelength",
     "angle_shift_factor",
@@ -72,6 +73,8 @@ __all__ = [
 EDGE_SHAPES = ("logistic", "erf")
 EDGE_KINDS = ("long-pass", "short-pass")
 REFLECTION_MODELS = ("approx", "exact", "none")
+#: What a glass's measured curve holds: total (surfaces included) or internal transmittance.
+GLASS_DATA = ("total", "internal")
 SPLITTER_ORDERS = ("blue-first", "red-first")
 
 #: Second radiation constant, nm·K (CIE 15:2004).
@@ -248,7 +251,7 @@ def _total_from_tau(tau, n, model):
 
 
 def glass_transmittance(measured, measured_mm, thickness_mm, refractive_index=1.52, *,
-                        reflection="approx"):
+                        reflection="approx", data="total"):
     """Transmittance of an absorbing glass at ``thickness_mm`` from one measured at ``measured_mm``.
 
     Parameters
@@ -263,9 +266,15 @@ def glass_transmittance(measured, measured_mm, thickness_mm, refractive_index=1.
         Index n of the glass (one value for the band: the dispersion of the
         reflection loss is neglected).
     reflection : {'approx', 'exact', 'none'}
-        ``'approx'``: T = P_d·τ with P_d = 2n/(n²+1). ``'exact'``:
-        T = (1−R)²τ/(1−R²τ²), R = ((n−1)/(n+1))². ``'none'``: the curve is an
-        internal transmittance already (no surfaces).
+        The two faces in air: ``'approx'``: T = P_d·τ with P_d = 2n/(n²+1).
+        ``'exact'``: T = (1−R)²τ/(1−R²τ²), R = ((n−1)/(n+1))² (multiple
+        reflections between the faces, incoherent). ``'none'``: no faces (a
+        glass cemented or immersed); the curve is then an internal
+        transmittance.
+    data : {'total', 'internal'}
+        What ``measured`` is: the total transmittance of the sample (faces
+        included; the faces are taken out by ``reflection`` to get τ), or its
+        internal transmittance τ (only the faces of the result are added).
 
     Returns
     -------
@@ -302,12 +311,13 @@ def glass_transmittance(measured, measured_mm, thickness_mm, refractive_index=1.
     if np.any(~(n >= 1)):
         raise WorkbenchError(f"refractive_index must be >= 1 (got {refractive_index})")
     n = np.broadcast_to(n, np.broadcast_shapes(n.shape, d.shape))
-    tau0 = _tau_from_total(T, n, reflection)
+    _choice(data, GLASS_DATA, "data")
+    tau0 = T if data == "internal" else _tau_from_total(T, n, reflection)
     if np.any(tau0 > 1 + 1e-12):
         raise WorkbenchError(
             "measured transmittance exceeds what the surfaces allow "
             f"(P_d = {float(np.min(reflection_factor(n))):.4f}); is the curve an internal "
-            "transmittance? then use reflection = 'none'"
+            "transmittance? then use transmittance = 'internal'"
         )
     tau = internal_transmittance_at(np.minimum(tau0, 1.0), measured_mm, d)
     return _total_from_tau(tau, n, reflection)
