@@ -53,6 +53,7 @@ class TestImportedModules:
         assert "numpy" not in names
 
     @pytest.mark.slow  # a whole fit in a fresh interpreter
+    @pytest.mark.slow
     def test_fit_without_report(self, tmp_path):
         """``fit --no-report`` uses scipy.optimize but draws nothing: no matplotlib, pandas, colour, dask."""
         names, proc = imported_modules("fit", str(ROOT / "spectra-demo/tern3_design.toml"), "--out",
