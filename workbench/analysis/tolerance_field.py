@@ -7,7 +7,7 @@ See :func:`field_shift`; part of the analysis described in
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -16,7 +16,7 @@ from workbench.model.design import Design, FieldPosition
 from workbench.errors import WorkbenchError
 
 __all__ = ["DEFAULT_EDGE_OFFSET_DEG", "DEFAULT_CORNER_OFFSET_DEG", "default_field_positions", "splitter_element", "FieldShift",
-           "field_shift"]
+           "field_shift", "angle_in_glass"]
 
 #: Default field positions when the design gives none: the chief-ray angle in the prism glass at
 #: the image edge differs by ±3° from the centre (a near-telecentric camera lens, common practice),
@@ -34,6 +34,24 @@ def default_field_positions() -> tuple[FieldPosition, ...]:
     e, c = DEFAULT_EDGE_OFFSET_DEG, DEFAULT_CORNER_OFFSET_DEG
     return (FieldPosition("centre", 0.0), FieldPosition(f"edge −{e:g}°", -e), FieldPosition(f"edge +{e:g}°", e),
             FieldPosition(f"corner −{c:g}°", -c), FieldPosition(f"corner +{c:g}°", c))
+
+
+def angle_in_glass(field_angle_deg: float, medium_index: float) -> float:
+    """A ray's angle in the prism glass (degrees) from its angle in air at the entrance face.
+
+    Snell's law at a face normal to the axis: sin θ_glass = sin θ_air / n
+    (n the splitter's ``medium_index``; 1 leaves the angle as it is).
+
+    References
+    ----------
+    Smith, W. J. (2008). *Modern Optical Engineering*, 4th ed., Ch. 2 (refraction). docs/methods.md §16.
+
+    Examples
+    --------
+    >>> round(angle_in_glass(10.0, 1.52), 4)
+    6.5599
+    """
+    return math.degrees(math.asin(math.sin(math.radians(field_angle_deg)) / medium_index))
 
 
 def splitter_element(design: Design):
@@ -75,7 +93,8 @@ class FieldShift:
         for f, p in enumerate(self.positions):
             for j, ill in enumerate(self.illuminants):
                 out.append({
-                    "position": p.name, "aoi_offset_deg": p.aoi_offset_deg, "illuminant": ill,
+                    "position": p.name, "aoi_offset_deg": p.aoi_offset_deg, "field_angle_deg": p.field_angle_deg,
+                    "illuminant": ill,
                     "blue_green_aoi_deg": self.aoi_deg["blue_green"][f],
                     "green_red_aoi_deg": self.aoi_deg["green_red"][f],
                     "sample_shift_mean": float(self.sample_shift_mean[f, j]),
@@ -153,6 +172,9 @@ def field_shift(design: Design, *, evaluator=None, matrices=None, positions=None
     params = dict(sp.params)
     bg0 = params["blue_green_aoi_deg"].value
     gr0 = params["green_red_aoi_deg"].value
+    n_glass = float(params["medium_index"].value)
+    pos = tuple(p if p.field_angle_deg is None else replace(p, aoi_offset_deg=angle_in_glass(p.field_angle_deg, n_glass))
+                for p in pos)
     off = np.array([0.0] + [p.aoi_offset_deg for p in pos])
     bg, gr = bg0 + off, gr0 + off
     for what, a in (("blue_green_aoi_deg", bg), ("green_red_aoi_deg", gr)):
@@ -177,8 +199,10 @@ def field_shift(design: Design, *, evaluator=None, matrices=None, positions=None
     lab_g = b.lab_of(grey * Cw, M)
     dw = delta_E_CIE2000(lab_w, lab_w[0][None])[..., 0]
     dg = delta_E_CIE2000(lab_g, lab_g[0][None])[..., 0]
+    snell = (f"; field angles given in air turned into the glass (n = {n_glass:g}) by Snell's law at the "
+             "entrance face, sin θ_glass = sin θ_air / n" if any(p.field_angle_deg is not None for p in pos) else "")
     method = ("chief-ray angle on both splitter faces = centre angle + aoi_offset_deg (in glass; field in the "
-              "plane of tilt, a simplification); white balance (raw white at the centre) and the nominal matrix "
+              f"plane of tilt, a simplification{snell}); white balance (raw white at the centre) and the nominal matrix "
               "for the whole image; shift = CIEDE2000 of each sample, of the perfect diffuser (white) and of "
               f"a flat {grey:g} grey against the same at the centre; delta_E00_mean = mean CIEDE2000 against the truth")
     return FieldShift(

@@ -629,8 +629,20 @@ def _check_tolerance(c: _Checker, v) -> ToleranceSpec | None:
             f = c.table(f, key)
             if f is None:
                 continue
-            c.unknown(f, ("name", "aoi_offset_deg"), key)
+            c.unknown(f, ("name", "aoi_offset_deg", "field_angle_deg"), key)
             name = c.string(f.get("name"), f"{key}.name")
+            if "field_angle_deg" in f:
+                a = None
+                fa = _number(f.get("field_angle_deg"))
+                if "aoi_offset_deg" in f:
+                    c.bad(key, "either aoi_offset_deg (in the prism glass) or field_angle_deg (in air), not both",
+                          show_got=False)
+                elif fa is None or not -60 <= fa <= 60:
+                    c.bad(f"{key}.field_angle_deg", "a number of degrees in [-60, 60]", f.get("field_angle_deg"))
+                elif name is not None:
+                    # turned into the glass when the splitter's medium_index is known (tolerance_field)
+                    field_.append(FieldPosition(name, fa, fa))
+                continue
             a = _number(f.get("aoi_offset_deg"))
             if a is None or not -30 <= a <= 30:
                 c.bad(f"{key}.aoi_offset_deg", "a number of degrees in [-30, 30]", f.get("aoi_offset_deg"))
@@ -888,7 +900,8 @@ def design_to_dict(d: Design, rebase=None) -> dict:
         tol: dict[str, Any] = {"max_mean_delta_E00": d.tolerance.max_mean_delta_E00,
                                "min_vora": d.tolerance.min_vora}
         if d.tolerance.field:
-            tol["field"] = [{"name": f.name, "aoi_offset_deg": f.aoi_offset_deg} for f in d.tolerance.field]
+            tol["field"] = [{"name": f.name, "aoi_offset_deg": f.aoi_offset_deg} if f.field_angle_deg is None
+                            else {"name": f.name, "field_angle_deg": f.field_angle_deg} for f in d.tolerance.field]
         out["tolerance"] = tol
     if d.matrix is not None:
         m: dict[str, Any] = {"method": d.matrix.method, "scope": d.matrix.scope}

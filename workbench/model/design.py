@@ -271,10 +271,17 @@ class FittedMatrix:
 
 @dataclass(frozen=True)
 class FieldPosition:
-    """A position in the image where the chief ray meets the splitter at a different angle."""
+    """A position in the image where the chief ray meets the splitter at a different angle.
+
+    ``aoi_offset_deg`` is the change of angle in the prism glass; or
+    ``field_angle_deg`` gives the chief ray's angle in air at the entrance
+    face, turned into the glass by Snell's law (``aoi_offset_deg`` then
+    holds the angle in glass it gives).
+    """
 
     name: str
     aoi_offset_deg: float
+    field_angle_deg: float | None = None
 
 
 @dataclass(frozen=True)
