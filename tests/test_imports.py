@@ -36,8 +36,9 @@ class TestImportedModules:
         ("--help",),
         ("evaluate", "spectra-demo/tern3_design.toml"),
         ("tristimulus", "spectra-demo/studio_reflectances.csv"),
+        ("tristimulus", "spectra-demo/studio_reflectances.csv", "--method", "astm-e308"),
         ("primaries", "ITU-R BT.709"),
-    ], ids=["help", "evaluate", "tristimulus", "primaries"])
+    ], ids=["help", "evaluate", "tristimulus", "tristimulus-astm", "primaries"])
     def test_no_heavy_module(self, args):
         """The command runs and imports none of colour, matplotlib, pandas, dask, scipy.optimize, ipywidgets."""
         names, proc = imported_modules(*args)

@@ -250,3 +250,23 @@ class TestWeightsApply:
         with pytest.raises(WorkbenchError) as e:
             w.apply(np.ones((2, 5)))
         assert str(e.value) == "values have 5 wavelengths but the weights 41"
+
+
+class TestE2022Weights:
+    @pytest.mark.parametrize("observer, illuminant, step, start, end", [
+        ("2", "D65", 10, 360, 780), ("2", "A", 20, 380, 760), ("10", "D50", 10, 400, 700), ("2", "FL2", 20, 420, 780)])
+    def test_equal_to_colour(self, observer, illuminant, step, start, end):
+        """ASTM E2022 weights (with the E308 end folding) equal colour-science's bit for bit (reference library)."""
+        from colour.colorimetry import (adjust_tristimulus_weighting_factors_ASTME308,
+                                        tristimulus_weighting_factors_ASTME2022)
+
+        wl1 = grid(360, 780, 1)
+        cm1 = cmfs_on(wl1, observer).values
+        _, s1 = illuminant_on(wl1, illuminant, interpolation="linear" if illuminant in ("D65", "A") else "sprague")
+        full = colour.SpectralShape(360, 780, step)
+        ref = tristimulus_weighting_factors_ASTME2022(colour.MultiSpectralDistributions(cm1, wl1),
+                                                      colour.SpectralDistribution(s1.values, wl1), full)
+        if (start, end) != (360, 780):
+            ref = adjust_tristimulus_weighting_factors_ASTME308(ref, full, colour.SpectralShape(start, end, step))
+        ours = object_weights(grid(start, end, step), illuminant=illuminant, observer=observer, method="astm-e308")
+        np.testing.assert_array_equal(ours.W, ref)

@@ -20,7 +20,7 @@ Methods
     ASTM E308-15: for 10 and 20 nm data, the Table 5-style weighting factors
     (computed by ASTM E2022 from the 1 nm functions and illuminant, over
     360-780 nm, then with the weights outside the data's range added to the
-    end points); for 1 and 5 nm data, summation as above over 360-780 nm.
+    end points; our own code, equal bit for bit to colour-science's); for 1 and 5 nm data, summation as above over 360-780 nm.
     The 1 nm illuminant for E2022 is A from its formula, D65 linearly
     interpolated (as the CIE's 1 nm table is) and any other table by Sprague
     interpolation, which reproduces the E308 whites of C and D50.
@@ -211,15 +211,60 @@ def _astm_summation_weights(wl, step, observer, illuminant_key) -> Weights:
     return Weights(wl, W, observer, name, "astm-e308", tuple(notes))
 
 
-def _astm_weights(wl, step, observer, illuminant_key) -> Weights:
-    # Late import, the only one of colour-science on the tristimulus path: the
-    # ASTM E2022 weighting factors for 10 and 20 nm data are its computation.
-    import colour
-    from colour.colorimetry import (
-        adjust_tristimulus_weighting_factors_ASTME308,
-        tristimulus_weighting_factors_ASTME2022,
-    )
+def _lagrange(r: float, n: int) -> np.ndarray:
+    """Lagrange interpolating coefficients (n,) at ``r`` for the nodes 0, 1, …, n − 1 (ASTM E2022 § 6)."""
+    out = []
+    for j in range(n):
+        c = None
+        for i in range(n):
+            if i != j:
+                term = (r - i) / (j - i)
+                c = term if c is None else c * term
+        out.append(c)
+    return np.array(out)
 
+
+def _e2022_coefficients(interval: int, inner: bool) -> np.ndarray:
+    """(interval − 1, 4 or 3) Lagrange coefficients of an inner (cubic, 4 nodes) or end (quadratic) interval."""
+    r = np.linspace(1 / interval, 1 - 1 / interval, interval - 1)
+    return np.array([_lagrange(x, 4) for x in r + 1]) if inner else np.array([_lagrange(x, 3) for x in r])
+
+
+def _e2022_weights(Y: np.ndarray, S: np.ndarray, interval: int) -> np.ndarray:
+    """ASTM E2022-11 weighting factors (m, 3) at ``interval`` nm from 1 nm x̄ȳz̄ ``Y`` (n, 3) and SPD ``S`` (n,).
+
+    Each 1 nm product S·x̄ between two measurement points is shared among
+    the neighbouring points by Lagrange interpolation (cubic inside, quadratic
+    in the first and last interval); normalised to Y = 100 for the perfect
+    diffuser. The same sums in the same order as colour-science's
+    ``tristimulus_weighting_factors_ASTME2022`` (tested equal).
+    """
+    W = S[::interval, None] * Y[::interval, :]
+    c_c = _e2022_coefficients(interval, inner=False)
+    c_b = _e2022_coefficients(interval, inner=True)
+    w_c = len(Y)
+    r_c = c_b.shape[0]
+    w_lif = w_c - (w_c - 1) % interval - 1 - r_c
+    i_c = W.shape[0]
+    i_cm = i_c - 1
+    for i in range(3):
+        for h in range(r_c):                                    # first interval
+            for g in range(3):
+                W[g, i] = W[g, i] + c_c[h, g] * S[h + 1] * Y[h + 1, i]
+        for h in range(r_c):                                    # last interval
+            for g in range(i_cm, i_cm - 3, -1):
+                W[g, i] = W[g, i] + c_c[r_c - h - 1, i_cm - g] * S[h + w_lif] * Y[h + w_lif, i]
+        for h in range(i_c - 3):                                # inner intervals
+            for g in range(r_c):
+                w_i = (r_c + 1) * (h + 1) + 1 + g
+                for k in range(4):
+                    W[h + k, i] = W[h + k, i] + c_b[g, k] * S[w_i] * Y[w_i, i]
+        for h in range(w_c - (w_c - 1) % interval, w_c):        # an incomplete last interval
+            W[i_cm, i] = W[i_cm, i] + S[h] * Y[h, i]
+    return W * (100 / np.sum(W, axis=0)[1])
+
+
+def _astm_weights(wl, step, observer, illuminant_key) -> Weights:
     if step not in (10.0, 20.0) or wl[0] % 10 or wl[-1] % 10:
         raise WorkbenchError(
             "ASTM E308 needs data at 1, 5, 10 or 20 nm, and 10/20 nm data starting and "
@@ -246,18 +291,23 @@ def _astm_weights(wl, step, observer, illuminant_key) -> Weights:
     name = canonical_illuminant(illuminant_key)
     how = "linear" if name in ("D65", "A") else "sprague"
     name, ill1 = illuminant_on(wl1, name, interpolation=how)
-    cmfs = colour.MultiSpectralDistributions(cm1, wl1)
-    ill = colour.SpectralDistribution(ill1.values, wl1)
-    full = colour.SpectralShape(lo, lo + step * math.floor((hi - lo) / step), step)
-    W = tristimulus_weighting_factors_ASTME2022(cmfs, ill, full)
+    interval = int(step)
+    W = _e2022_weights(np.array(cm1, dtype=float), np.array(ill1.values, dtype=float), interval)
     notes = [
         f"{observer_label(observer)} colour-matching functions, tabulated values",
         f"{ill1.note}, at 1 nm for ASTM E2022",
         f"ASTM E308 weighting factors at {step:g} nm (ASTM E2022 over {lo:g}-{hi:g} nm)",
     ]
-    target = colour.SpectralShape(wl[0], wl[-1], step)
-    if (wl[0], wl[-1]) != (full.start, full.end):
-        W = adjust_tristimulus_weighting_factors_ASTME308(W, full, target)
+    end = lo + step * math.floor((hi - lo) / step)
+    if (wl[0], wl[-1]) != (lo, end):
+        # ASTM E308 § 7.3: the weights outside the data's range added to its end points, one by one.
+        first = int((wl[0] - lo) / step)
+        for i in range(first):
+            W[first] += W[i]
+        last = int((end - wl[-1]) / step)
+        for i in range(last):
+            W[-last - 1] += W[-i - 1]
+        W = W[first:-last or None]
         notes.append(
             f"weights outside {wl[0]:g}-{wl[-1]:g} nm added to the end points (ASTM E308 § 7.3)"
         )
