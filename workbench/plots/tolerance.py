@@ -13,7 +13,7 @@ import math
 
 import numpy as np
 
-from workbench.plots._canvas import new_figure
+from workbench.plots._canvas import new_figure, place_axes
 
 __all__ = ["plot_histograms", "plot_ranking", "plot_field_shift"]
 
@@ -75,7 +75,8 @@ def plot_histograms(result, *, case: str | None = None, fig=None):
     nom = result.nominal[case]
     ills = result.illuminants
     spec = result.spec
-    fig = _figure(12.5, 7.2, fig)
+    fig = new_figure(12.5, 7.2, fig)  # fixed margins (inches): the same texts every time, no layout engine
+    place_axes(fig, left=0.7, right=0.15, top=0.55, bottom=0.55, hspace=0.8, wspace=0.75, rows=2, cols=3)
     axes = fig.subplots(2, 3)
     # ν
     ax = axes[0, 0]
@@ -83,7 +84,7 @@ def plot_histograms(result, *, case: str | None = None, fig=None):
     ax.axvline(float(result.nominal["vora_value"][0]), color="k", ls=":", lw=1.2, label="nominal")
     ax.axvline(spec.min_vora, color="k", ls="--", lw=1.0, label=f"spec ν ≥ {spec.min_vora:g}")
     ax.set_xlabel("Vora value ν (1, 0-1)")
-    ax.set_title("Vora value", fontsize="small")
+    ax.set_title("Vora value", fontsize="small", y=1.0)
     ax.legend(fontsize="x-small")
     # mean, max ΔE00
     for ax, key, title in ((axes[0, 1], "delta_E00_mean", "mean ΔE00 over the samples"),
@@ -95,7 +96,7 @@ def plot_histograms(result, *, case: str | None = None, fig=None):
             ax.axvline(spec.max_mean_delta_E00, color="k", ls="--", lw=1.0,
                        label=f"spec ≤ {spec.max_mean_delta_E00:g}")
         ax.set_xlabel(_DE)
-        ax.set_title(f"{title} (dotted: nominal)", fontsize="small")
+        ax.set_title(f"{title} (dotted: nominal)", fontsize="small", y=1.0)
         ax.legend(fontsize="x-small")
     # gains
     for ax, i, name in ((axes[1, 0], 0, "R/G"), (axes[1, 1], 2, "B/G")):
@@ -104,7 +105,7 @@ def plot_histograms(result, *, case: str | None = None, fig=None):
             _hist(ax, g, color=f"C{j}", label=ill)
             ax.axvline(float(nom["gains"][0, j, i] / nom["gains"][0, j, 1]), color=f"C{j}", ls=":", lw=1.2)
         ax.set_xlabel(f"white-balance gain {name} (1, ratio to the green gain)")
-        ax.set_title(f"white-balance gain {name} (dotted: nominal)", fontsize="small")
+        ax.set_title(f"white-balance gain {name} (dotted: nominal)", fontsize="small", y=1.0)
         ax.legend(fontsize="x-small")
     # noise gain
     ax = axes[1, 2]
@@ -113,7 +114,7 @@ def plot_histograms(result, *, case: str | None = None, fig=None):
         ax.axvline(float(nom["noise_gain"][0, 0, i]), color=col, ls=":", lw=1.2)
     _constant_note(ax, a["noise_gain"][:, 0, :])
     ax.set_xlabel("noise gain (1, row 2-norm of the matrix)")
-    ax.set_title(f"noise gain under {ills[0]}", fontsize="small")
+    ax.set_title(f"noise gain under {ills[0]}", fontsize="small", y=1.0)
     ax.legend(fontsize="x-small")
     for ax in axes.ravel():
         ax.set_ylabel("trials")
