@@ -168,6 +168,7 @@ class TestFitStatus:
         (["--illuminant-weight", "moon=2"],
          "error: 'illuminant weight moon' must name one of the fit's illuminants (daylight, tungsten, "
          "stage-led) (got 'moon')"),
+        (["--front", "1"], "error: '--front' must be a whole number of points >= 2 (got 1)"),
         (["--max-evaluations", "0"], "error: '--max-evaluations' must be a whole number >= 1 (got 0)"),
         (["--max-evaluations", "-5"], "error: '--max-evaluations' must be a whole number >= 1 (got -5)"),
         (["--time-limit", "0"], "error: '--time-limit' must be a number of seconds > 0 (got 0)"),
@@ -229,3 +230,36 @@ def test_bound_costs_in_metrics(fitted):
     d = [c["d_cost"] for c in m["bound_costs"]]
     assert d == sorted(d)
     assert "Lagrange multiplier" in m["bound_costs_method"]
+
+
+class TestFrontOption:
+    @pytest.mark.slow  # three demo fits
+    def test_front_csv_and_report(self, tmp_path, capsys, demo_design_path):
+        """--front 3 writes front.csv (3 rows, t = 0 first, the written fit), prints it and plots it in the report."""
+        out = tmp_path / "o"
+        rc = main(["fit", str(demo_design_path), "--out", str(out), "--quiet", "--front", "3"])
+        assert rc == 0
+        rows = list(csv.DictReader((out / "front.csv").open()))
+        assert [float(r["t"]) for r in rows] == [0.0, 0.5, 1.0]
+        m = json.loads((out / "metrics.json").read_text())
+        assert float(rows[0]["mean_delta_E00"]) == pytest.approx(
+            np.mean([s["mean"] for s in m["delta_E00"].values()]), abs=1e-9)
+        ng = [float(r["noise_gain_rms"]) for r in rows]
+        assert ng == sorted(ng, reverse=True)
+        assert 'id="fig-front"' in (out / "report.html").read_text()
+        assert "accuracy against noise, 3 non-dominated points" in capsys.readouterr().out
+
+    def test_delta_e_matrix_refused(self, tmp_path, capsys, demo_design_path):
+        """--front with a ΔE00 matrix: one line, exit 2, before any work."""
+        import shutil
+
+        for f in demo_design_path.parent.glob("*.csv"):
+            shutil.copy(f, tmp_path / f.name)
+        p = tmp_path / "de.toml"
+        p.write_text(demo_design_path.read_text().replace('matrix = "least-squares"', 'matrix = "delta-e00"'))
+        rc = main(["fit", str(p), "--out", str(tmp_path / "o"), "--quiet", "--front", "3"])
+        assert rc == 2
+        err = capsys.readouterr().err.strip().splitlines()
+        assert err == ["error: '--front' needs a matrix computed by its rule ([fit] matrix = \"least-squares\" or "
+                       "\"white-preserving\"); a ΔE00 matrix is fitted freely and shrinks to zero at the noise-only "
+                       "end (got 'delta-e00')"]

@@ -532,3 +532,57 @@ class TestAcrossIlluminants:
             fit_design(demo_design, progress=False, illuminant_weights={"moon": 2.0})
         assert str(e.value) == ("'illuminant weight moon' must name one of the fit's illuminants "
                                 "(daylight, tungsten, stage-led) (got 'moon')")
+
+
+@pytest.fixture(scope="module")
+def front(tmp_path_factory):
+    """A 4-point front of the recovery design made inexact (its edge blocks 0.1, the QE assumes 0.3)."""
+    from workbench.analysis.fit import fit_front
+
+    p = _recovery_design(tmp_path_factory.mktemp("front"))
+    p.write_text(p.read_text().replace("block_level = 0.3", "block_level = 0.1"))
+    d = load_design(p)
+    ev = DesignEvaluator(d)
+    return d, ev, fit_front(d, 4, evaluator=ev, progress=False)
+
+
+class TestFront:
+    """The accuracy-noise front."""
+
+    def test_points_are_non_dominated(self, front):
+        """No point has an objective cost and a noise gain both as good as another's, one better (Miettinen 1999, § 2.2)."""
+        _, _, pts = front
+        assert len(pts) == 4
+        for i, p in enumerate(pts):
+            for j, q in enumerate(pts):
+                if i != j:
+                    a, b = (q["accuracy_cost"], q["noise_gain_rms"]), (p["accuracy_cost"], p["noise_gain_rms"])
+                    assert not (a[0] <= b[0] and a[1] <= b[1] and a != b)
+        ts = [p["t"] for p in pts]
+        assert ts == sorted(ts) and ts[0] == 0.0
+
+    def test_end_points_match_the_single_objective_fits(self, front):
+        """t = 0 is the accuracy fit; t = 1 equals a noise-only fit started from the design's own values."""
+        d, ev, pts = front
+        acc = fit_design(d, progress=False, evaluator=ev)
+        assert pts[0]["mean_delta_E00"] == pytest.approx(float(np.mean(acc.after.per_sample)), abs=1e-9)
+        rn = np.linalg.norm(acc.after.matrices, axis=-1)
+        g0 = float(np.sqrt(np.mean(rn ** 2)))
+        noise = fit_design(d, progress=False, evaluator=ev, _mix=(1.0, max(acc.cost_after, 1e-12), g0))
+        m = ev.with_design(noise.design).measures()
+        g1 = float(np.sqrt(np.mean(np.linalg.norm(m.matrices, axis=-1) ** 2)))
+        assert pts[-1]["t"] == 1.0
+        assert pts[-1]["noise_gain_rms"] == pytest.approx(g1, rel=1e-3)
+        assert pts[-1]["noise_gain_rms"] < pts[0]["noise_gain_rms"]
+
+    def test_delta_e_matrix_refused(self, tmp_path):
+        """A ΔE00 matrix has no noise-only end: refused in one line."""
+        from workbench.analysis.fit import fit_front
+
+        p = _recovery_design(tmp_path)
+        p.write_text(p.read_text().replace('objective = "vora"', 'objective = "mean-delta-e00"\nmatrix = "delta-e00"'))
+        with pytest.raises(WorkbenchError) as e:
+            fit_front(load_design(p), 3, progress=False)
+        assert str(e.value) == ("'--front' needs a matrix computed by its rule ([fit] matrix = \"least-squares\" or "
+                                "\"white-preserving\"); a ΔE00 matrix is fitted freely and shrinks to zero at the "
+                                "noise-only end (got 'delta-e00')")

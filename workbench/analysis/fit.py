@@ -27,7 +27,8 @@ from workbench.report.html import fit_result_html
 from workbench.report.json_text import json_text
 
 __all__ = ["FitResult", "FitStatus", "FIT_STATUS_TABLE", "fit_design", "FitStopped", "bound_costs",
-           "bound_cost_text", "parameter_unit", "ACROSS_ILLUMINANTS"]
+           "bound_cost_text", "parameter_unit", "ACROSS_ILLUMINANTS", "fit_front", "non_dominated", "check_front",
+           "FRONT_METHOD"]
 
 
 class FitStatus(IntEnum):
@@ -112,6 +113,7 @@ class FitResult:
     bound_costs: tuple[dict, ...] = ()
     across_illuminants: str = "weighted-mean"
     illuminant_weights: tuple[tuple[str, float], ...] = ()
+    front: tuple[dict, ...] = ()
 
     @property
     def converged(self) -> bool:
@@ -157,6 +159,7 @@ class FitResult:
             "bound_costs_method": BOUND_COSTS_METHOD,
             "across_illuminants": self.across_illuminants,
             "illuminant_weights": dict(self.illuminant_weights),
+            "front": list(self.front),
             "before": self.before.summary(),
             "after": self.after.summary(),
             "residual_per_wavelength": {
@@ -305,8 +308,9 @@ class _Objective:
     """
 
     def __init__(self, ev: DesignEvaluator, *, illuminant_weights=None, across="weighted-mean",
-                 noise_weight=None):
+                 noise_weight=None, mix=None):
         self.ev = ev
+        self.mix = mix
         fit = ev.design.fit
         names = ev.bench.illuminant_names
         w = dict(illuminant_weights or ())
@@ -337,6 +341,19 @@ class _Objective:
         return S, C, M
 
     def __call__(self, X) -> np.ndarray:
+        if self.mix is None:
+            return self._accuracy(X)
+        # a point of the accuracy-noise front: (1 − t)·cost/cost₀ + t·NG²/NG₀², NG² = mean_ij ‖m_ij‖²
+        t, e0, g0 = self.mix
+        X = np.atleast_2d(np.asarray(X, dtype=float))
+        _, _, M = self.parts(X)
+        rn = np.linalg.norm(M, axis=-1).reshape(X.shape[0], -1) / math.sqrt(M.shape[-3] * 3)
+        blocks = [math.sqrt(t) / g0 * rn]
+        if t < 1:
+            blocks.insert(0, math.sqrt((1 - t) / e0) * self._accuracy(X))
+        return np.concatenate(blocks, axis=-1)
+
+    def _accuracy(self, X) -> np.ndarray:
         if self.plain:
             return self.ev.residuals(X)
         X = np.atleast_2d(np.asarray(X, dtype=float))
@@ -374,7 +391,9 @@ class _Objective:
         d = ev.bench.delta_e(C, M)
         w = ev.bench.weights
         r = self(X)
+        rn = np.linalg.norm(M, axis=-1)
         return {
+            "noise_gain_rms": np.sqrt(np.mean(rn.reshape(rn.shape[0], -1) ** 2, axis=-1)),
             "cost": np.sum(r * r, axis=-1),
             "vora_value": np.atleast_1d(vora_value(np.swapaxes(S, -1, -2), ev.cmfs, ev.rec, ev.view)),
             "mean_delta_E00": np.einsum("bjk,k->b", d, w) / (w.sum() * d.shape[1]),
@@ -569,7 +588,7 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
                evaluator: DesignEvaluator | None = None, global_start: str | None = None,
                seed: int | None = None, max_evaluations: int | None = None,
                time_limit: float | None = None, callback=None, illuminant_weights=None,
-               across_illuminants: str | None = None) -> FitResult:
+               across_illuminants: str | None = None, _mix=None) -> FitResult:
     """Fit the design's free parameters (and a ΔE00 matrix when asked) to its objective.
 
     Parameters
@@ -657,7 +676,7 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     lo = np.concatenate([np.zeros(nf), np.full(nm, -np.inf)])
     hi = np.concatenate([np.ones(nf), np.full(nm, np.inf)])
     x_start = np.concatenate([start, m0])
-    objective = _Objective(ev, illuminant_weights=fit_weights, across=across)
+    objective = _Objective(ev, illuminant_weights=fit_weights, across=across, mix=_mix)
     track = _Tracker(objective, budget, progress, stop, callback, time_limit, t0)
     track.tag = "start"
     status, message = FitStatus.BUDGET_SPENT, ""
@@ -770,3 +789,108 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
 
 class _ShareSpent(Exception):
     """The global search has spent its share of the budget."""
+
+
+# --------------------------------------------------------------------------
+# Accuracy against noise: the front
+# --------------------------------------------------------------------------
+
+FRONT_METHOD = (
+    "weighted sums (1 − t)·cost/cost₀ + t·NG²/NG₀² for t evenly spaced in [0, 1], cost the design's "
+    "objective (cost₀ at the accuracy fit), NG the noise gain = RMS row norm of the matrix over channels "
+    "and illuminants (the factor on equal, independent channel noise; NG₀ at the accuracy fit); each "
+    "point fitted from the one before; points dominated in (objective cost, NG) dropped")
+
+
+def _front_point(m: Measures, t: float, res: FitResult, accuracy: _Objective) -> dict:
+    rn = np.linalg.norm(m.matrices, axis=-1)
+    x = np.array([[p["value"] for p in res.parameters]])
+    r = accuracy(x)[0]
+    return {
+        "t": float(t),
+        "accuracy_cost": float(r @ r),
+        "mean_delta_E00": float(np.mean(m.per_sample)),
+        "worst_illuminant_mean_delta_E00": float(max(d["mean"] for d in m.delta_E00.values())),
+        "noise_gain_rms": float(np.sqrt(np.mean(rn ** 2))),
+        "noise_gain_max": float(np.max(rn)),
+        "vora_value": float(m.vora_value),
+        "status": res.status_name,
+        "values": {p["name"]: p["value"] for p in res.parameters},
+    }
+
+
+def check_front(design: Design) -> None:
+    """Refuse, in one line, a design whose accuracy-noise front cannot be fitted."""
+    if design.fit.matrix not in ("least-squares", "white-preserving"):
+        raise WorkbenchError(f"'--front' needs a matrix computed by its rule ([fit] matrix = \"least-squares\" or "
+                             f"\"white-preserving\"); a ΔE00 matrix is fitted freely and shrinks to zero at the "
+                             f"noise-only end (got {design.fit.matrix!r})")
+    if not design.free_parameters():
+        raise WorkbenchError(f"'--front' needs free parameters: {design.source or design.name} has none "
+                             "(set free = true with min and max on at least one)")
+
+
+def non_dominated(points, keys=("mean_delta_E00", "noise_gain_rms")) -> list[bool]:
+    """For each point, True when no other point is as good in every key and better in one (smaller is better)."""
+    V = np.array([[p[k] for k in keys] for p in points], dtype=float)
+    out = []
+    for i in range(len(V)):
+        dominated = np.any(np.all(V <= V[i], axis=1) & np.any(V < V[i], axis=1))
+        out.append(not bool(dominated))
+    return out
+
+
+def fit_front(design: Design, points: int, *, evaluator: DesignEvaluator | None = None, progress: bool = True,
+              stop: threading.Event | None = None, max_evaluations: int | None = None, callback=None,
+              accuracy_fit: FitResult | None = None) -> tuple[dict, ...]:
+    """The trade-off between accuracy (mean ΔE00) and noise gain: ``points`` fits along it.
+
+    Parameters
+    ----------
+    design : Design
+        With free parameters and a matrix computed by its rule
+        (``least-squares`` or ``white-preserving``).
+    points : int
+        Number of points, ≥ 2; the first is the accuracy fit (t = 0), the
+        last the noise-only fit (t = 1).
+    max_evaluations : int, optional
+        The budget of each point's fit (default the design's).
+    accuracy_fit : FitResult, optional
+        The t = 0 fit when already done (the command's own fit).
+
+    Returns
+    -------
+    tuple of dict
+        The points non-dominated in (``accuracy_cost``, ``noise_gain_rms``), t rising:
+        ``t``, ``accuracy_cost`` (Σr² of the design's objective), ``mean_delta_E00``
+        (unweighted mean over samples × illuminants), ``worst_illuminant_mean_delta_E00``,
+        ``noise_gain_rms``, ``noise_gain_max``, ``vora_value``, ``status``
+        and the fitted ``values``. Method: :data:`FRONT_METHOD`.
+
+    References
+    ----------
+    Miettinen, K. (1999). *Nonlinear Multiobjective Optimization*. Kluwer,
+    § 3.1 (the weighting method; its solutions are Pareto optimal).
+    """
+    if isinstance(points, bool) or not isinstance(points, (int, np.integer)) or points < 2:
+        raise WorkbenchError(f"'front' must be a whole number of points >= 2 (got {points!r})")
+    check_front(design)
+    ev = evaluator if evaluator is not None else DesignEvaluator(design)
+    first = accuracy_fit or fit_design(design, progress=progress, stop=stop, evaluator=ev,
+                                       max_evaluations=max_evaluations, callback=callback)
+    accuracy = _Objective(ev, illuminant_weights=dict(first.illuminant_weights), across=first.across_illuminants)
+    e0 = max(first.cost_after, 1e-12)
+    out = [_front_point(first.after, 0.0, first, accuracy)]
+    g0 = max(out[0]["noise_gain_rms"], 1e-12)
+    current = first.design
+    for t in np.linspace(0.0, 1.0, points)[1:]:
+        if stop is not None and stop.is_set():
+            break
+        r = fit_design(replace(current, matrix=None), progress=progress, stop=stop, evaluator=ev,
+                       global_start="none", max_evaluations=max_evaluations, callback=callback,
+                       _mix=(float(t), e0, g0))
+        m = ev.with_design(r.design).measures()
+        out.append(_front_point(m, float(t), r, accuracy))
+        current = r.design
+    keep = non_dominated(out, ("accuracy_cost", "noise_gain_rms"))
+    return tuple(p for p, k in zip(out, keep) if k)

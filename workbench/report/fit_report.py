@@ -147,12 +147,48 @@ def fit_report_figures(result, evaluator=None, *, points=None) -> dict:
     if points is None:
         points = noise_accuracy_points(result, evaluator)
     a = result.after
-    return {
+    figs = {
         "sensitivities": plot_sensitivities_vs_targets(a, before=result.before),
         "delta_e_bars": plot_delta_e_bars(a),
         "chromaticity": plot_chromaticity_shifts(a, observer=result.design.observer),
         "noise_accuracy": plot_noise_vs_accuracy(points),
     }
+    if getattr(result, "front", ()):
+        figs["front"] = plot_front(result.front)
+    return figs
+
+
+def plot_front(front, *, chosen: int = 0, fig=None):
+    """The accuracy-noise front: mean ΔE00 against noise gain, the chosen point (the written fit) marked.
+
+    Parameters
+    ----------
+    front : sequence of dict
+        Points of :func:`workbench.analysis.fit.fit_front` (``noise_gain_rms``, ``mean_delta_E00``, ``t``).
+    chosen : int
+        Index of the point the fit wrote (the accuracy fit, t = 0).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    from workbench.plots._canvas import new_figure, place_axes
+
+    fig = new_figure(7.5, 5.0, fig)
+    place_axes(fig, left=0.75, right=0.2, top=0.4, bottom=0.55)
+    ax = fig.subplots()
+    x = np.array([p["noise_gain_rms"] for p in front])
+    y = np.array([p["mean_delta_E00"] for p in front])
+    ax.plot(x, y, "-o", color="C0", ms=6, label="non-dominated fits")
+    for p, xi, yi in zip(front, x, y):
+        ax.annotate(f"t = {p['t']:.2g}", (xi, yi), textcoords="offset points", xytext=(6, 4), fontsize=8)
+    ax.plot(x[chosen], y[chosen], "*", ms=16, color="C3", label="the written fit")
+    ax.set_xlabel("noise gain: RMS row norm of the matrix (1 = no gain)")
+    ax.set_ylabel("mean ΔE00 (CIEDE2000), samples × illuminants")
+    ax.set_title("Accuracy against noise")
+    ax.grid(True, alpha=0.3)
+    ax.legend(loc="upper right", fontsize=8)
+    return fig
 
 
 def _data_uri(fig, image_format: str = "svg", dpi: int = 100) -> str:
@@ -365,11 +401,16 @@ _CAPTIONS = {
                        "ΔE00-minimising — at the start (open) and after the fit (filled)."),
 }
 
+_CAPTIONS["front"] = ("The accuracy-noise front (--front): each point a fit of (1 − t)·objective/objective₀ + "
+                      "t·NG²/NG₀², NG the RMS row norm of the matrix; dominated points dropped. The star is the "
+                      "fit written to design.toml (t = 0, the design's own objective).")
+
 _ALT = {
     "sensitivities": "sensitivities against targets with residual panel",
     "delta_e_bars": "per-sample ΔE00 bars per illuminant",
     "chromaticity": "u′v′ diagram with arrows from true to camera colour",
     "noise_accuracy": "noise gain against mean ΔE00 for three matrix rules",
+    "front": "the accuracy-noise front: mean ΔE00 against noise gain, the written fit starred",
 }
 
 

@@ -40,6 +40,7 @@ from __future__ import annotations
 import csv
 import io
 import math
+from dataclasses import replace
 from pathlib import Path
 
 from workbench.model.design import CHANNELS, GLOBAL_STARTS
@@ -70,6 +71,9 @@ def register(subparsers) -> None:
     p.add_argument("--illuminant-weight", action="append", default=None, metavar="NAME=W",
                    help="weight of one illuminant in the mean-delta-e00 objective, > 0 (repeatable; "
                         "default: the design's [fit.illuminant_weights], else 1)")
+    p.add_argument("--front", type=int, default=None, metavar="N",
+                   help="also fit N >= 2 points along the trade-off between mean ΔE00 and noise gain; "
+                        "writes front.csv and plots the front in the report (each point has the budget)")
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
                    help="wall-time limit of the whole fit in seconds (default: none)")
     p.add_argument("--no-report", action="store_true", help="skip report.html")
@@ -114,6 +118,20 @@ def bound_cost_table(result) -> str:
                                      "the other parameters re-optimised (best first):"])
 
 
+def front_csv(front) -> str:
+    """The front as CSV: one row per point, the measures then the fitted parameter values."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    names = list(front[0]["values"]) if front else []
+    cols = ["t", "accuracy_cost", "mean_delta_E00", "worst_illuminant_mean_delta_E00", "noise_gain_rms", "noise_gain_max",
+            "vora_value", "status"]
+    w.writerow(cols + names)
+    for p in front:
+        w.writerow([repr(p[c]) if isinstance(p[c], float) else p[c] for c in cols]
+                   + [repr(float(p["values"][n])) for n in names])
+    return buf.getvalue()
+
+
 def metrics(result) -> dict:
     """The metrics.json object."""
     d = result.to_dict()
@@ -148,12 +166,13 @@ def metrics(result) -> dict:
         "bound_costs_method": d["bound_costs_method"],
         "across_illuminants": d["across_illuminants"],
         "illuminant_weights": d["illuminant_weights"],
+        "front": d["front"],
         "methods": d["methods"],
     }
     return out
 
 
-FILES = ("design.toml", "sensitivities.csv", "matrix.csv", "metrics.json", "report.html")
+FILES = ("design.toml", "sensitivities.csv", "matrix.csv", "metrics.json", "report.html", "front.csv")
 
 
 def _print_summary(design, result) -> None:
@@ -178,15 +197,27 @@ def _print_summary(design, result) -> None:
     if result.bound_costs:
         print()
         print(bound_cost_table(result), flush=True)
+    if result.front:
+        from workbench.analysis.fit import FRONT_METHOD
+
+        rows = [{k: p[k] for k in ("t", "accuracy_cost", "mean_delta_E00", "worst_illuminant_mean_delta_E00",
+                                   "noise_gain_rms", "vora_value", "status")} for p in result.front]
+        print()
+        print(render_rows(rows, ["t", "accuracy_cost", "mean_delta_E00", "worst_illuminant_mean_delta_E00", "noise_gain_rms",
+                                 "vora_value", "status"], "table",
+                          header_lines=[f"accuracy against noise, {len(rows)} non-dominated points (the first is "
+                                        f"this fit): {FRONT_METHOD}"]), flush=True)
 
 
 def run(args) -> int:
-    from workbench.analysis.fit import check_fit_options, fit_design
+    from workbench.analysis.fit import check_fit_options, check_front, fit_design, fit_front
     from workbench.fileio.outdir import OutputFolder
     from workbench.fileio.spectra_csv import write_spectra_csv
 
     if args.max_evaluations is not None and args.max_evaluations < 1:
         raise WorkbenchError(f"'--max-evaluations' must be a whole number >= 1 (got {args.max_evaluations})")
+    if args.front is not None and args.front < 2:
+        raise WorkbenchError(f"'--front' must be a whole number of points >= 2 (got {args.front})")
     if args.time_limit is not None and not (math.isfinite(args.time_limit) and args.time_limit > 0):
         raise WorkbenchError(f"'--time-limit' must be a number of seconds > 0 (got {args.time_limit:g})")
     if args.seed is not None and not 0 <= args.seed < 2**32:
@@ -205,6 +236,8 @@ def run(args) -> int:
             weights[name] = w
     design = load_design(args.design)
     check_fit_options(design, illuminant_weights=weights, across_illuminants=args.across_illuminants)
+    if args.front is not None:
+        check_front(design)
     # the output folder is one unit: validated and locked now, written into a staging folder, swapped in last
     with OutputFolder(args.out, option="--out", command="fit", names=FILES) as out:
         result = fit_design(design, progress=not args.quiet, global_start=args.global_start,
@@ -212,6 +245,11 @@ def run(args) -> int:
                             across_illuminants=args.across_illuminants, illuminant_weights=weights)
         for n in result.notes:
             notice(n)
+        if args.front is not None:
+            front = fit_front(design, args.front, progress=not args.quiet, max_evaluations=args.max_evaluations,
+                              accuracy_fit=result)
+            result = replace(result, front=front)
+            atomic_write_text(out / "front.csv", front_csv(front))
         result.design.save(out / "design.toml")
         sens = result.design.channel_sensitivities()
         write_spectra_csv(sens, out / "sensitivities.csv")
