@@ -323,7 +323,7 @@ def read_nk_csv(path, *, name: str | None = None, text: str | None = None) -> Ma
         for c, label in names.items():
             cell = cells[c].strip() if c < len(cells) else ""
             if not cell:
-                raise InputFileError(f"must hold a number (got an empty cell: gaps are not filled)",
+                raise InputFileError("must hold a number (got an empty cell: gaps are not filled)",
                                      source, number, label)
             if delim != "," and "," in cell:
                 cell = cell.replace(",", ".")
