@@ -31,6 +31,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from workbench.colorimetry.cie import illuminant_chromaticity
+from workbench.colorimetry.tristimulus import tristimulus
 from workbench.colorimetry.coordinates import XYZ_to_xy
 from workbench.errors import WorkbenchError
 from workbench.model.spectra import Spectra
@@ -371,8 +372,6 @@ def primaries_from_xy(xy, white="D65", *, name: str = "custom", observer="2") ->
 
 def _emitter_XYZ(spectra: Spectra, observer) -> tuple[np.ndarray, bool, tuple[str, ...]]:
     """XYZ (3, 3) of three emitter spectra at full drive, rows R, G, B."""
-    from workbench.colorimetry.tristimulus import tristimulus
-
     if not isinstance(spectra, Spectra):
         raise WorkbenchError(f"spectra must be a Spectra (got {type(spectra).__name__})")
     if spectra.kind != "emission":

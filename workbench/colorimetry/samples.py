@@ -37,6 +37,7 @@ import numpy as np
 
 from workbench.colorimetry.cie import table as cie_table
 from workbench.errors import WorkbenchError
+from workbench.fileio.spectra_csv import read_spectra_csv
 from workbench.model.spectra import Spectra, check_wavelengths
 
 __all__ = ["SAMPLE_SETS", "tcs_cie_13_3", "ces_cie_224", "open_sample_set"]
@@ -140,8 +141,6 @@ def open_sample_set(source: str, wavelengths, *, file=None, extrapolation="none"
     if source == "csv":
         if file is None:
             raise WorkbenchError("sample set source 'csv' needs a file")
-        from workbench.fileio.spectra_csv import read_spectra_csv
-
         s = read_spectra_csv(file, kind="reflectance")
         if s.values.ndim != 2:
             s = Spectra(s.wavelengths, s.flat(), s.names, kind=s.kind, units=s.units,

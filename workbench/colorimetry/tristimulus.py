@@ -44,6 +44,7 @@ import numpy as np
 
 from workbench.colorimetry.cie import canonical_illuminant
 from workbench.colorimetry.cie import cmfs_on, illuminant_on, observer_key, observer_label
+from workbench.colorimetry.coordinates import XYZ_to_xy
 from workbench.errors import RangeCoverageError, WorkbenchError
 from workbench.model.spectra import Spectra, grid, is_uniform
 
@@ -432,8 +433,6 @@ class Tristimulus:
 
     @property
     def xy(self) -> np.ndarray:
-        from workbench.colorimetry.coordinates import XYZ_to_xy
-
         return XYZ_to_xy(self.XYZ)
 
     def describe_method(self) -> str:

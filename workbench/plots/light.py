@@ -16,9 +16,14 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 import numpy as np
+from matplotlib.lines import Line2D
+from matplotlib.patches import Rectangle
 
-from workbench.colorimetry.cie import cmfs_on
 from workbench.analysis.light import CAUTION, CameraFidelity, LightComparison, LightIndices, reference_illuminant
+from workbench.colorimetry.cie import cmfs_on, illuminant_on
+from workbench.colorimetry.primaries import primaries_named
+from workbench.colorimetry.samples import tcs_cie_13_3
+from workbench.errors import WorkbenchError
 from workbench.plots._canvas import new_figure
 from workbench.plots.chromaticity import AXIS_LABELS, draw_spectral_locus
 
@@ -123,10 +128,6 @@ def plot_light_spd(lights, *, reference: bool = True, fig=None):
 
 def _tcs_display_colours() -> np.ndarray:
     """sRGB-like display colours (14, 3) of TCS01-14 under D65, for the bars (BT.709 primaries, 2.2 power)."""
-    from workbench.colorimetry.cie import illuminant_on
-    from workbench.colorimetry.primaries import primaries_named
-    from workbench.colorimetry.samples import tcs_cie_13_3
-
     wl = np.arange(380.0, 781.0, 5.0)
     R = tcs_cie_13_3(wl).flat()
     _, E = illuminant_on(wl, "D65")
@@ -242,9 +243,6 @@ def plot_camera_shifts(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
         square). Right: the zoomed square with the arrows coloured by ΔE00,
         lengthened ×k when too short to see (said in legend and title).
     """
-    from matplotlib.lines import Line2D
-    from matplotlib.patches import Rectangle
-
     r = np.asarray(fid.uv_reference, dtype=float)
     t = np.asarray(fid.uv_test, dtype=float)
     de = np.asarray(fid.delta_E00, dtype=float)
@@ -313,8 +311,6 @@ def plot_comparison(cmp: LightComparison, *, mode: str = "side-by-side", label_w
         the reverse (lower right); the means as a star. Without a camera,
         bars of the eye's ΔE00.
     """
-    from workbench.errors import WorkbenchError
-
     if mode not in cmp.modes:
         raise WorkbenchError(f"mode must be one of {', '.join(cmp.modes)} (got {mode!r})")
     m = cmp.modes[mode]

@@ -30,12 +30,17 @@ from pathlib import Path
 
 import numpy as np
 
+from workbench import __version__
 from workbench.analysis.camera import MATRIX_METHODS
 from workbench.analysis.evaluator import DesignEvaluator, noise_report
+from workbench.analysis.fit import BOUND_COSTS_METHOD
 from workbench.analysis.measures import vora_value
-from workbench.errors import WorkbenchError
+from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.atomic import write_text_atomically
+from workbench.model.design import ELEMENT_TYPES
 from workbench.plots._canvas import png_bytes, svg_bytes
+from workbench.plots.fit import (plot_chromaticity_shifts, plot_delta_e_bars, plot_noise_vs_accuracy,
+                                 plot_sensitivities_vs_targets)
 
 __all__ = [
     "noise_accuracy_points",
@@ -141,9 +146,6 @@ def fit_report_figures(result, evaluator=None, *, points=None) -> dict:
     Names: ``sensitivities``, ``delta_e_bars``, ``chromaticity``,
     ``noise_accuracy``. ``points`` default to :func:`noise_accuracy_points`.
     """
-    from workbench.plots.fit import (plot_chromaticity_shifts, plot_delta_e_bars, plot_noise_vs_accuracy,
-                            plot_sensitivities_vs_targets)
-
     if points is None:
         points = noise_accuracy_points(result, evaluator)
     a = result.after
@@ -320,8 +322,6 @@ def _measures_table(result) -> str:
 
 
 def _parameter_unit(design, name: str) -> str:
-    from workbench.model.design import ELEMENT_TYPES
-
     element, _, key = name.rpartition(".")
     for e in design.chain:
         if e.name == element:
@@ -352,8 +352,6 @@ def _bound_costs_section(result) -> str:
     costs = getattr(result, "bound_costs", ())
     if not costs:
         return ""
-    from workbench.analysis.fit import BOUND_COSTS_METHOD
-
     body = "".join(
         f'<tr><td>{_esc(c["name"])}</td><td class="num">{_esc(_f(c["value"], ".6g"))} {_esc(c["unit"])} '
         f'({_esc(c["bound"])})</td><td>per {_esc(c["unit"])} {_esc(c["direction"])}</td>'
@@ -435,8 +433,6 @@ def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: i
         The HTML document. The status block (``id="status"``) says
         Converged, or NOT CONVERGED with the reason from the status table.
     """
-    from workbench import __version__
-
     if image_format not in ("svg", "png"):
         raise WorkbenchError(f"image_format must be svg or png (got {image_format!r})")
     points = noise_accuracy_points(result, evaluator)
@@ -508,8 +504,6 @@ def write_fit_report(result, path, *, evaluator=None) -> Path:
     The folder must exist (checked before the figures are drawn); an
     existing file is replaced only once the new one is complete.
     """
-    from workbench.errors import InputFileError
-
     path = Path(path)
     if not path.parent.is_dir():
         raise InputFileError(f"cannot write: folder {path.parent} does not exist", str(path))
