@@ -505,6 +505,7 @@ class TestAcrossIlluminants:
         rms2 = (d ** 2 @ w) / w.sum()
         assert float(r @ r) == pytest.approx(float(om @ rms2 / om.sum()), rel=1e-12)
 
+    @pytest.mark.slow  # two fits of the demo design
     def test_worst_balances_the_lights(self, demo_de):
         """On the demo (shared least-squares matrix) the worst light's mean ΔE00 drops below the mean fit's."""
         d, ev = demo_de

@@ -234,6 +234,7 @@ class TestDesignPanelSliders:
 
 
 class TestDesignPanelFit:
+    @pytest.mark.slow  # a fit in the panel thread and a reference fit
     def test_fit_button_runs_the_fit(self, panel, demo_design):
         """The Fit button fits from the slider values in a thread; the result equals fit_design's."""
         panel.sliders[EDGE].value = 540.0
