@@ -414,6 +414,53 @@ class TestChainModel:
         np.testing.assert_allclose(s.values[:, 0], np.array([0.1, 0.2, 0.3]) * 10 ** -0.3)
 
 
+class TestLoadThenCompute:
+    @pytest.fixture
+    def loaded_then_deleted(self, tmp_path):
+        """The demo design loaded from a copy whose folder is then deleted."""
+        work = tmp_path / "demo"
+        shutil.copytree(DEMO.parent, work)
+        before = load_design(DEMO)
+        d = load_design(work / DEMO.name)
+        shutil.rmtree(work)
+        return before, d
+
+    def test_computes_without_its_files(self, loaded_then_deleted):
+        """Once loaded, the chain, evaluator, illuminants and samples need none of the files."""
+        from workbench.analysis.evaluator import DesignEvaluator
+
+        before, d = loaded_then_deleted
+        np.testing.assert_array_equal(d.channel_sensitivities().values, before.channel_sensitivities().values)
+        label, values, notes = d.illuminant_values("halogen")
+        assert label == "halogen (luminaire_halogen_3200K.csv)" and values.shape == (81,)
+        assert d.sample_set("studio").shape[1] == 81
+        m, m0 = DesignEvaluator(d).measures(), DesignEvaluator(before).measures()
+        assert m.vora_value == m0.vora_value
+        np.testing.assert_array_equal(m.per_sample, m0.per_sample)
+
+    def test_resolved_data_read_only(self):
+        """The curves a design carries are read-only arrays with their notes."""
+        d = load_design(DEMO)
+        lens = d.chain[0].data
+        assert lens.values.shape == (1, 81) and not lens.values.flags.writeable
+        assert not d.illuminants[0].values.flags.writeable
+        assert not d.samples[0].spectra.values.flags.writeable
+        with pytest.raises(ValueError):
+            lens.values[0, 0] = 2.0
+
+    def test_unresolved_design_is_one_line(self):
+        """A design assembled in code without its files says how to read it, in one line."""
+        from dataclasses import replace
+
+        d = load_design(DEMO)
+        bare = replace(d, chain=tuple(replace(e, data=None) for e in d.chain))
+        with pytest.raises(WorkbenchError, match=r"^chain\[0\] \(lens\): its curve file has not been read"):
+            bare.channel_sensitivities()
+        ill = replace(d, illuminants=tuple(replace(i, values=None) for i in d.illuminants))
+        with pytest.raises(WorkbenchError, match="^illuminant 'daylight' has not been read"):
+            ill.illuminant_values("daylight")
+
+
 def test_plot_chain():
     """The chain plot draws each element on its own channels plus the cumulative curve."""
     import matplotlib

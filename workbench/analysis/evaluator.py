@@ -225,10 +225,11 @@ def design_primaries(design: Design) -> Primaries:
     if t.kind == "chromaticities":
         return primaries_from_xy([t.red, t.green, t.blue], t.white or "D65", name="design target",
                                  observer=design.observer)
-    s = read_spectra_csv(design.resolve(t.file), kind="emission")
-    if t.columns is not None:
-        s = s.select(list(t.columns))
-    return primaries_from_emitters(s, design.observer, white=t.white or "D65", name=f"emitters of {t.file}")
+    if t.emitters is None:
+        raise WorkbenchError(f"the target's emitter file {t.file} has not been read: designs are read with "
+                             "workbench.fileio.design_toml.load_design, which reads every file they name")
+    return primaries_from_emitters(t.emitters, design.observer, white=t.white or "D65",
+                                   name=f"emitters of {t.file}")
 
 
 @dataclass(frozen=True, eq=False)

@@ -12,7 +12,8 @@ import zlib
 
 import numpy as np
 
-from workbench.model.design import ELEMENT_TYPES, Design, Tolerance
+from workbench.model.design import Design, Tolerance
+from workbench.optics.kinds import ELEMENT_KINDS, parameter_spec
 from workbench.errors import WorkbenchError
 
 __all__ = [
@@ -32,7 +33,7 @@ def _spec_of(design: Design, key: str):
     name, _, param = key.partition(".")
     for e in design.chain:
         if e.name == name:
-            return ELEMENT_TYPES[e.type][0].get(param)
+            return parameter_spec(e.type, param)
     return None
 
 
@@ -100,27 +101,25 @@ def _check_domain(design: Design, values: dict, what: str) -> None:
                 f"(e.g. {float(v[bad][0]):g}); narrow the tolerance")
 
 
-_ORDERED = {"dichroic-splitter": ("blue_green_nm", "green_red_nm"), "band-pass": ("low_nm", "high_nm")}
-
-
 def _check_order(design: Design, values: dict, what: str) -> None:
-    """Pairs the design file requires in order (splitter edges, band-pass ends) stay in order."""
+    """Pairs the element kinds require in order (splitter edges, band-pass ends) stay in order."""
     known = design.parameters()
     for e in design.chain:
-        pair = _ORDERED.get(e.type)
-        if pair is None:
-            continue
-        lo_k, hi_k = (f"{e.name}.{k}" for k in pair)
-        if lo_k not in values and hi_k not in values:
-            continue
-        lo = np.asarray(values.get(lo_k, known[lo_k].value))
-        hi = np.asarray(values.get(hi_k, known[hi_k].value))
-        bad = ~(hi > lo)
-        if np.any(bad):
-            n = int(np.broadcast_to(bad, np.broadcast_shapes(lo.shape, hi.shape)).sum())
-            size = int(np.broadcast_to(lo, np.broadcast_shapes(lo.shape, hi.shape)).size)
-            raise WorkbenchError(f"{hi_k} must stay above {lo_k}: {n} of {size} {what} do not; "
-                                 "narrow the tolerances")
+        for pair in ELEMENT_KINDS[e.type].ordered:
+            _check_pair(known, values, what, *(f"{e.name}.{k}" for k in pair))
+
+
+def _check_pair(known: dict, values: dict, what: str, lo_k: str, hi_k: str) -> None:
+    if lo_k not in values and hi_k not in values:
+        return
+    lo = np.asarray(values.get(lo_k, known[lo_k].value))
+    hi = np.asarray(values.get(hi_k, known[hi_k].value))
+    bad = ~(hi > lo)
+    if np.any(bad):
+        n = int(np.broadcast_to(bad, np.broadcast_shapes(lo.shape, hi.shape)).sum())
+        size = int(np.broadcast_to(lo, np.broadcast_shapes(lo.shape, hi.shape)).size)
+        raise WorkbenchError(f"{hi_k} must stay above {lo_k}: {n} of {size} {what} do not; "
+                             "narrow the tolerances")
 
 
 def _stream(seed: int, key: str) -> np.random.Generator:

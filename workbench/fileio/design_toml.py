@@ -27,10 +27,10 @@ import numpy as np
 
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.atomic import write_text_atomically
+from workbench.fileio.design_files import resolve_design
 from workbench.model.design import (
     ACROSS_ILLUMINANTS,
     CHANNELS,
-    ELEMENT_TYPES,
     GLOBAL_STARTS,
     MATRIX_METHODS,
     MATRIX_SCOPES,
@@ -48,12 +48,12 @@ from workbench.model.design import (
     IlluminantSpec,
     NoiseModel,
     Param,
-    ParamSpec,
     SampleSetSpec,
     Target,
     Tolerance,
     ToleranceSpec,
 )
+from workbench.optics.kinds import ELEMENT_KINDS, OptionSpec, ParamSpec
 
 __all__ = ["load_design", "design_from_bytes", "design_from_dict", "design_to_dict", "save_design"]
 
@@ -260,22 +260,51 @@ def _check_grid(c: _Checker, v) -> Grid | None:
     return g
 
 
+def _check_option(c: _Checker, val, spec: OptionSpec, key: str, paths):
+    """An option's value by its kind (see :data:`workbench.optics.kinds.registry.OPTION_KINDS`), else None."""
+    kind = spec.kind
+    if kind == "file":
+        return c.file(val, key)
+    if kind == "str":
+        return c.string(val, key)
+    if kind == "positive":
+        f = _number(val)
+        if f is None or not f > 0:
+            c.bad(key, "a number > 0", val)
+            return None
+        return f
+    if kind == "count":
+        if isinstance(val, bool) or not isinstance(val, int) or not 1 <= val <= 64:
+            c.bad(key, "an integer in 1-64", val)
+            return None
+        return val
+    if kind == "columns":
+        if (not isinstance(val, dict) or set(val) != set(paths)
+                or any(not isinstance(x, str) or not x for x in val.values())):
+            c.bad(key, "a table naming the file's column for each channel "
+                  f"({', '.join(paths)})", val)
+            return None
+        return tuple((ch, val[ch]) for ch in CHANNELS if ch in val)
+    return c.choice(val, kind, key)
+
+
 def _check_element(c: _Checker, v, i: int) -> Element | None:
+    """One ``[[chain]]`` table, checked against its kind's declaration in the registry."""
     key = f"chain[{i}]"
     t = c.table(v, key)
     if t is None:
         return None
     name = c.string(t.get("name"), f"{key}.name")
     etype = t.get("type")
-    if not isinstance(etype, str) or etype not in ELEMENT_TYPES:
-        c.bad(f"{key}.type", f"one of {', '.join(ELEMENT_TYPES)}", etype)
+    if not isinstance(etype, str) or etype not in ELEMENT_KINDS:
+        c.bad(f"{key}.type", f"one of {', '.join(ELEMENT_KINDS)}", etype)
         return None
-    pspecs, ospecs = ELEMENT_TYPES[etype]
-    allowed = ("name", "type") + (() if etype == "dichroic-splitter" else ("paths",)) + tuple(pspecs) + tuple(ospecs)
+    kind = ELEMENT_KINDS[etype]
+    allowed = ("name", "type") + (("paths",) if kind.paths_key else ()) + tuple(kind.params) + tuple(kind.options)
     c.unknown(t, allowed, key)
     ok = name is not None
     paths = CHANNELS
-    if "paths" in t and etype != "dichroic-splitter":
+    if "paths" in t and kind.paths_key:
         p = t["paths"]
         if (not isinstance(p, list) or not p or any(x not in CHANNELS for x in p)
                 or len(set(p)) != len(p)):
@@ -284,7 +313,7 @@ def _check_element(c: _Checker, v, i: int) -> Element | None:
         else:
             paths = tuple(ch for ch in CHANNELS if ch in p)
     params = []
-    for k, spec in pspecs.items():
+    for k, spec in kind.params.items():
         if k not in t:
             if spec.optional:
                 continue
@@ -300,62 +329,34 @@ def _check_element(c: _Checker, v, i: int) -> Element | None:
         else:
             params.append((k, p))
     options = []
-    for k, (kind, required, default) in ospecs.items():
+    for k, spec in kind.options.items():
         if k not in t:
-            if required:
-                c.bad(f"{key}.{k}", {"file": "a file name", "positive": "a number > 0"}.get(kind, kind) + " (missing)",
-                      show_got=False)
+            if spec.required:
+                c.bad(f"{key}.{k}", {"file": "a file name", "positive": "a number > 0"}.get(spec.kind, spec.kind)
+                      + " (missing)", show_got=False)
                 ok = False
-            elif default is not None:
-                options.append((k, default))
+            elif spec.default is not None:
+                options.append((k, spec.default))
             continue
-        val = t[k]
-        if kind == "file":
-            val = c.file(val, f"{key}.{k}")
-        elif kind == "str":
-            val = c.string(val, f"{key}.{k}")
-        elif kind == "positive":
-            f = _number(val)
-            if f is None or not f > 0:
-                c.bad(f"{key}.{k}", "a number > 0", val)
-                val = None
-            else:
-                val = f
-        elif kind == "count":
-            if isinstance(val, bool) or not isinstance(val, int) or not 1 <= val <= 64:
-                c.bad(f"{key}.{k}", "an integer in 1-64", val)
-                val = None
-        elif kind == "columns":
-            if (not isinstance(val, dict) or set(val) != set(paths)
-                    or any(not isinstance(x, str) or not x for x in val.values())):
-                c.bad(f"{key}.{k}", "a table naming the file's column for each channel "
-                      f"({', '.join(paths)})", val)
-                val = None
-            else:
-                val = tuple((ch, val[ch]) for ch in CHANNELS if ch in val)
-        else:
-            val = c.choice(val, kind, f"{key}.{k}")
+        val = _check_option(c, t[k], spec, f"{key}.{k}", paths)
         if val is None:
             ok = False
         else:
             options.append((k, val))
-    if etype == "glass" and t.get("transmittance") == "total" and t.get("reflection") == "none":
-        c.bad(key, 'one statement of what the file holds: transmittance = "total" (faces included) '
-              'contradicts reflection = "none" (an internal transmittance with no faces)', show_got=False)
-    if etype == "sensor-qe" and "column" in t and "columns" in t:
-        c.bad(key, "either column (one curve for all channels) or columns (one per channel), not both",
-              show_got=False)
-        ok = False
-    if etype == "band-pass" and ok:
-        lo, hi = dict(params)["low_nm"].value, dict(params)["high_nm"].value
-        if not lo < hi:
-            c.bad(f"{key}.high_nm", f"a wavelength above low_nm = {lo:g} nm", hi)
+    if kind.check is not None:
+        for problem in kind.check(t, dict(params), dict(options)):
+            where = f"{key}.{problem.key}" if problem.key else key
+            c.bad(where, problem.expected, problem.got, show_got=problem.got is not ...)
             ok = False
-    if etype == "dichroic-splitter" and ok:
-        bg, gr = dict(params)["blue_green_nm"].value, dict(params)["green_red_nm"].value
-        if not bg < gr:
-            c.bad(f"{key}.green_red_nm", f"a wavelength above blue_green_nm = {bg:g} nm", gr)
-            ok = False
+    if ok:
+        values = {k: p.value for k, p in params}
+        for lo_k, hi_k in kind.ordered:
+            lo, hi = values[lo_k], values[hi_k]
+            if not lo < hi:
+                unit = kind.params[hi_k].unit
+                what = "wavelength" if unit == "nm" else "number"
+                c.bad(f"{key}.{hi_k}", f"a {what} above {lo_k} = {lo:g}{' ' + unit if unit else ''}", hi)
+                ok = False
     if not ok:
         return None
     return Element(name, etype, paths, tuple(params), tuple(options))
@@ -661,7 +662,12 @@ def _duplicates(c: _Checker, names, key: str):
 
 
 def design_from_dict(data: dict, *, base_dir=".", source=None) -> Design:
-    """Validate plain TOML data and build a :class:`Design`; raises :class:`DesignError`."""
+    """Validate plain TOML data, build a :class:`Design` and read the files it names.
+
+    Raises :class:`DesignError` (every schema problem at once) before any
+    file is read; then what :func:`workbench.fileio.design_files.resolve_design`
+    raises for a bad file.
+    """
     c = _Checker(Path(base_dir))
     if not isinstance(data, dict):
         raise DesignError([("(top)", "expected a table")], source)
@@ -702,9 +708,11 @@ def design_from_dict(data: dict, *, base_dir=".", source=None) -> Design:
             if e is not None:
                 chain.append((i, e))
         _duplicates(c, [(i, t.get("name")) for i, t in enumerate(items) if isinstance(t.get("name"), str)], "chain")
-        splitters = [i for i, t in enumerate(items) if t.get("type") == "dichroic-splitter"]
-        for i in splitters[1:]:
-            c.bad(f"chain[{i}].type", "at most one dichroic-splitter in a chain", "dichroic-splitter")
+        for kind in ELEMENT_KINDS.values():
+            if kind.at_most_one:
+                same = [i for i, t in enumerate(items) if t.get("type") == kind.name]
+                for i in same[1:]:
+                    c.bad(f"chain[{i}].type", f"at most one {kind.name} in a chain", kind.name)
     target = _check_target(c, data["target"]) if "target" in data else Target()
     samples = _check_samples(c, data["samples"]) if "samples" in data else []
     if "samples" in data and isinstance(data["samples"], list):
@@ -728,13 +736,13 @@ def design_from_dict(data: dict, *, base_dir=".", source=None) -> Design:
     tolerance = _check_tolerance(c, data["tolerance"]) if "tolerance" in data else ToleranceSpec()
     if c.problems:
         raise DesignError(c.problems, source)
-    return Design(
+    return resolve_design(Design(
         name=name, grid=g, chain=tuple(e for _, e in chain), observer=observer,
         description=description, target=target, samples=tuple(samples),
         illuminants=tuple(illuminants), fit=fit, noise=noise, matrix=matrix, tolerance=tolerance,
         schema=SCHEMA,
         base_dir=str(base_dir), source=None if source is None else str(source),
-    )
+    ))
 
 
 _TOML_POS = re.compile(r"\s*\(at line (\d+), column (\d+)\)\s*$")
@@ -844,14 +852,17 @@ def design_to_dict(d: Design, rebase=None) -> dict:
     chain = []
     for e in d.chain:
         el: dict[str, Any] = {"name": e.name, "type": e.type}
-        if e.type != "dichroic-splitter" and e.paths != CHANNELS:
+        kind = ELEMENT_KINDS[e.type]
+        if kind.paths_key and e.paths != CHANNELS:
             el["paths"] = list(e.paths)
         for k, p in e.params:
             el[k] = _param_out(p)
         for k, v in e.options:
-            if k == "columns":
+            spec = kind.options.get(k)
+            option_kind = None if spec is None else spec.kind
+            if option_kind == "columns":
                 el[k] = dict(v)
-            elif k == "file":
+            elif option_kind == "file":
                 el[k] = f(v)
             else:
                 el[k] = v

@@ -10,7 +10,15 @@ file.
 Reading and validating a file (every problem at once, in one
 :class:`DesignError`) and writing it atomically live in
 :mod:`workbench.fileio.design_toml`; evaluating the chain for any parameter
-values in :mod:`workbench.optics.chain` (:meth:`Design.model`).
+values in :mod:`workbench.optics.chain` (:meth:`Design.model`). What each
+element ``type`` holds is declared by the registry of element kinds,
+:mod:`workbench.optics.kinds`.
+
+A design from :func:`~workbench.fileio.design_toml.load_design` is fully
+resolved: every file it names has been read once, and its curves sit in the
+design as arrays on the design grid with their notes (``Element.data``,
+``IlluminantSpec.values``, ``SampleSetSpec.spectra``, ``Target.emitters``;
+these are not compared by ``==``). Nothing here reads a file.
 """
 
 from __future__ import annotations
@@ -22,9 +30,8 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from workbench.optics import elements as optics
-from workbench.errors import RangeCoverageError, WorkbenchError
-from workbench.model.spectra import Spectra, coarsening_method, grid as make_grid
+from workbench.errors import WorkbenchError
+from workbench.model.spectra import Spectra, grid as make_grid
 
 if TYPE_CHECKING:  # names for annotations only: the chain sits above the schema
     from workbench.optics.chain import ChainModel, ElementCurve
@@ -32,8 +39,6 @@ if TYPE_CHECKING:  # names for annotations only: the chain sits above the schema
 __all__ = [
     "SCHEMA",
     "CHANNELS",
-    "ELEMENT_TYPES",
-    "ParamSpec",
     "DesignError",
     "Tolerance",
     "Param",
@@ -59,9 +64,12 @@ GLOBAL_STARTS = ("none", "multi-start", "differential-evolution")
 ACROSS_ILLUMINANTS = ("weighted-mean", "worst")
 TARGET_KINDS = ("observer", "primaries", "chromaticities", "emitters")
 TOLERANCE_DISTRIBUTIONS = ("normal", "uniform")
+#: How a tabulated curve may be extended beyond its measured range.
 EXTRAPOLATIONS = ("none", "constant", "zero")
 
-_INF = math.inf
+#: Said when a design built in code (not by the loader) is asked for data only loading reads.
+_NOT_RESOLVED = ("{what} has not been read: designs are read with workbench.fileio.design_toml.load_design "
+                 "(or design_from_dict), which reads every file they name")
 
 
 # --------------------------------------------------------------------------
@@ -128,7 +136,10 @@ class Element:
     """One element of the optical chain.
 
     ``params`` and ``options`` are tuples of ``(key, value)`` in schema
-    order; ``paths`` the channels it sits on.
+    order; ``paths`` the channels it sits on. ``data`` holds the tabulated
+    curve(s) an element of a kind that reads a file was given, read at load
+    and put on the design grid (``Spectra``, one row or one per path, with
+    the notes of reading and resampling); ``None`` for the others.
     """
 
     name: str
@@ -136,6 +147,7 @@ class Element:
     paths: tuple[str, ...]
     params: tuple[tuple[str, Param], ...]
     options: tuple[tuple[str, Any], ...]
+    data: Spectra | None = field(default=None, compare=False, repr=False)
 
     def param(self, key: str) -> Param | None:
         return dict(self.params).get(key)
@@ -170,7 +182,8 @@ class Target:
     ``kind`` is ``'observer'`` (the colour-matching functions), ``'primaries'``
     (``name`` of a primaries set), ``'chromaticities'`` (``red``, ``green``,
     ``blue``, ``white`` as (x, y)), or ``'emitters'`` (``file`` with
-    ``columns`` for R, G, B; optional ``white``).
+    ``columns`` for R, G, B; optional ``white``). ``emitters`` holds the
+    emission spectra of that file (the three columns), read at load.
     """
 
     kind: str = "observer"
@@ -181,27 +194,40 @@ class Target:
     white: tuple[float, float] | None = None
     file: str | None = None
     columns: tuple[str, ...] | None = None
+    emitters: Spectra | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)
 class SampleSetSpec:
-    """A named sample set; ``extrapolation`` (``none``/``constant``) extends it past its table."""
+    """A named sample set: a built-in set (``source``) or a CSV of reflectances (``file``).
+
+    ``extrapolation`` (``none``/``constant``) extends it past its table;
+    ``spectra`` holds the set on the design grid (reflectance 0-1, (count, n)), made at load.
+    """
 
     name: str
     source: str
     file: str | None = None
     extrapolation: str = "none"
+    spectra: Spectra | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)
 class IlluminantSpec:
-    """A named illuminant: a CIE name (``cie``) or a CSV file (``file``, ``column``)."""
+    """A named illuminant: a CIE name (``cie``) or a CSV file (``file``, ``column``).
+
+    ``label``, ``values`` ((n,) relative SPD on the design grid) and
+    ``notes`` are made at load.
+    """
 
     name: str
     cie: str | None = None
     file: str | None = None
     column: str | None = None
     extrapolation: str = "none"
+    label: str | None = field(default=None, compare=False, repr=False)
+    values: np.ndarray | None = field(default=None, compare=False, repr=False)
+    notes: tuple[str, ...] = field(default=(), compare=False, repr=False)
 
 
 @dataclass(frozen=True)
@@ -379,13 +405,10 @@ class Design:
     def illuminant_values(self, name: str | None) -> tuple[str, np.ndarray, tuple[str, ...]]:
         """An ``[[illuminants]]`` entry on the design grid: ``(label, values (n,), notes)``.
 
-        ``None`` is the equal-energy spectrum (ones). A CSV SPD is resampled
-        onto the grid by the CIE 167 rules and may not be extrapolated; the
-        notes say so.
+        ``None`` is the equal-energy spectrum (ones). A CSV SPD was
+        resampled onto the grid at load by the CIE 167 rules, extrapolated
+        only when its ``extrapolation`` key says so; the notes say so.
         """
-        from workbench.colorimetry.cie import illuminant_on
-        from workbench.fileio.spectra_csv import read_spectra_csv
-
         wl = self.grid.wavelengths
         if name is None:
             return "equal energy (E)", np.ones(wl.size), ("equal-energy spectrum",)
@@ -396,49 +419,21 @@ class Design:
                 f"{', '.join(i.name for i in self.illuminants) or 'none'})"
             )
         spec = self.illuminants[index]
-        where = f"illuminants[{index}] {name!r}"
-        if spec.cie is not None:
-            try:
-                label, tab = illuminant_on(wl, spec.cie)
-            except WorkbenchError as e:
-                raise WorkbenchError(f"{where}: {e}") from None
-            return label, np.asarray(tab.values), (tab.note,)
-        s = read_spectra_csv(self.resolve(spec.file), kind="emission")
-        if spec.column is not None:
-            s = s.select([spec.column])
-        elif len(s) != 1:
-            raise WorkbenchError(
-                f"illuminant {name!r}: expected a column, the file {spec.file} holds {len(s)} spectra"
-            )
-        if spec.extrapolation == "none" and not s.covers(wl[0], wl[-1]):
-            from workbench.optics.chain import uncovered
-
-            raise WorkbenchError(f"{where} ({spec.file}): " + uncovered(s, wl, "entry"))
-        s = s.resample(wl, extrapolation=spec.extrapolation,
-                       method=coarsening_method(s.wavelengths, wl, self.grid.resampling))
-        return f"{name} ({spec.file})", s.flat()[0], s.notes
+        if spec.values is None:
+            raise WorkbenchError(_NOT_RESOLVED.format(what=f"illuminant {name!r}"))
+        return spec.label, spec.values, spec.notes
 
     def sample_set(self, name: str) -> Spectra:
         """A ``[[samples]]`` entry on the design grid (reflectance 0-1, (count, n))."""
-        from workbench.colorimetry.samples import open_sample_set
-
-        index = {s.name: k for k, s in enumerate(self.samples)}.get(name)
-        if index is None:
+        spec = {s.name: s for s in self.samples}.get(name)
+        if spec is None:
             raise WorkbenchError(
                 f"no sample set named {name!r} in the design (have "
                 f"{', '.join(s.name for s in self.samples) or 'none'})"
             )
-        spec = self.samples[index]
-        file = None if spec.file is None else self.resolve(spec.file)
-        wl = self.grid.wavelengths
-        try:
-            return open_sample_set(spec.source, wl, file=file, extrapolation=spec.extrapolation)
-        except RangeCoverageError as e:
-            what = spec.file or spec.source
-            text = str(e).split(" nm but ")[0]
-            raise WorkbenchError(
-                f"samples[{index}] {name!r} ({what}): {text} nm but the design grid is {wl[0]:g}-{wl[-1]:g} "
-                "nm; set extrapolation = \"constant\" on this entry to extend it (CIE 167)") from None
+        if spec.spectra is None:
+            raise WorkbenchError(_NOT_RESOLVED.format(what=f"sample set {name!r}"))
+        return spec.spectra
 
     # -- evaluation --------------------------------------------------------------
     def model(self) -> "ChainModel":
@@ -454,92 +449,3 @@ class Design:
     def element_curves(self, values=None) -> tuple["ElementCurve", ...]:
         """Each element's curve on each channel, for plotting; see :meth:`ChainModel.element_curves`."""
         return self.model().element_curves(values)
-
-
-
-# --------------------------------------------------------------------------
-# The schema of the chain
-# --------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class ParamSpec:
-    """Specification of one numeric parameter: domain, unit, default."""
-
-    lo: float
-    hi: float
-    lo_open: bool
-    hi_open: bool
-    unit: str
-    default: float | None = None  # None: required
-    optional: bool = False  # may be absent (no default)
-
-    def contains(self, v: float) -> bool:
-        above = v > self.lo if self.lo_open else v >= self.lo
-        below = v < self.hi if self.hi_open else v <= self.hi
-        return above and below
-
-    def describe(self) -> str:
-        lo = "(" if self.lo_open else "["
-        hi = ")" if self.hi_open else "]"
-        fmt = lambda x: "inf" if x == _INF else "-inf" if x == -_INF else f"{x:g}"  # noqa: E731
-        unit = f" {self.unit}" if self.unit else ""
-        return f"a number in {lo}{fmt(self.lo)}, {fmt(self.hi)}{hi}{unit}"
-
-
-_WL = ParamSpec(100.0, 3000.0, False, False, "nm")
-_WIDTH = ParamSpec(0.0, 1000.0, True, False, "nm")
-_LEVEL1 = ParamSpec(0.0, 1.0, False, False, "", 1.0)
-_LEVEL0 = ParamSpec(0.0, 1.0, False, False, "", 0.0)
-_AOI = ParamSpec(0.0, 80.0, False, False, "deg", 0.0)
-
-# type -> (params, options). Options: key -> (kind, required, default)
-ELEMENT_TYPES: dict[str, tuple[dict[str, ParamSpec], dict[str, tuple]]] = {
-    "measured": ({}, {
-        "file": ("file", True, None), "column": ("str", False, None),
-        "extrapolation": (EXTRAPOLATIONS, False, "none"),
-    }),
-    "glass": ({
-        "thickness_mm": ParamSpec(0.0, 1000.0, True, False, "mm"),
-        "refractive_index": ParamSpec(1.0, 4.0, False, False, "", 1.52),
-    }, {
-        "file": ("file", True, None), "column": ("str", False, None),
-        "measured_thickness_mm": ("positive", True, None),
-        "reflection": (optics.REFLECTION_MODELS, False, "approx"),
-        "transmittance": (optics.GLASS_DATA, False, None),
-        "extrapolation": (EXTRAPOLATIONS, False, "none"),
-    }),
-    "long-pass": ({
-        "center_nm": _WL, "width_nm": _WIDTH, "pass_level": _LEVEL1, "block_level": _LEVEL0,
-    }, {"shape": (optics.EDGE_SHAPES, False, "logistic")}),
-    "short-pass": ({
-        "center_nm": _WL, "width_nm": _WIDTH, "pass_level": _LEVEL1, "block_level": _LEVEL0,
-    }, {"shape": (optics.EDGE_SHAPES, False, "logistic")}),
-    "band-pass": ({
-        "low_nm": _WL, "high_nm": _WL, "width_nm": _WIDTH, "pass_level": _LEVEL1,
-        "block_level": _LEVEL0,
-    }, {"shape": (optics.EDGE_SHAPES, False, "logistic")}),
-    "neutral-density": ({"density": ParamSpec(0.0, 10.0, False, False, "")}, {}),
-    "colour-correction": ({
-        "mired_shift": ParamSpec(-1000.0, 1000.0, False, False, "mired"), "peak_level": _LEVEL1,
-    }, {}),
-    "dichroic-splitter": ({
-        "blue_green_nm": _WL, "green_red_nm": _WL,
-        "blue_green_width_nm": _WIDTH, "green_red_width_nm": _WIDTH,
-        "blue_green_aoi_deg": _AOI, "green_red_aoi_deg": _AOI,
-        "n_eff_s": ParamSpec(1.0, 5.0, True, False, "", 1.8),
-        "n_eff_p": ParamSpec(1.0, 5.0, True, False, "", optional=True),
-        "medium_index": ParamSpec(1.0, 4.0, False, False, "", 1.0),
-        "f_number": ParamSpec(0.5, 1000.0, False, False, "", optional=True),
-        "loss": ParamSpec(0.0, 1.0, False, True, "", 0.0),
-    }, {
-        "order": (optics.SPLITTER_ORDERS, False, "blue-first"),
-        "shape": (optics.EDGE_SHAPES, False, "logistic"),
-        "rings": ("count", False, 4), "azimuths": ("count", False, 8),
-    }),
-    "sensor-qe": ({}, {
-        "file": ("file", True, None), "column": ("str", False, None),
-        "columns": ("columns", False, None),
-        "extrapolation": (EXTRAPOLATIONS, False, "none"),
-    }),
-}

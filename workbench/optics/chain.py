@@ -1,32 +1,24 @@
 """The optical chain of a design, evaluated for any (batched) parameter values.
 
-:class:`ChainModel` reads the design's measured curves once and then
-evaluates each element's curve and the product along each channel's path
-with plain numpy; :class:`ElementCurve` is one element's curve per channel.
+:class:`ChainModel` evaluates each element's curve — by the curve function
+of its kind in :data:`workbench.optics.kinds.ELEMENT_KINDS` — and the product
+along each channel's path with plain numpy, from a resolved design (its
+tabulated curves were read at load; nothing here reads a file).
+:class:`ElementCurve` is one element's curve per channel.
 """
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 
 import numpy as np
 
 from workbench.errors import WorkbenchError
 from workbench.model.design import CHANNELS, Design, Element
-from workbench.model.spectra import Spectra, coarsening_method
-from workbench.optics import elements as optics
+from workbench.model.spectra import Spectra
+from workbench.optics.kinds import CurveInput, ElementKind, element_kind
 
-__all__ = ["ElementCurve", "ChainModel", "uncovered"]
-
-
-def uncovered(s: Spectra, wavelengths, what: str) -> str:
-    """The message for measured data that do not cover the design grid, naming the key that extends them."""
-    wl = np.asarray(wavelengths)
-    return (f"data cover {s.wavelengths[0]:g}-{s.wavelengths[-1]:g} nm but the design grid is "
-            f"{wl[0]:g}-{wl[-1]:g} nm; set extrapolation = \"constant\" on this {what} to extend it "
-            "(CIE 167)")
-
+__all__ = ["ElementCurve", "ChainModel"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -42,9 +34,10 @@ class ElementCurve:
 class ChainModel:
     """The design's optical chain, ready to evaluate for any parameter values.
 
-    Measured curves are read and put on the design grid once, here; the
-    evaluation is then plain numpy. ``notes`` say how each curve was read
-    and resampled.
+    The design's tabulated curves were read and put on the design grid when
+    it was loaded; the evaluation is plain numpy. ``notes`` say how each
+    curve was read and resampled; ``units`` are those of the sensor's
+    curve (``'1'`` without one).
 
     Parameters
     ----------
@@ -52,78 +45,25 @@ class ChainModel:
     """
 
     def __init__(self, design: Design):
-        from workbench.fileio.spectra_csv import read_spectra_csv
-
         self.design = design
         self.wavelengths = design.grid.wavelengths
-        self._tables: dict[str, np.ndarray] = {}
-        self._glass_data: dict[str, str] = {}
+        self._kinds: dict[str, ElementKind] = {}
         notes: list[str] = []
         self.units = "1"
         for i, e in enumerate(design.chain):
-            file = e.option("file")
-            if file is None:
+            kind = element_kind(e.type)
+            self._kinds[e.name] = kind
+            if kind.reads is None:
                 continue
-            kind = "sensitivity" if e.type == "sensor-qe" else "transmittance"
-            s = read_spectra_csv(design.resolve(file), kind=kind)
-            if e.type == "sensor-qe":
-                self.units = s.units
-            key = f"chain[{i}]"
-            cols = e.option("columns")
-            if cols is not None:
-                names = [c for _, c in cols]
-            elif e.option("column") is not None:
-                names = [e.option("column")]
-            elif len(s) == 1:
-                names = [s.names[0]]
-            else:
-                raise WorkbenchError(
-                    f"{key}.column: expected the column to use, the file {file} holds "
-                    f"{len(s)} curves ({', '.join(s.names[:6])})"
-                )
-            missing = [n for n in names if n not in s.names]
-            if missing:
-                raise WorkbenchError(
-                    f"{key}: expected column {missing[0]!r} in {file} (it holds {', '.join(s.names[:6])})"
-                )
-            s = s.select(names)
-            if e.type == "glass":
-                self._glass_data[e.name] = self._glass_holds(e, key, file, names[0], notes)
-            extrapolation = e.option("extrapolation", "none")
-            if extrapolation == "none" and not s.covers(self.wavelengths[0], self.wavelengths[-1]):
-                raise WorkbenchError(
-                    f"{key} {e.name!r} ({file}): " + uncovered(s, self.wavelengths, "element"))
-            s = s.resample(self.wavelengths, extrapolation=extrapolation,
-                           method=coarsening_method(s.wavelengths, self.wavelengths, design.grid.resampling))
-            notes.extend(s.notes)
-            self._tables[e.name] = s.values
+            if e.data is None:
+                raise WorkbenchError(f"chain[{i}] ({e.name}): its curve file has not been read: designs are "
+                                     "read with workbench.fileio.design_toml.load_design, which reads every "
+                                     "file they name")
+            if kind.reads == "sensitivity":
+                self.units = e.data.units
+            notes.extend(e.data.notes)
         self.notes = tuple(notes)
         self._memo: dict[str, tuple] = {}
-
-    @staticmethod
-    def _glass_holds(e: Element, key: str, file: str, column: str, notes: list) -> str:
-        """'total' or 'internal': the element's ``transmittance`` key, else its column's header.
-
-        A header naming internal transmittance (Ti, τi, 'internal') is read
-        as such; a key contradicting the header is refused.
-        """
-        said = e.option("transmittance")
-        bare = re.sub(r"\s*(?:[(\[][^()\[\]]*[)\]]|%)\s*$", "", column.strip())
-        header_internal = (re.fullmatch(r"ti|τi|t_i|τ_i|tint", bare, re.IGNORECASE) is not None
-                           or re.search(r"(?<![a-z])internal(?![a-z])", column, re.IGNORECASE) is not None)
-        if e.option("reflection") == "none":
-            return "internal"
-        if said is None:
-            if header_internal:
-                notes.append(f"{key} {e.name!r} ({file}): column {column!r} read as internal transmittance "
-                             "(its header says so); the faces are added from refractive_index")
-                return "internal"
-            return "total"
-        if said == "total" and header_internal:
-            raise WorkbenchError(
-                f"{key} {e.name!r} ({file}): the header {column!r} says internal transmittance but "
-                'transmittance = "total"; set transmittance = "internal" (or name the column as total)')
-        return said
 
     def parameter_names(self) -> tuple[str, ...]:
         return tuple(self.design.parameters())
@@ -139,33 +79,9 @@ class ChainModel:
         return current
 
     def _curve(self, e: Element, p) -> np.ndarray:
-        wl = self.wavelengths
-        g = lambda k: p[f"{e.name}.{k}"]  # noqa: E731
-        t = e.type
-        if t in ("measured", "sensor-qe"):
-            return self._tables[e.name]  # (1|3, n)
-        if t == "glass":
-            return optics.glass_transmittance(
-                self._tables[e.name][0], e.option("measured_thickness_mm"), g("thickness_mm"),
-                g("refractive_index"), reflection=e.option("reflection"), data=self._glass_data[e.name])
-        if t in ("long-pass", "short-pass"):
-            return optics.edge(wl, g("center_nm"), g("width_nm"), kind=t, shape=e.option("shape"),
-                               pass_level=g("pass_level"), block_level=g("block_level"))
-        if t == "band-pass":
-            return optics.band_pass(wl, g("low_nm"), g("high_nm"), g("width_nm"),
-                                    shape=e.option("shape"), pass_level=g("pass_level"),
-                                    block_level=g("block_level"))
-        if t == "neutral-density":
-            return optics.neutral_density(wl, g("density"))
-        if t == "colour-correction":
-            return optics.colour_correction(wl, g("mired_shift"), peak_level=g("peak_level"))
-        if t == "dichroic-splitter":
-            kw = {k: g(k) for k, _ in e.params}
-            paths, _ = optics.dichroic_splitter(
-                wl, **kw, order=e.option("order"), shape=e.option("shape"),
-                rings=e.option("rings"), azimuths=e.option("azimuths"))
-            return paths
-        raise WorkbenchError(f"unknown element type {t!r}")  # pragma: no cover
+        x = CurveInput(self.wavelengths, {k: p[f"{e.name}.{k}"] for k, _ in e.params}, dict(e.options),
+                       e.paths, None if e.data is None else e.data.values)
+        return self._kinds[e.name].curve(x)
 
     def element_curves(self, values=None) -> tuple[ElementCurve, ...]:
         """Each element's curve on the R, G, B paths, ``(..., 3, n)`` (1 off its paths).
@@ -178,7 +94,6 @@ class ChainModel:
         """
         p = self._values(values)
         out = []
-        n = self.wavelengths.size
         for e in self.design.chain:
             # each element's curve is kept for its last parameter values: a slider or a fit
             # step that moves one element recomputes only that one
@@ -188,12 +103,8 @@ class ChainModel:
                 out.append(hit[1])
                 continue
             c = np.asarray(self._curve(e, p))
-            if e.type == "dichroic-splitter":
+            if self._kinds[e.name].per_path:
                 full = c
-            elif e.type in ("measured", "sensor-qe"):
-                # rows: one curve for all the element's paths, or one per path (R, G, B order)
-                on = {ch: c[j if c.shape[0] > 1 else 0] for j, ch in enumerate(e.paths)}
-                full = np.stack([on.get(ch, np.ones(n)) for ch in CHANNELS])
             else:
                 mask = np.array([ch in e.paths for ch in CHANNELS])[:, None]
                 full = np.where(mask, c[..., None, :], 1.0)

@@ -41,7 +41,8 @@ import numpy as np
 import ipywidgets as W
 
 from workbench import demo_dir
-from workbench.model.design import CHANNELS, ELEMENT_TYPES, Design
+from workbench.model.design import CHANNELS, Design
+from workbench.optics.kinds import parameter_spec
 from workbench.fileio.design_toml import load_design, save_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
@@ -65,10 +66,8 @@ def _nice_step(lo: float, hi: float, parts: int = 2000) -> float:
     return 10 * e  # pragma: no cover
 
 
-
 def _decimals(step: float) -> int:
     return max(0, -int(math.floor(math.log10(step) + 1e-9)))
-
 
 
 # --------------------------------------------------------------------------
@@ -145,31 +144,24 @@ def measures_html(m: Measures, *, sample_count: int | None = None) -> str:
 # --------------------------------------------------------------------------
 
 
-def _unit_of(element_type: str, key: str) -> str:
-    spec = ELEMENT_TYPES.get(element_type, ({}, {}))[0].get(key)
-    return spec.unit if spec is not None else ""
-
-
 def _slider_specs(design: Design) -> list[dict]:
-    """The parameters that get a slider: every one with min and max, plus angles of incidence and f-number.
+    """The parameters that get a slider: every one with min and max, plus those whose kind gives a range.
 
-    Angles and the f-number without bounds in the design get a range
-    around their value (±10°, within 0-80°; f/2 ÷ 2 to × 4) and are not
-    moved by the fit; the tooltip says so.
+    A parameter without bounds in the design gets a slider when its kind's
+    :class:`~workbench.optics.kinds.ParamSpec` has a ``slider`` rule (the
+    splitter's angles of incidence: ±10° within 0-80°; its f-number: f/2 ÷ 2
+    to × 4); it is not moved by the fit, and the tooltip says so.
     """
     specs = []
     for e in design.chain:
         for key, p in e.params:
             full = f"{e.name}.{key}"
-            unit = _unit_of(e.type, key)
+            spec = parameter_spec(e.type, key)
+            unit = spec.unit if spec is not None else ""
             if p.min is not None and p.max is not None:
                 lo, hi, note = float(p.min), float(p.max), "bounds from the design"
-            elif key.endswith("_aoi_deg"):
-                lo, hi = max(0.0, p.value - 10.0), min(80.0, p.value + 10.0)
-                note = "no bounds in the design: ±10° shown, not fitted"
-            elif key == "f_number":
-                lo, hi = max(0.5, p.value / 2), p.value * 4
-                note = "no bounds in the design: f/2 ÷ 2 to × 4 shown, not fitted"
+            elif spec is not None and spec.slider is not None:
+                lo, hi, note = spec.slider(p.value)
             else:
                 continue
             specs.append({"key": full, "element": e.name, "type": e.type, "param": key, "unit": unit,

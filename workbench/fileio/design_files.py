@@ -1,0 +1,141 @@
+"""Reading what a design names, once: the second half of loading a design.
+
+:func:`resolve_design` takes a validated :class:`~workbench.model.design.Design`
+and returns it with every file it names read and put on the design grid —
+the tabulated curves of its chain elements (kinds that ``reads``), its
+illuminants, its sample sets and the emitter spectra of its target — each
+with the notes of reading and resampling. The arrays are read-only. After
+this, computing with the design (the chain, the evaluator, the tolerance
+run) never touches the disk.
+
+Files are read in the order the computation used to need them (chain,
+target, illuminants, samples), so the first bad file is reported first, and
+each message is the one the reader gives (file, line, what was expected).
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from workbench.colorimetry.cie import illuminant_on
+from workbench.colorimetry.samples import open_sample_set
+from workbench.errors import RangeCoverageError, WorkbenchError
+from workbench.fileio.spectra_csv import read_spectra_csv
+from workbench.model.design import Design, Element, IlluminantSpec, SampleSetSpec
+from workbench.model.spectra import Spectra
+from workbench.optics.kinds import element_kind
+
+__all__ = ["resolve_design", "uncovered"]
+
+
+def uncovered(s: Spectra, wavelengths, what: str) -> str:
+    """The message for measured data that do not cover the design grid, naming the key that extends them."""
+    wl = np.asarray(wavelengths)
+    return (f"data cover {s.wavelengths[0]:g}-{s.wavelengths[-1]:g} nm but the design grid is "
+            f"{wl[0]:g}-{wl[-1]:g} nm; set extrapolation = \"constant\" on this {what} to extend it "
+            "(CIE 167)")
+
+
+def _frozen(s: Spectra) -> Spectra:
+    values = np.array(s.values, dtype=float)
+    values.setflags(write=False)
+    return replace(s, values=values)
+
+
+def _frozen_array(a) -> np.ndarray:
+    a = np.array(a, dtype=float)
+    a.setflags(write=False)
+    return a
+
+
+def _element_data(design: Design, e: Element, i: int) -> Element:
+    kind = element_kind(e.type)
+    file = e.option("file")
+    if kind.reads is None or file is None:
+        return e
+    s = read_spectra_csv(design.resolve(file), kind=kind.reads)
+    key = f"chain[{i}]"
+    cols = e.option("columns")
+    if cols is not None:
+        names = [c for _, c in cols]
+    elif e.option("column") is not None:
+        names = [e.option("column")]
+    elif len(s) == 1:
+        names = [s.names[0]]
+    else:
+        raise WorkbenchError(
+            f"{key}.column: expected the column to use, the file {file} holds "
+            f"{len(s)} curves ({', '.join(s.names[:6])})"
+        )
+    missing = [n for n in names if n not in s.names]
+    if missing:
+        raise WorkbenchError(
+            f"{key}: expected column {missing[0]!r} in {file} (it holds {', '.join(s.names[:6])})"
+        )
+    s = s.select(names)
+    wl = design.grid.wavelengths
+    extrapolation = e.option("extrapolation", "none")
+    if extrapolation == "none" and not s.covers(wl[0], wl[-1]):
+        raise WorkbenchError(f"{key} {e.name!r} ({file}): " + uncovered(s, wl, "element"))
+    s = s.resample(wl, extrapolation=extrapolation)
+    return replace(e, data=_frozen(s))
+
+
+def _illuminant(design: Design, spec: IlluminantSpec, index: int) -> IlluminantSpec:
+    wl = design.grid.wavelengths
+    where = f"illuminants[{index}] {spec.name!r}"
+    if spec.cie is not None:
+        try:
+            label, tab = illuminant_on(wl, spec.cie)
+        except WorkbenchError as e:
+            raise WorkbenchError(f"{where}: {e}") from None
+        return replace(spec, label=label, values=_frozen_array(tab.values), notes=(tab.note,))
+    s = read_spectra_csv(design.resolve(spec.file), kind="emission")
+    if spec.column is not None:
+        s = s.select([spec.column])
+    elif len(s) != 1:
+        raise WorkbenchError(
+            f"illuminant {spec.name!r}: expected a column, the file {spec.file} holds {len(s)} spectra"
+        )
+    if spec.extrapolation == "none" and not s.covers(wl[0], wl[-1]):
+        raise WorkbenchError(f"{where} ({spec.file}): " + uncovered(s, wl, "entry"))
+    s = s.resample(wl, extrapolation=spec.extrapolation)
+    return replace(spec, label=f"{spec.name} ({spec.file})", values=_frozen_array(s.flat()[0]),
+                   notes=tuple(s.notes))
+
+
+def _samples(design: Design, spec: SampleSetSpec, index: int) -> SampleSetSpec:
+    file = None if spec.file is None else design.resolve(spec.file)
+    wl = design.grid.wavelengths
+    try:
+        s = open_sample_set(spec.source, wl, file=file, extrapolation=spec.extrapolation)
+    except RangeCoverageError as e:
+        what = spec.file or spec.source
+        text = str(e).split(" nm but ")[0]
+        raise WorkbenchError(
+            f"samples[{index}] {spec.name!r} ({what}): {text} nm but the design grid is {wl[0]:g}-{wl[-1]:g} "
+            "nm; set extrapolation = \"constant\" on this entry to extend it (CIE 167)") from None
+    return replace(spec, spectra=_frozen(s))
+
+
+def resolve_design(design: Design) -> Design:
+    """``design`` with every file it names read once and put on its grid (see the module notes).
+
+    Raises
+    ------
+    InputFileError, WorkbenchError
+        A file cannot be read, lacks a column the design names, or does not
+        cover the grid (with the element's or illuminant's key).
+    """
+    chain = tuple(_element_data(design, e, i) for i, e in enumerate(design.chain))
+    target = design.target
+    if target.kind == "emitters" and target.file is not None:
+        s = read_spectra_csv(design.resolve(target.file), kind="emission")
+        if target.columns is not None:
+            s = s.select(list(target.columns))
+        target = replace(target, emitters=_frozen(s))
+    illuminants = tuple(_illuminant(design, s, i) for i, s in enumerate(design.illuminants))
+    samples = tuple(_samples(design, s, i) for i, s in enumerate(design.samples))
+    return replace(design, chain=chain, target=target, illuminants=illuminants, samples=samples)
