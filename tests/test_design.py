@@ -448,13 +448,28 @@ class TestLoadThenCompute:
         with pytest.raises(ValueError):
             lens.values[0, 0] = 2.0
 
+    def test_bad_entry_raises_where_used(self, tmp_path):
+        """A file that cannot be used stops only what uses it, with its message, and is not read again."""
+        work = tmp_path / "demo"
+        shutil.copytree(DEMO.parent, work)
+        p = work / DEMO.name
+        p.write_text(DEMO.read_text().replace('name = "halogen"\n', 'name = "halogen"\ncolumn = "none"\n'))
+        d = load_design(p)
+        shutil.rmtree(work)
+        assert d.channel_sensitivities().shape == (3, 81)
+        assert d.illuminant_values("daylight")[1].shape == (81,)
+        for _ in range(2):
+            with pytest.raises(WorkbenchError) as e:
+                d.illuminant_values("halogen")
+            assert str(e.value) == "no spectrum named 'none' (have halogen-3200K)"
+
     def test_unresolved_design_is_one_line(self):
         """A design assembled in code without its files says how to read it, in one line."""
         from dataclasses import replace
 
         d = load_design(DEMO)
         bare = replace(d, chain=tuple(replace(e, data=None) for e in d.chain))
-        with pytest.raises(WorkbenchError, match=r"^chain\[0\] \(lens\): its curve file has not been read"):
+        with pytest.raises(WorkbenchError, match=r"^chain\[0\] \(lens\): its files have not been read"):
             bare.channel_sensitivities()
         ill = replace(d, illuminants=tuple(replace(i, values=None) for i in d.illuminants))
         with pytest.raises(WorkbenchError, match="^illuminant 'daylight' has not been read"):

@@ -18,9 +18,11 @@ from workbench.optics.kinds import (
     CurveInput,
     ElementKind,
     KindProblem,
+    LoadInput,
     OptionSpec,
     ParamSpec,
     element_kind,
+    element_param_spec,
     parameter_spec,
     register_kind,
     unregister_kind,
@@ -194,6 +196,104 @@ class TestRegisterKind:
         row = kinds_table().splitlines()[-1]
         assert row.startswith("| `test-notch` | Gaussian notch (test only) | `center_nm` ([100, 3000] nm; required)")
         assert "`style` (`narrow`/`wide`, default `wide`)" in row
+
+
+# --------------------------------------------------------------------------
+# A throwaway kind with parameters that follow from its options and data read at load:
+# absorbing layers, each with its own thickness parameter, the absorption from a file
+# --------------------------------------------------------------------------
+
+
+def _layer_names(v):
+    if not isinstance(v, list) or not v or any(not isinstance(x, str) or not x.isidentifier() for x in v):
+        raise ValueError("an array of layer names")
+    return tuple(v)
+
+
+def _layer_params(options: dict) -> dict:
+    return {f"{n}_nm": ParamSpec(0.0, 1e4, True, False, "nm", meaning=f"thickness of {n}")
+            for n in options.get("layers", ())}
+
+
+class _Absorption:
+    """What the test kind reads at load: an absorption coefficient per nm and a note."""
+
+    def __init__(self, alpha: float, notes: tuple):
+        self.alpha, self.notes = alpha, notes
+
+
+def _load_absorption(x: LoadInput) -> _Absorption:
+    text = x.resolve(x.option("absorption")).read_text()
+    return _Absorption(float(text.strip()), (f"{x.key}: absorption {text.strip()} per nm",))
+
+
+def _layers_curve(x: CurveInput) -> np.ndarray:
+    total = sum(np.asarray(v) for k, v in x.params.items())
+    return np.exp(-x.data.alpha * np.asarray(total)[..., None]) * np.ones_like(x.wavelengths)
+
+
+LAYERS = ElementKind(
+    name="test-layers",
+    summary="absorbing layers (test only)",
+    curve=_layers_curve,
+    options={"layers": OptionSpec(_layer_names, required=True), "absorption": OptionSpec("file", required=True)},
+    more_params=_layer_params,
+    load=_load_absorption,
+)
+
+LAYERS_TOML = """
+[[chain]]
+name = "film"
+type = "test-layers"
+layers = ["a", "b"]
+absorption = "alpha.txt"
+a_nm = { value = 100, min = 50, max = 200, free = true }
+b_nm = 300
+"""
+
+
+@pytest.fixture
+def layers():
+    """The throwaway layered kind, registered for one test."""
+    register_kind(LAYERS)
+    yield LAYERS
+    unregister_kind(LAYERS.name)
+
+
+class TestKindWithOwnParameters:
+    def test_loads_evaluates_and_needs_no_disk_afterwards(self, layers, tmp_path):
+        """Parameters named by the options are fitted and saved; the load function's data reach the curve."""
+        p = _design_with(tmp_path, LAYERS_TOML)
+        (p.parent / "alpha.txt").write_text("0.001")
+        d = load_design(p)
+        film = d.chain[-1]
+        assert [k for k, _ in film.params] == ["a_nm", "b_nm"]
+        assert "film.a_nm" in d.free_parameters()
+        assert element_param_spec(film, "b_nm").unit == "nm" and parameter_spec("test-layers", "b_nm") is None
+        base = load_design(DEMO).channel_sensitivities().values
+        save_design(d, tmp_path / "saved.toml")
+        shutil.rmtree(p.parent)
+        S = d.channel_sensitivities().values
+        np.testing.assert_allclose(S, base * np.exp(-0.001 * 400), rtol=1e-12)  # Beer-Lambert, written out
+        S2 = d.with_values({"film.a_nm": 200.0}).channel_sensitivities().values
+        np.testing.assert_allclose(S2, base * np.exp(-0.001 * 500), rtol=1e-12)
+        assert "chain[9]: absorption 0.001 per nm" in d.model().notes
+
+    def test_bad_option_and_unknown_layer(self, layers, tmp_path):
+        """A bad option value and a parameter no option names are reported like any other."""
+        bad = LAYERS_TOML.replace('layers = ["a", "b"]', 'layers = ["a"]').replace("b_nm = 300", "b_nm = 300\nc = 1")
+        p = _design_with(tmp_path, bad)
+        (p.parent / "alpha.txt").write_text("0.001")
+        with pytest.raises(DesignError) as e:
+            load_design(p)
+        assert str(e.value).splitlines()[1:] == [
+            "  chain[9].b_nm: expected no such key (unknown; allowed: name, type, paths, a_nm, layers, absorption)",
+            "  chain[9].c: expected no such key (unknown; allowed: name, type, paths, a_nm, layers, absorption)",
+        ]
+        p.write_text(p.read_text().replace('layers = ["a"]', "layers = 3"))
+        with pytest.raises(DesignError) as e:
+            load_design(p)
+        assert "  chain[9].layers: expected an array of layer names (got 3)" in str(e.value).splitlines()
 
 
 class TestDocsTable:

@@ -225,6 +225,8 @@ def design_primaries(design: Design) -> Primaries:
     if t.kind == "chromaticities":
         return primaries_from_xy([t.red, t.green, t.blue], t.white or "D65", name="design target",
                                  observer=design.observer)
+    if t.error is not None:
+        raise t.error.with_traceback(None)
     if t.emitters is None:
         raise WorkbenchError(f"the target's emitter file {t.file} has not been read: designs are read with "
                              "workbench.fileio.design_toml.load_design, which reads every file they name")

@@ -23,6 +23,7 @@ import numpy as np
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
 from workbench.errors import WorkbenchError
 from workbench.model.design import ACROSS_ILLUMINANTS, CHANNELS, Design
+from workbench.optics.kinds import element_param_spec
 from workbench.report.html import fit_result_html
 from workbench.report.json_text import json_text
 
@@ -180,13 +181,11 @@ class FitResult:
 
 
 def parameter_unit(design: Design, name: str) -> str:
-    """The unit of the chain parameter ``element.key`` from the element type's schema ('°' for degrees)."""
-    from workbench.model.design import ELEMENT_TYPES
-
+    """The unit of the chain parameter ``element.key`` from its element kind's registry entry ('°' for degrees)."""
     element, _, key = name.rpartition(".")
     for e in design.chain:
         if e.name == element:
-            spec = ELEMENT_TYPES.get(e.type, ({}, {}))[0].get(key)
+            spec = element_param_spec(e, key)
             if spec is not None:
                 return {"deg": "°"}.get(spec.unit, spec.unit) or "1"
     return ""

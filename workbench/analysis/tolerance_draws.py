@@ -13,7 +13,7 @@ import zlib
 import numpy as np
 
 from workbench.model.design import Design, Tolerance
-from workbench.optics.kinds import ELEMENT_KINDS, parameter_spec
+from workbench.optics.kinds import ELEMENT_KINDS, element_param_spec
 from workbench.errors import WorkbenchError
 
 __all__ = [
@@ -33,7 +33,7 @@ def _spec_of(design: Design, key: str):
     name, _, param = key.partition(".")
     for e in design.chain:
         if e.name == name:
-            return parameter_spec(e.type, param)
+            return element_param_spec(e, param)
     return None
 
 

@@ -12,6 +12,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from workbench.colorimetry.coordinates import delta_E_CIE2000
+from workbench.optics.kinds import ELEMENT_KINDS
 from workbench.model.design import Design, FieldPosition
 from workbench.errors import WorkbenchError
 
@@ -55,8 +56,9 @@ def angle_in_glass(field_angle_deg: float, medium_index: float) -> float:
 
 
 def splitter_element(design: Design):
+    """The first element whose kind declares ``field_angles`` (the splitter), else None."""
     for e in design.chain:
-        if e.type == "dichroic-splitter":
+        if ELEMENT_KINDS[e.type].field_angles:
             return e
     return None
 
@@ -95,8 +97,7 @@ class FieldShift:
                 out.append({
                     "position": p.name, "aoi_offset_deg": p.aoi_offset_deg, "field_angle_deg": p.field_angle_deg,
                     "illuminant": ill,
-                    "blue_green_aoi_deg": self.aoi_deg["blue_green"][f],
-                    "green_red_aoi_deg": self.aoi_deg["green_red"][f],
+                    **{f"{face}_aoi_deg": a[f] for face, a in self.aoi_deg.items()},
                     "sample_shift_mean": float(self.sample_shift_mean[f, j]),
                     "sample_shift_max": float(self.sample_shift_max[f, j]),
                     "white_shift": float(self.white_shift[f, j]),
@@ -170,18 +171,19 @@ def field_shift(design: Design, *, evaluator=None, matrices=None, positions=None
     if matrices is None:
         matrices = ev.measures(use_stored_matrix=design.matrix is not None).matrices
     params = dict(sp.params)
-    bg0 = params["blue_green_aoi_deg"].value
-    gr0 = params["green_red_aoi_deg"].value
-    n_glass = float(params["medium_index"].value)
+    # the prism glass the field angle enters (the splitter's medium_index; air for a kind without one)
+    n_glass = float(params["medium_index"].value) if "medium_index" in params else 1.0
     pos = tuple(p if p.field_angle_deg is None else replace(p, aoi_offset_deg=angle_in_glass(p.field_angle_deg, n_glass))
                 for p in pos)
     off = np.array([0.0] + [p.aoi_offset_deg for p in pos])
-    bg, gr = bg0 + off, gr0 + off
-    for what, a in (("blue_green_aoi_deg", bg), ("green_red_aoi_deg", gr)):
+    angles = {}
+    for what in ELEMENT_KINDS[sp.type].field_angles:
+        a = params[what].value + off
         if np.any(np.abs(a) > 80):
             raise WorkbenchError(f"{sp.name}.{what} + aoi_offset_deg must stay within ±80° "
                                  f"(got {float(a[np.abs(a) > 80][0]):g}°)")
-    S = ev.sensitivities({f"{sp.name}.blue_green_aoi_deg": bg, f"{sp.name}.green_red_aoi_deg": gr})
+        angles[f"{sp.name}.{what}"] = a
+    S = ev.sensitivities(angles)
     b = ev.bench
     raw, white = b.raw(S)                                           # (F+1, J, K, 3), (F+1, J, 3)
     if np.any(white[0] <= 0):
@@ -207,7 +209,8 @@ def field_shift(design: Design, *, evaluator=None, matrices=None, positions=None
               f"a flat {grey:g} grey against the same at the centre; delta_E00_mean = mean CIEDE2000 against the truth")
     return FieldShift(
         positions=pos, illuminants=tuple(b.illuminant_names), splitter=sp.name,
-        aoi_deg={"blue_green": [float(v) for v in bg[1:]], "green_red": [float(v) for v in gr[1:]]},
+        aoi_deg={k.rpartition(".")[2].removesuffix("_aoi_deg"): [float(v) for v in a[1:]]
+                 for k, a in angles.items()},
         sample_shift_mean=shift[1:].mean(axis=-1), sample_shift_max=shift[1:].max(axis=-1),
         white_shift=dw[1:], grey_shift=dg[1:], delta_E00_mean=truth[1:].mean(axis=-1),
         sensitivities=np.asarray(S[1:]), wavelengths=ev.wavelengths, grey=grey, method=method,

@@ -2,15 +2,16 @@
 
 :func:`resolve_design` takes a validated :class:`~workbench.model.design.Design`
 and returns it with every file it names read and put on the design grid —
-the tabulated curves of its chain elements (kinds that ``reads``), its
+the tabulated curves of its chain elements (kinds that ``reads``; what a
+kind's own ``load`` function reads), its
 illuminants, its sample sets and the emitter spectra of its target — each
 with the notes of reading and resampling. The arrays are read-only. After
 this, computing with the design (the chain, the evaluator, the tolerance
 run) never touches the disk.
 
-Files are read in the order the computation used to need them (chain,
-target, illuminants, samples), so the first bad file is reported first, and
-each message is the one the reader gives (file, line, what was expected).
+A file that cannot be used does not stop loading: the entry keeps the
+error and raises it when it is used (see :func:`resolve_design`), with the
+message the reader gives (file, line, what was expected).
 """
 
 from __future__ import annotations
@@ -25,7 +26,7 @@ from workbench.errors import RangeCoverageError, WorkbenchError
 from workbench.fileio.spectra_csv import read_spectra_csv
 from workbench.model.design import Design, Element, IlluminantSpec, SampleSetSpec
 from workbench.model.spectra import Spectra
-from workbench.optics.kinds import element_kind
+from workbench.optics.kinds import LoadInput, element_kind
 
 __all__ = ["resolve_design", "uncovered"]
 
@@ -52,6 +53,10 @@ def _frozen_array(a) -> np.ndarray:
 
 def _element_data(design: Design, e: Element, i: int) -> Element:
     kind = element_kind(e.type)
+    if kind.load is not None:
+        data = kind.load(LoadInput(f"chain[{i}]", e.name, dict(e.options), e.paths, design.grid.wavelengths,
+                                   design.resolve))
+        return replace(e, data=data)
     file = e.option("file")
     if kind.reads is None or file is None:
         return e
@@ -120,22 +125,35 @@ def _samples(design: Design, spec: SampleSetSpec, index: int) -> SampleSetSpec:
     return replace(spec, spectra=_frozen(s))
 
 
+def _emitters(design: Design, target):
+    s = read_spectra_csv(design.resolve(target.file), kind="emission")
+    if target.columns is not None:
+        s = s.select(list(target.columns))
+    return replace(target, emitters=_frozen(s))
+
+
+def _kept(resolve, spec, *args):
+    """``resolve(...)``, or ``spec`` carrying the error when its file cannot be used."""
+    try:
+        return resolve(*args)
+    except WorkbenchError as err:
+        return replace(spec, error=err)
+
+
 def resolve_design(design: Design) -> Design:
     """``design`` with every file it names read once and put on its grid (see the module notes).
 
-    Raises
-    ------
-    InputFileError, WorkbenchError
-        A file cannot be read, lacks a column the design names, or does not
-        cover the grid (with the element's or illuminant's key).
+    An entry whose file cannot be read, lacks a column the design names or
+    does not cover the grid keeps the error (``error``), and it is raised,
+    with the same message as ever (the entry's key, its file, what was
+    expected), where the entry is used: the chain when it is built, an
+    illuminant or sample set when it is asked for, the target when the
+    primaries are made.
     """
-    chain = tuple(_element_data(design, e, i) for i, e in enumerate(design.chain))
+    chain = tuple(_kept(_element_data, e, design, e, i) for i, e in enumerate(design.chain))
     target = design.target
     if target.kind == "emitters" and target.file is not None:
-        s = read_spectra_csv(design.resolve(target.file), kind="emission")
-        if target.columns is not None:
-            s = s.select(list(target.columns))
-        target = replace(target, emitters=_frozen(s))
-    illuminants = tuple(_illuminant(design, s, i) for i, s in enumerate(design.illuminants))
-    samples = tuple(_samples(design, s, i) for i, s in enumerate(design.samples))
+        target = _kept(_emitters, target, design, target)
+    illuminants = tuple(_kept(_illuminant, s, design, s, i) for i, s in enumerate(design.illuminants))
+    samples = tuple(_kept(_samples, s, design, s, i) for i, s in enumerate(design.samples))
     return replace(design, chain=chain, target=target, illuminants=illuminants, samples=samples)

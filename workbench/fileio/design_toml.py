@@ -285,6 +285,12 @@ def _check_option(c: _Checker, val, spec: OptionSpec, key: str, paths):
                   f"({', '.join(paths)})", val)
             return None
         return tuple((ch, val[ch]) for ch in CHANNELS if ch in val)
+    if callable(kind):
+        try:
+            return kind(val)
+        except ValueError as err:
+            c.bad(key, str(err), val)
+            return None
     return c.choice(val, kind, key)
 
 
@@ -300,7 +306,21 @@ def _check_element(c: _Checker, v, i: int) -> Element | None:
         c.bad(f"{key}.type", f"one of {', '.join(ELEMENT_KINDS)}", etype)
         return None
     kind = ELEMENT_KINDS[etype]
-    allowed = ("name", "type") + (("paths",) if kind.paths_key else ()) + tuple(kind.params) + tuple(kind.options)
+    pspecs = kind.params
+    if kind.more_params is not None:
+        # the element's own parameters depend on its options: read those quietly first (their
+        # problems are reported below, in the usual order)
+        quiet = _Checker(c.base_dir)
+        given = {k: _check_option(quiet, t[k], spec, k, CHANNELS) for k, spec in kind.options.items() if k in t}
+        given = {k: v for k, v in given.items() if v is not None}
+        given.update({k: spec.default for k, spec in kind.options.items()
+                      if k not in given and spec.default is not None})
+        try:
+            pspecs = kind.param_specs(given)
+        except (WorkbenchError, ValueError, KeyError, TypeError) as err:
+            c.bad(key, f"options from which the element's parameters follow ({err})", show_got=False)
+            return None
+    allowed = ("name", "type") + (("paths",) if kind.paths_key else ()) + tuple(pspecs) + tuple(kind.options)
     c.unknown(t, allowed, key)
     ok = name is not None
     paths = CHANNELS
@@ -313,7 +333,7 @@ def _check_element(c: _Checker, v, i: int) -> Element | None:
         else:
             paths = tuple(ch for ch in CHANNELS if ch in p)
     params = []
-    for k, spec in kind.params.items():
+    for k, spec in pspecs.items():
         if k not in t:
             if spec.optional:
                 continue

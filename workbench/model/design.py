@@ -18,7 +18,10 @@ A design from :func:`~workbench.fileio.design_toml.load_design` is fully
 resolved: every file it names has been read once, and its curves sit in the
 design as arrays on the design grid with their notes (``Element.data``,
 ``IlluminantSpec.values``, ``SampleSetSpec.spectra``, ``Target.emitters``;
-these are not compared by ``==``). Nothing here reads a file.
+these are not compared by ``==``). An entry whose file could not be used
+carries the error (``error``), raised with its message when the entry is
+used — an illuminant the computation never asks for does not stop the rest.
+Nothing here reads a file.
 """
 
 from __future__ import annotations
@@ -139,7 +142,9 @@ class Element:
     order; ``paths`` the channels it sits on. ``data`` holds the tabulated
     curve(s) an element of a kind that reads a file was given, read at load
     and put on the design grid (``Spectra``, one row or one per path, with
-    the notes of reading and resampling); ``None`` for the others.
+    the notes of reading and resampling), or what its kind's ``load``
+    returned; ``None`` for the others. ``error``: why its file could not be
+    used (raised when the chain is built).
     """
 
     name: str
@@ -147,7 +152,8 @@ class Element:
     paths: tuple[str, ...]
     params: tuple[tuple[str, Param], ...]
     options: tuple[tuple[str, Any], ...]
-    data: Spectra | None = field(default=None, compare=False, repr=False)
+    data: Any = field(default=None, compare=False, repr=False)
+    error: Exception | None = field(default=None, compare=False, repr=False)
 
     def param(self, key: str) -> Param | None:
         return dict(self.params).get(key)
@@ -195,6 +201,7 @@ class Target:
     file: str | None = None
     columns: tuple[str, ...] | None = None
     emitters: Spectra | None = field(default=None, compare=False, repr=False)
+    error: Exception | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)
@@ -210,6 +217,7 @@ class SampleSetSpec:
     file: str | None = None
     extrapolation: str = "none"
     spectra: Spectra | None = field(default=None, compare=False, repr=False)
+    error: Exception | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)
@@ -228,6 +236,7 @@ class IlluminantSpec:
     label: str | None = field(default=None, compare=False, repr=False)
     values: np.ndarray | None = field(default=None, compare=False, repr=False)
     notes: tuple[str, ...] = field(default=(), compare=False, repr=False)
+    error: Exception | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)
@@ -419,6 +428,8 @@ class Design:
                 f"{', '.join(i.name for i in self.illuminants) or 'none'})"
             )
         spec = self.illuminants[index]
+        if spec.error is not None:
+            raise spec.error.with_traceback(None)
         if spec.values is None:
             raise WorkbenchError(_NOT_RESOLVED.format(what=f"illuminant {name!r}"))
         return spec.label, spec.values, spec.notes
@@ -431,6 +442,8 @@ class Design:
                 f"no sample set named {name!r} in the design (have "
                 f"{', '.join(s.name for s in self.samples) or 'none'})"
             )
+        if spec.error is not None:
+            raise spec.error.with_traceback(None)
         if spec.spectra is None:
             raise WorkbenchError(_NOT_RESOLVED.format(what=f"sample set {name!r}"))
         return spec.spectra

@@ -51,17 +51,19 @@ class ChainModel:
         notes: list[str] = []
         self.units = "1"
         for i, e in enumerate(design.chain):
+            if e.error is not None:
+                raise e.error.with_traceback(None)
             kind = element_kind(e.type)
             self._kinds[e.name] = kind
-            if kind.reads is None:
+            if kind.reads is None and kind.load is None:
                 continue
             if e.data is None:
-                raise WorkbenchError(f"chain[{i}] ({e.name}): its curve file has not been read: designs are "
+                raise WorkbenchError(f"chain[{i}] ({e.name}): its files have not been read: designs are "
                                      "read with workbench.fileio.design_toml.load_design, which reads every "
                                      "file they name")
             if kind.reads == "sensitivity":
                 self.units = e.data.units
-            notes.extend(e.data.notes)
+            notes.extend(getattr(e.data, "notes", ()))
         self.notes = tuple(notes)
         self._memo: dict[str, tuple] = {}
 
@@ -79,9 +81,11 @@ class ChainModel:
         return current
 
     def _curve(self, e: Element, p) -> np.ndarray:
+        kind = self._kinds[e.name]
+        data = e.data.values if kind.reads is not None and e.data is not None else e.data
         x = CurveInput(self.wavelengths, {k: p[f"{e.name}.{k}"] for k, _ in e.params}, dict(e.options),
-                       e.paths, None if e.data is None else e.data.values)
-        return self._kinds[e.name].curve(x)
+                       e.paths, data)
+        return kind.curve(x)
 
     def element_curves(self, values=None) -> tuple[ElementCurve, ...]:
         """Each element's curve on the R, G, B paths, ``(..., 3, n)`` (1 off its paths).

@@ -37,7 +37,7 @@ from workbench.analysis.fit import BOUND_COSTS_METHOD
 from workbench.analysis.measures import vora_value
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.atomic import write_text_atomically
-from workbench.optics.kinds import parameter_spec
+from workbench.optics.kinds import element_param_spec
 from workbench.plots._canvas import png_bytes, svg_bytes
 from workbench.plots.fit import (plot_chromaticity_shifts, plot_delta_e_bars, plot_noise_vs_accuracy,
                                  plot_sensitivities_vs_targets)
@@ -325,7 +325,7 @@ def _parameter_unit(design, name: str) -> str:
     element, _, key = name.rpartition(".")
     for e in design.chain:
         if e.name == element:
-            spec = parameter_spec(e.type, key)
+            spec = element_param_spec(e, key)
             if spec is not None:
                 return {"deg": "°"}.get(spec.unit, spec.unit) or "1 (dimensionless)"
     return "as in the design file"

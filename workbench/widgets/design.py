@@ -42,7 +42,7 @@ import ipywidgets as W
 
 from workbench import demo_dir
 from workbench.model.design import CHANNELS, Design
-from workbench.optics.kinds import parameter_spec
+from workbench.optics.kinds import element_param_spec
 from workbench.fileio.design_toml import load_design, save_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
@@ -156,7 +156,7 @@ def _slider_specs(design: Design) -> list[dict]:
     for e in design.chain:
         for key, p in e.params:
             full = f"{e.name}.{key}"
-            spec = parameter_spec(e.type, key)
+            spec = element_param_spec(e, key)
             unit = spec.unit if spec is not None else ""
             if p.min is not None and p.max is not None:
                 lo, hi, note = float(p.min), float(p.max), "bounds from the design"

@@ -14,8 +14,8 @@ import importlib
 import pkgutil
 
 from workbench.optics.kinds.registry import (
-    ELEMENT_KINDS, CurveInput, ElementKind, KindProblem, OptionSpec, ParamSpec, element_kind, parameter_spec,
-    register_kind, unregister_kind,
+    ELEMENT_KINDS, CurveInput, ElementKind, KindProblem, LoadInput, OptionSpec, ParamSpec, element_kind,
+    element_param_spec, parameter_spec, register_kind, unregister_kind,
 )
 
 __all__ = [
@@ -26,7 +26,9 @@ __all__ = [
     "OptionSpec",
     "ParamSpec",
     "element_kind",
+    "element_param_spec",
     "parameter_spec",
+    "LoadInput",
     "register_kind",
     "unregister_kind",
 ]

@@ -52,6 +52,7 @@ KIND = register_kind(ElementKind(
         "azimuths": OptionSpec("count", default=8, meaning="quadrature azimuths over the cone"),
     },
     ordered=(("blue_green_nm", "green_red_nm"),),
+    field_angles=("blue_green_aoi_deg", "green_red_aoi_deg"),
     notes="energy conserved per ray; edges shift with the angle of incidence by the effective index",
     order=80,
 ))

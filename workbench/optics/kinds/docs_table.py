@@ -36,6 +36,8 @@ def _param(key: str, spec: ParamSpec) -> str:
 def _option(key: str, spec: OptionSpec) -> str:
     if isinstance(spec.kind, tuple):
         what = "/".join(f"`{c}`" for c in spec.kind)
+    elif callable(spec.kind):
+        what = "see below"
     else:
         what = {"file": "a CSV file", "str": "a name", "positive": "a number > 0", "count": "an integer 1-64",
                 "columns": "a table"}[spec.kind]

@@ -49,6 +49,8 @@ __all__ = [
     "unregister_kind",
     "element_kind",
     "parameter_spec",
+    "element_param_spec",
+    "LoadInput",
 ]
 
 #: The camera's channels, in the order of every (..., 3, n) array.
@@ -120,7 +122,8 @@ class ParamSpec:
 #: Option value kinds the validator knows: ``'file'`` (a file name relative to the design file, read
 #: at load when the kind ``reads``), ``'str'`` (a non-empty string), ``'positive'`` (a number > 0),
 #: ``'count'`` (an integer 1-64), ``'columns'`` (a table naming a column for each of the element's
-#: paths); or a tuple of allowed strings.
+#: paths); or a tuple of allowed strings; or a function ``value -> parsed value`` that raises
+#: ``ValueError("<what was expected>")`` for a bad value (any TOML value: strings, arrays, tables).
 OPTION_KINDS = ("file", "str", "positive", "count", "columns")
 
 
@@ -132,13 +135,13 @@ class OptionSpec:
     ``default`` is used when the key is absent and not ``required``.
     """
 
-    kind: str | tuple[str, ...]
+    kind: str | tuple[str, ...] | Callable[[Any], Any]
     required: bool = False
     default: Any = None
     meaning: str = ""
 
     def __post_init__(self):
-        if not isinstance(self.kind, tuple) and self.kind not in OPTION_KINDS:
+        if not isinstance(self.kind, tuple) and not callable(self.kind) and self.kind not in OPTION_KINDS:
             raise WorkbenchError(f"option kind must be one of {', '.join(OPTION_KINDS)} or a tuple of "
                                  f"choices (got {self.kind!r})")
 
@@ -171,9 +174,10 @@ class CurveInput:
         The element's options (defaults filled in).
     paths : tuple of str
         The channels the element sits on, in R, G, B order.
-    data : (rows, n) ndarray or None
+    data : (rows, n) ndarray, object or None
         The tabulated curve(s) read at load for a kind that ``reads`` (one
-        row, or one per path), already on the design grid.
+        row, or one per path), already on the design grid; what the kind's
+        ``load`` returned for a kind that loads; else None.
     """
 
     wavelengths: np.ndarray
@@ -185,6 +189,38 @@ class CurveInput:
     def p(self, key: str):
         """A parameter's value(s)."""
         return self.params[key]
+
+    def option(self, key: str, default=None):
+        """An option's value."""
+        return self.options.get(key, default)
+
+
+@dataclass(frozen=True, eq=False)
+class LoadInput:
+    """What a kind's ``load`` function receives when the design is loaded.
+
+    Attributes
+    ----------
+    key : str
+        ``'chain[i]'``, for messages.
+    name : str
+        The element's name.
+    options : dict
+        Its options (defaults filled in).
+    paths : tuple of str
+    wavelengths : (n,) ndarray
+        The design grid, nm.
+    resolve : callable
+        ``resolve(file_name) -> Path``: a file name of the design (relative
+        to the design file's folder) as a path.
+    """
+
+    key: str
+    name: str
+    options: dict
+    paths: tuple[str, ...]
+    wavelengths: np.ndarray
+    resolve: Callable[[str], Any]
 
     def option(self, key: str, default=None):
         """An option's value."""
@@ -232,6 +268,20 @@ class ElementKind:
         documentation table); built-in kinds use 10-90.
     notes : str
         More for the documentation table (formulae, rules).
+    more_params : callable or None
+        ``more_params(options: dict) -> mapping of str to ParamSpec``: the
+        parameters an element has beyond ``params`` given its options (a
+        coating's per-layer thicknesses named by its layer formula). They are
+        validated, fitted, toleranced and saved like the fixed ones.
+    load : callable or None
+        ``load(LoadInput) -> object``: what the element needs from files,
+        read once when the design is loaded (e.g. material tables); the
+        object (immutable; a ``notes`` tuple attribute is collected into the
+        chain's notes) arrives as :attr:`CurveInput.data`. For tabulated
+        curves use ``reads`` instead.
+    field_angles : tuple of str
+        Parameters (angles of incidence, deg) to which the field angle
+        across the image adds (the field-shift analysis).
     """
 
     name: str
@@ -247,6 +297,26 @@ class ElementKind:
     at_most_one: bool = False
     order: int = 1000
     notes: str = ""
+    more_params: Callable[[dict], Mapping[str, ParamSpec]] | None = None
+    load: Callable[[LoadInput], Any] | None = None
+    field_angles: tuple[str, ...] = ()
+
+    def param_specs(self, options: Mapping | None = None) -> Mapping[str, ParamSpec]:
+        """Every parameter an element of this kind has with ``options``: ``params`` then ``more_params``.
+
+        Raises
+        ------
+        WorkbenchError
+            ``more_params`` returned a name of a fixed parameter or option.
+        """
+        if self.more_params is None:
+            return self.params
+        extra = dict(self.more_params(dict(options or {})))
+        clash = set(extra) & (set(self.params) | set(self.options) | {"name", "type", "paths"})
+        if clash:
+            raise WorkbenchError(f"kind {self.name!r}: more_params must give new names (got "
+                                 f"{', '.join(sorted(clash))})")
+        return {**self.params, **extra}
 
     def __post_init__(self):
         if not isinstance(self.name, str) or not self.name or self.name != self.name.strip():
@@ -262,6 +332,11 @@ class ElementKind:
                 raise WorkbenchError(f"kind {self.name!r}: ordered pairs must name parameters (got {a!r}, {b!r})")
         if self.reads is not None and "file" not in self.options:
             raise WorkbenchError(f"kind {self.name!r}: a kind that reads a curve must have a 'file' option")
+        if self.reads is not None and self.load is not None:
+            raise WorkbenchError(f"kind {self.name!r}: give either reads (a tabulated curve) or load, not both")
+        for a in self.field_angles:
+            if a not in self.params:
+                raise WorkbenchError(f"kind {self.name!r}: field_angles must name parameters (got {a!r})")
 
 
 class KindRegistry(Mapping):
@@ -336,9 +411,26 @@ def element_kind(name: str) -> ElementKind:
 
 
 def parameter_spec(element_type: str, key: str) -> ParamSpec | None:
-    """The :class:`ParamSpec` of parameter ``key`` of kind ``element_type`` (None when there is none)."""
+    """The :class:`ParamSpec` of fixed parameter ``key`` of kind ``element_type`` (None when there is none).
+
+    For an element's own parameters (including a kind's ``more_params``) use
+    :func:`element_param_spec`.
+    """
     kind = ELEMENT_KINDS.get(element_type)
     return None if kind is None else kind.params.get(key)
+
+
+def element_param_spec(element, key: str) -> ParamSpec | None:
+    """The :class:`ParamSpec` of parameter ``key`` of one design element (None when there is none)."""
+    kind = ELEMENT_KINDS.get(element.type)
+    if kind is None:
+        return None
+    if kind.more_params is None:
+        return kind.params.get(key)
+    try:
+        return kind.param_specs(dict(element.options)).get(key)
+    except WorkbenchError:
+        return None
 
 
 # --------------------------------------------------------------------------
