@@ -25,7 +25,7 @@ from workbench.colorimetry.samples import open_sample_set
 from workbench.errors import RangeCoverageError, WorkbenchError
 from workbench.fileio.spectra_csv import read_spectra_csv
 from workbench.model.design import Design, Element, IlluminantSpec, SampleSetSpec
-from workbench.model.spectra import Spectra
+from workbench.model.spectra import Spectra, coarsening_method
 from workbench.optics.kinds import LoadInput, element_kind
 
 __all__ = ["resolve_design", "uncovered"]
@@ -84,7 +84,8 @@ def _element_data(design: Design, e: Element, i: int) -> Element:
     extrapolation = e.option("extrapolation", "none")
     if extrapolation == "none" and not s.covers(wl[0], wl[-1]):
         raise WorkbenchError(f"{key} {e.name!r} ({file}): " + uncovered(s, wl, "element"))
-    s = s.resample(wl, extrapolation=extrapolation)
+    s = s.resample(wl, extrapolation=extrapolation,
+                   method=coarsening_method(s.wavelengths, wl, design.grid.resampling))
     return replace(e, data=_frozen(s))
 
 
@@ -106,7 +107,8 @@ def _illuminant(design: Design, spec: IlluminantSpec, index: int) -> IlluminantS
         )
     if spec.extrapolation == "none" and not s.covers(wl[0], wl[-1]):
         raise WorkbenchError(f"{where} ({spec.file}): " + uncovered(s, wl, "entry"))
-    s = s.resample(wl, extrapolation=spec.extrapolation)
+    s = s.resample(wl, extrapolation=spec.extrapolation,
+                   method=coarsening_method(s.wavelengths, wl, design.grid.resampling))
     return replace(spec, label=f"{spec.name} ({spec.file})", values=_frozen_array(s.flat()[0]),
                    notes=tuple(s.notes))
 
