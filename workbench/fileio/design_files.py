@@ -55,7 +55,7 @@ def _element_data(design: Design, e: Element, i: int) -> Element:
     kind = element_kind(e.type)
     if kind.load is not None:
         data = kind.load(LoadInput(f"chain[{i}]", e.name, dict(e.options), e.paths, design.grid.wavelengths,
-                                   design.resolve))
+                                   design.resolve, e.option("file")))
         return replace(e, data=data)
     file = e.option("file")
     if kind.reads is None or file is None:
@@ -81,6 +81,8 @@ def _element_data(design: Design, e: Element, i: int) -> Element:
         )
     s = s.select(names)
     wl = design.grid.wavelengths
+    if kind.after_read is not None:
+        s = kind.after_read(s, LoadInput(key, e.name, dict(e.options), e.paths, wl, design.resolve, file))
     extrapolation = e.option("extrapolation", "none")
     if extrapolation == "none" and not s.covers(wl[0], wl[-1]):
         raise WorkbenchError(f"{key} {e.name!r} ({file}): " + uncovered(s, wl, "element"))

@@ -82,9 +82,10 @@ class ChainModel:
 
     def _curve(self, e: Element, p) -> np.ndarray:
         kind = self._kinds[e.name]
-        data = e.data.values if kind.reads is not None and e.data is not None else e.data
+        tabulated = kind.reads is not None and e.data is not None
         x = CurveInput(self.wavelengths, {k: p[f"{e.name}.{k}"] for k, _ in e.params}, dict(e.options),
-                       e.paths, data)
+                       e.paths, e.data.values if tabulated else e.data,
+                       tuple(e.data.names) if tabulated else ())
         return kind.curve(x)
 
     def element_curves(self, values=None) -> tuple[ElementCurve, ...]:

@@ -178,6 +178,8 @@ class CurveInput:
         The tabulated curve(s) read at load for a kind that ``reads`` (one
         row, or one per path), already on the design grid; what the kind's
         ``load`` returned for a kind that loads; else None.
+    names : tuple of str
+        For a kind that ``reads``: the file's column headers of ``data``'s rows.
     """
 
     wavelengths: np.ndarray
@@ -185,6 +187,7 @@ class CurveInput:
     options: dict
     paths: tuple[str, ...]
     data: np.ndarray | None = None
+    names: tuple[str, ...] = ()
 
     def p(self, key: str):
         """A parameter's value(s)."""
@@ -213,6 +216,8 @@ class LoadInput:
     resolve : callable
         ``resolve(file_name) -> Path``: a file name of the design (relative
         to the design file's folder) as a path.
+    file : str or None
+        The element's ``file`` option as written (for messages).
     """
 
     key: str
@@ -221,6 +226,7 @@ class LoadInput:
     paths: tuple[str, ...]
     wavelengths: np.ndarray
     resolve: Callable[[str], Any]
+    file: str | None = None
 
     def option(self, key: str, default=None):
         """An option's value."""
@@ -282,6 +288,12 @@ class ElementKind:
     field_angles : tuple of str
         Parameters (angles of incidence, deg) to which the field angle
         across the image adds (the field-shift analysis).
+    after_read : callable or None
+        For a kind that ``reads``: ``after_read(spectra, LoadInput) ->
+        spectra``, called at load once the columns are chosen and before
+        the curve is put on the grid; it may add notes or raise a
+        :class:`~workbench.errors.WorkbenchError` about what the file says
+        (the glass: total or internal transmittance from its header).
     """
 
     name: str
@@ -300,6 +312,7 @@ class ElementKind:
     more_params: Callable[[dict], Mapping[str, ParamSpec]] | None = None
     load: Callable[[LoadInput], Any] | None = None
     field_angles: tuple[str, ...] = ()
+    after_read: Callable[[Any, LoadInput], Any] | None = None
 
     def param_specs(self, options: Mapping | None = None) -> Mapping[str, ParamSpec]:
         """Every parameter an element of this kind has with ``options``: ``params`` then ``more_params``.
@@ -332,6 +345,8 @@ class ElementKind:
                 raise WorkbenchError(f"kind {self.name!r}: ordered pairs must name parameters (got {a!r}, {b!r})")
         if self.reads is not None and "file" not in self.options:
             raise WorkbenchError(f"kind {self.name!r}: a kind that reads a curve must have a 'file' option")
+        if self.after_read is not None and self.reads is None:
+            raise WorkbenchError(f"kind {self.name!r}: after_read needs reads (a tabulated curve)")
         if self.reads is not None and self.load is not None:
             raise WorkbenchError(f"kind {self.name!r}: give either reads (a tabulated curve) or load, not both")
         for a in self.field_angles:
