@@ -443,8 +443,8 @@ class TestLoadThenCompute:
         d = load_design(DEMO)
         lens = d.chain[0].data
         assert lens.values.shape == (1, 81) and not lens.values.flags.writeable
-        assert not d.illuminants[0].values.flags.writeable
-        assert not d.samples[0].spectra.values.flags.writeable
+        assert not d.illuminants[0].spd.values.flags.writeable
+        assert not [s for s in d.samples if s.source == "csv"][0].spd.values.flags.writeable
         with pytest.raises(ValueError):
             lens.values[0, 0] = 2.0
 
@@ -471,9 +471,9 @@ class TestLoadThenCompute:
         bare = replace(d, chain=tuple(replace(e, data=None) for e in d.chain))
         with pytest.raises(WorkbenchError, match=r"^chain\[0\] \(lens\): its files have not been read"):
             bare.channel_sensitivities()
-        ill = replace(d, illuminants=tuple(replace(i, values=None) for i in d.illuminants))
-        with pytest.raises(WorkbenchError, match="^illuminant 'daylight' has not been read"):
-            ill.illuminant_values("daylight")
+        ill = replace(d, illuminants=tuple(replace(i, spd=None) for i in d.illuminants))
+        with pytest.raises(WorkbenchError, match="^illuminant 'halogen' has not been read"):
+            ill.illuminant_values("halogen")
 
 
 def test_plot_chain():

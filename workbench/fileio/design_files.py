@@ -1,13 +1,16 @@
 """Reading what a design names, once: the second half of loading a design.
 
 :func:`resolve_design` takes a validated :class:`~workbench.model.design.Design`
-and returns it with every file it names read and put on the design grid —
-the tabulated curves of its chain elements (kinds that ``reads``; what a
-kind's own ``load`` function reads), its
-illuminants, its sample sets and the emitter spectra of its target — each
-with the notes of reading and resampling. The arrays are read-only. After
-this, computing with the design (the chain, the evaluator, the tolerance
-run) never touches the disk.
+and returns it with every file it names read once — the tabulated curves
+of its chain elements (kinds that ``reads``, put on the design grid; what a
+kind's own ``load`` function reads), the SPD files of its illuminants, the
+reflectance files of its sample sets and the emitter spectra of its target
+— each with the notes of reading (and resampling). The arrays are
+read-only. After this, computing with the design (the chain, the
+evaluator, the tolerance run) never touches the disk. Illuminants and
+sample sets are put on the grid when used (the computation, not the
+reading), so one that a command does not need costs nothing but its
+reading.
 
 A file that cannot be used does not stop loading: the entry keeps the
 error and raises it when it is used (see :func:`resolve_design`), with the
@@ -20,35 +23,19 @@ from dataclasses import replace
 
 import numpy as np
 
-from workbench.colorimetry.cie import illuminant_on
-from workbench.colorimetry.samples import open_sample_set
-from workbench.errors import RangeCoverageError, WorkbenchError
+from workbench.errors import WorkbenchError
 from workbench.fileio.spectra_csv import read_spectra_csv
-from workbench.model.design import Design, Element, IlluminantSpec, SampleSetSpec
+from workbench.model.design import Design, Element, IlluminantSpec, SampleSetSpec, uncovered
 from workbench.model.spectra import Spectra, coarsening_method
 from workbench.optics.kinds import LoadInput, element_kind
 
-__all__ = ["resolve_design", "uncovered"]
-
-
-def uncovered(s: Spectra, wavelengths, what: str) -> str:
-    """The message for measured data that do not cover the design grid, naming the key that extends them."""
-    wl = np.asarray(wavelengths)
-    return (f"data cover {s.wavelengths[0]:g}-{s.wavelengths[-1]:g} nm but the design grid is "
-            f"{wl[0]:g}-{wl[-1]:g} nm; set extrapolation = \"constant\" on this {what} to extend it "
-            "(CIE 167)")
+__all__ = ["resolve_design"]
 
 
 def _frozen(s: Spectra) -> Spectra:
     values = np.array(s.values, dtype=float)
     values.setflags(write=False)
     return replace(s, values=values)
-
-
-def _frozen_array(a) -> np.ndarray:
-    a = np.array(a, dtype=float)
-    a.setflags(write=False)
-    return a
 
 
 def _element_data(design: Design, e: Element, i: int) -> Element:
@@ -92,14 +79,8 @@ def _element_data(design: Design, e: Element, i: int) -> Element:
 
 
 def _illuminant(design: Design, spec: IlluminantSpec, index: int) -> IlluminantSpec:
-    wl = design.grid.wavelengths
-    where = f"illuminants[{index}] {spec.name!r}"
     if spec.cie is not None:
-        try:
-            label, tab = illuminant_on(wl, spec.cie)
-        except WorkbenchError as e:
-            raise WorkbenchError(f"{where}: {e}") from None
-        return replace(spec, label=label, values=_frozen_array(tab.values), notes=(tab.note,))
+        return spec
     s = read_spectra_csv(design.resolve(spec.file), kind="emission")
     if spec.column is not None:
         s = s.select([spec.column])
@@ -107,26 +88,16 @@ def _illuminant(design: Design, spec: IlluminantSpec, index: int) -> IlluminantS
         raise WorkbenchError(
             f"illuminant {spec.name!r}: expected a column, the file {spec.file} holds {len(s)} spectra"
         )
-    if spec.extrapolation == "none" and not s.covers(wl[0], wl[-1]):
-        raise WorkbenchError(f"{where} ({spec.file}): " + uncovered(s, wl, "entry"))
-    s = s.resample(wl, extrapolation=spec.extrapolation,
-                   method=coarsening_method(s.wavelengths, wl, design.grid.resampling))
-    return replace(spec, label=f"{spec.name} ({spec.file})", values=_frozen_array(s.flat()[0]),
-                   notes=tuple(s.notes))
+    return replace(spec, spd=_frozen(s))
 
 
 def _samples(design: Design, spec: SampleSetSpec, index: int) -> SampleSetSpec:
-    file = None if spec.file is None else design.resolve(spec.file)
-    wl = design.grid.wavelengths
-    try:
-        s = open_sample_set(spec.source, wl, file=file, extrapolation=spec.extrapolation)
-    except RangeCoverageError as e:
-        what = spec.file or spec.source
-        text = str(e).split(" nm but ")[0]
-        raise WorkbenchError(
-            f"samples[{index}] {spec.name!r} ({what}): {text} nm but the design grid is {wl[0]:g}-{wl[-1]:g} "
-            "nm; set extrapolation = \"constant\" on this entry to extend it (CIE 167)") from None
-    return replace(spec, spectra=_frozen(s))
+    if spec.source != "csv":
+        return spec
+    s = read_spectra_csv(design.resolve(spec.file), kind="reflectance")
+    if s.values.ndim != 2:
+        s = Spectra(s.wavelengths, s.flat(), s.names, kind=s.kind, units=s.units, notes=s.notes, source=s.source)
+    return replace(spec, spd=_frozen(s))
 
 
 def _emitters(design: Design, target):

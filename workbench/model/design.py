@@ -16,9 +16,9 @@ element ``type`` holds is declared by the registry of element kinds,
 
 A design from :func:`~workbench.fileio.design_toml.load_design` is fully
 resolved: every file it names has been read once, and its curves sit in the
-design as arrays on the design grid with their notes (``Element.data``,
-``IlluminantSpec.values``, ``SampleSetSpec.spectra``, ``Target.emitters``;
-these are not compared by ``==``). An entry whose file could not be used
+design as arrays with their notes (``Element.data`` on the design grid,
+``IlluminantSpec.spd``, ``SampleSetSpec.spd``, ``Target.emitters`` as read,
+put on the grid when used; none of these is compared by ``==``). An entry whose file could not be used
 carries the error (``error``), raised with its message when the entry is
 used — an illuminant the computation never asks for does not stop the rest.
 Nothing here reads a file.
@@ -33,8 +33,8 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from workbench.errors import WorkbenchError
-from workbench.model.spectra import Spectra, grid as make_grid
+from workbench.errors import RangeCoverageError, WorkbenchError
+from workbench.model.spectra import Spectra, coarsening_method, grid as make_grid
 
 if TYPE_CHECKING:  # names for annotations only: the chain sits above the schema
     from workbench.optics.chain import ChainModel, ElementCurve
@@ -56,6 +56,7 @@ __all__ = [
     "FieldPosition",
     "ToleranceSpec",
     "Design",
+    "uncovered",
 ]
 
 SCHEMA = 1
@@ -69,6 +70,14 @@ TARGET_KINDS = ("observer", "primaries", "chromaticities", "emitters")
 TOLERANCE_DISTRIBUTIONS = ("normal", "uniform")
 #: How a tabulated curve may be extended beyond its measured range.
 EXTRAPOLATIONS = ("none", "constant", "zero")
+
+def uncovered(s: Spectra, wavelengths, what: str) -> str:
+    """The message for measured data that do not cover the design grid, naming the key that extends them."""
+    wl = np.asarray(wavelengths)
+    return (f"data cover {s.wavelengths[0]:g}-{s.wavelengths[-1]:g} nm but the design grid is "
+            f"{wl[0]:g}-{wl[-1]:g} nm; set extrapolation = \"constant\" on this {what} to extend it "
+            "(CIE 167)")
+
 
 #: Said when a design built in code (not by the loader) is asked for data only loading reads.
 _NOT_RESOLVED = ("{what} has not been read: designs are read with workbench.fileio.design_toml.load_design "
@@ -209,14 +218,14 @@ class SampleSetSpec:
     """A named sample set: a built-in set (``source``) or a CSV of reflectances (``file``).
 
     ``extrapolation`` (``none``/``constant``) extends it past its table;
-    ``spectra`` holds the set on the design grid (reflectance 0-1, (count, n)), made at load.
+    ``spd`` holds a CSV set's reflectances as read at load (put on the grid when used).
     """
 
     name: str
     source: str
     file: str | None = None
     extrapolation: str = "none"
-    spectra: Spectra | None = field(default=None, compare=False, repr=False)
+    spd: Spectra | None = field(default=None, compare=False, repr=False)
     error: Exception | None = field(default=None, compare=False, repr=False)
 
 
@@ -224,8 +233,8 @@ class SampleSetSpec:
 class IlluminantSpec:
     """A named illuminant: a CIE name (``cie``) or a CSV file (``file``, ``column``).
 
-    ``label``, ``values`` ((n,) relative SPD on the design grid) and
-    ``notes`` are made at load.
+    ``spd`` holds a CSV SPD as read at load (its column chosen; put on the
+    grid when used).
     """
 
     name: str
@@ -233,9 +242,7 @@ class IlluminantSpec:
     file: str | None = None
     column: str | None = None
     extrapolation: str = "none"
-    label: str | None = field(default=None, compare=False, repr=False)
-    values: np.ndarray | None = field(default=None, compare=False, repr=False)
-    notes: tuple[str, ...] = field(default=(), compare=False, repr=False)
+    spd: Spectra | None = field(default=None, compare=False, repr=False)
     error: Exception | None = field(default=None, compare=False, repr=False)
 
 
@@ -414,9 +421,10 @@ class Design:
     def illuminant_values(self, name: str | None) -> tuple[str, np.ndarray, tuple[str, ...]]:
         """An ``[[illuminants]]`` entry on the design grid: ``(label, values (n,), notes)``.
 
-        ``None`` is the equal-energy spectrum (ones). A CSV SPD was
-        resampled onto the grid at load by the CIE 167 rules, extrapolated
-        only when its ``extrapolation`` key says so; the notes say so.
+        ``None`` is the equal-energy spectrum (ones). A CSV SPD (read when
+        the design was loaded) is put on the grid by the CIE 167 rules (or
+        band-averaged, ``[grid] resampling``), extrapolated only when its
+        ``extrapolation`` key says so; the notes say so.
         """
         wl = self.grid.wavelengths
         if name is None:
@@ -428,25 +436,54 @@ class Design:
                 f"{', '.join(i.name for i in self.illuminants) or 'none'})"
             )
         spec = self.illuminants[index]
+        where = f"illuminants[{index}] {name!r}"
+        if spec.cie is not None:
+            # the package's CIE tables, not a file of the design; colorimetry sits above the schema
+            from workbench.colorimetry.cie import illuminant_on
+
+            try:
+                label, tab = illuminant_on(wl, spec.cie)
+            except WorkbenchError as e:
+                raise WorkbenchError(f"{where}: {e}") from None
+            return label, np.asarray(tab.values), (tab.note,)
         if spec.error is not None:
             raise spec.error.with_traceback(None)
-        if spec.values is None:
+        if spec.spd is None:
             raise WorkbenchError(_NOT_RESOLVED.format(what=f"illuminant {name!r}"))
-        return spec.label, spec.values, spec.notes
+        s = spec.spd
+        if spec.extrapolation == "none" and not s.covers(wl[0], wl[-1]):
+            raise WorkbenchError(f"{where} ({spec.file}): " + uncovered(s, wl, "entry"))
+        s = s.resample(wl, extrapolation=spec.extrapolation,
+                       method=coarsening_method(s.wavelengths, wl, self.grid.resampling))
+        return f"{name} ({spec.file})", s.flat()[0], s.notes
 
     def sample_set(self, name: str) -> Spectra:
         """A ``[[samples]]`` entry on the design grid (reflectance 0-1, (count, n))."""
-        spec = {s.name: s for s in self.samples}.get(name)
-        if spec is None:
+        index = {s.name: k for k, s in enumerate(self.samples)}.get(name)
+        if index is None:
             raise WorkbenchError(
                 f"no sample set named {name!r} in the design (have "
                 f"{', '.join(s.name for s in self.samples) or 'none'})"
             )
+        spec = self.samples[index]
         if spec.error is not None:
             raise spec.error.with_traceback(None)
-        if spec.spectra is None:
-            raise WorkbenchError(_NOT_RESOLVED.format(what=f"sample set {name!r}"))
-        return spec.spectra
+        wl = self.grid.wavelengths
+        try:
+            if spec.source == "csv":
+                if spec.spd is None:
+                    raise WorkbenchError(_NOT_RESOLVED.format(what=f"sample set {name!r}"))
+                return spec.spd.resample(wl, extrapolation=spec.extrapolation)
+            # the package's sample tables, not a file of the design; colorimetry sits above the schema
+            from workbench.colorimetry.samples import open_sample_set
+
+            return open_sample_set(spec.source, wl, extrapolation=spec.extrapolation)
+        except RangeCoverageError as e:
+            what = spec.file or spec.source
+            text = str(e).split(" nm but ")[0]
+            raise WorkbenchError(
+                f"samples[{index}] {name!r} ({what}): {text} nm but the design grid is {wl[0]:g}-{wl[-1]:g} "
+                "nm; set extrapolation = \"constant\" on this entry to extend it (CIE 167)") from None
 
     # -- evaluation --------------------------------------------------------------
     def model(self) -> "ChainModel":
