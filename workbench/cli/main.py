@@ -226,7 +226,7 @@ def main(argv: list[str] | None = None) -> int:
                 _quiet_stdout()
                 raise WorkbenchError(f"cannot write the output: {exc.strerror or exc}") from None
         except WorkbenchError as exc:
-            code = _fail(printable(str(exc), one_line=True))
+            code = _fail(printable(str(exc)))
         except KeyboardInterrupt:
             print("interrupted", file=sys.stderr)
             code = 130

@@ -25,6 +25,7 @@ from typing import Any
 
 import numpy as np
 
+from workbench.fileio.limits import shorten
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.atomic import write_text_atomically
 from workbench.fileio.design_files import resolve_design
@@ -246,6 +247,16 @@ def _check_grid(c: _Checker, v) -> Grid | None:
         return None
     if vals["stop_nm"] <= vals["start_nm"]:
         c.bad("grid.stop_nm", f"a number above start_nm = {vals['start_nm']:g} nm", t.get("stop_nm"))
+        return None
+    from workbench.fileio.limits import limits
+
+    min_step = limits().min_step_nm
+    if vals["step_nm"] < min_step:
+        c.bad("grid.step_nm", f"a step of at least {min_step:g} nm (the input limit min_step_nm)", t.get("step_nm"))
+        return None
+    if vals["step_nm"] > vals["stop_nm"] - vals["start_nm"]:
+        c.bad("grid.step_nm", f"a step of at most stop_nm - start_nm = "
+              f"{vals['stop_nm'] - vals['start_nm']:g} nm", t.get("step_nm"))
         return None
     g = Grid(vals["start_nm"], vals["stop_nm"], vals["step_nm"], resampling or "interpolation")
     try:
@@ -824,6 +835,8 @@ def design_from_bytes(raw: bytes, *, source: str, base_dir=".") -> Design:
         raise InputFileError(f"not valid TOML: {msg}", source) from None
     except RecursionError:
         raise InputFileError("not valid TOML: nested too deeply", source) from None
+    except ValueError as err:  # e.g. an integer of more digits than Python converts
+        raise InputFileError(f"not valid TOML: {shorten(str(err), 80)}", source) from None
     return design_from_dict(data, base_dir=Path(base_dir), source=source)
 
 

@@ -165,7 +165,8 @@ def shorten(text: str, width: int = 60) -> str:
 
 def how_to_raise(name: str) -> str:
     """The hint appended to a limit's refusal."""
-    return f"raise it with --limit {name}=… or WORKBENCH_LIMITS"
+    verb = "lower" if name == "min_step_nm" else "raise"
+    return f"{verb} it with --limit {name}=… or WORKBENCH_LIMITS"
 
 
 _KINDS = (

@@ -715,7 +715,12 @@ class _Reader:
             csv.field_size_limit(lim.line_chars + 1)
 
     def split(self, line: str, number: int) -> list[str]:
-        """The cells of one line, refusing a cell longer than the ``cell_chars`` limit."""
+        """The cells of one line, refusing a cell longer than the ``cell_chars`` limit, a NUL
+        character and an unbalanced double quote."""
+        if "\x00" in line:
+            raise self.error("a NUL character; expected text", number)
+        if line.count('"') % 2:
+            raise self.error('an unbalanced double quote; expected quotes in pairs around a cell', number)
         cells = _split(line, self.delimiter)
         if len(line) > self.cell_chars:
             for j, c in enumerate(cells):
@@ -758,6 +763,12 @@ class _Reader:
             wl = wl[::-1]
             values = values[:, ::-1]
         check_count(wl.size, "bands", "wavelengths", where=self.source)
+        gaps = np.diff(wl)
+        if gaps.size and gaps.min() < limits().min_step_nm:
+            i = int(np.argmin(gaps))
+            raise self.error(
+                f"wavelengths {wl[i]:.12g} and {wl[i + 1]:.12g} nm are {gaps[i]:.3g} nm apart; expected "
+                f"steps of at least {limits().min_step_nm:g} nm — {how_to_raise('min_step_nm')}")
         if self.scale_arg == "auto" and self.stated_units is None:
             # a scale given by the caller, or units stated by a '# kind:' line, are their author's word
             for text in check_spectral_values(_as_energy(values, wl, self.units), kind=self.kind,
