@@ -1,4 +1,4 @@
-"""Tests of workbench.report.fit_report and workbench.plots.fit: the fit report and its four figures.
+"""Tests of workbench.report.fit_report and workbench.plots.fit: the fit report and its five figures.
 
 One small design (a two-edge splitter and a short-pass edge on a 10 nm
 grid, CIE 13.3 and CIE 224 samples under D65 and A) is fitted once per
@@ -179,11 +179,11 @@ def cie_d65_and_cmfs(wl):
 
 
 class TestFitReportHtml:
-    def test_four_embedded_svg_figures(self, page):
-        """Each of the four figures is an <img> with a base64 SVG of the figure's size, texts kept as text."""
+    def test_five_embedded_svg_figures(self, page):
+        """Each of the five figures is an <img> with a base64 SVG of the figure's size, texts kept as text."""
         srcs = re.findall(r'<img src="([^"]*)"', page)
-        assert len(srcs) == 4
-        for fig_id in ("sensitivities", "delta_e_bars", "chromaticity", "noise_accuracy"):
+        assert len(srcs) == 5
+        for fig_id in ("sensitivities", "delta_e_bars", "chromaticity", "noise_accuracy", "chain"):
             assert f'<figure id="fig-{fig_id}"><img src="data:image/svg+xml;base64,' in page
         sizes = []
         for s in srcs:
@@ -195,13 +195,19 @@ class TestFitReportHtml:
         assert sizes[0] == ("648", "504")
         assert sizes[3] == ("540", "374.4")
 
+    def test_throughput_table(self, page):
+        """The report has the throughput table: every element of the fitted chain, then the optics together."""
+        rows = re.findall(r'<table id="throughput">(.*?)</table>', page, re.S)[0]
+        names = re.findall(r"<tr><td>([^<]*)</td>", rows)
+        assert len(names) >= 2 and names[-1] == "optics together" and "optics together" not in names[:-1]
+
     @pytest.mark.slow  # draws the report's figures again as PNG
     def test_png_on_request(self, fitted):
         """image_format='png' embeds PNGs of the figure's size at the dpi asked for; other formats are refused."""
         _, ev, result = fitted
         page = fit_report_html(result, ev, image_format="png", dpi=50)
         srcs = re.findall(r'<img src="([^"]*)"', page)
-        assert len(srcs) == 4 and all(s.startswith("data:image/png;base64,") for s in srcs)
+        assert len(srcs) == 5 and all(s.startswith("data:image/png;base64,") for s in srcs)
         data = base64.b64decode(srcs[0].split(",", 1)[1], validate=True)
         assert data[:8] == PNG_SIGNATURE
         assert png_size(data) == (450, 350)  # 9 × 7 in at 50 dpi
@@ -344,7 +350,7 @@ class TestWriteFitReport:
                                  "before the best point passed the local convergence test; the best point "
                                  "found is kept.")
         assert "evaluations of a budget of 12 in" in status
-        assert text.count("data:image/svg+xml;base64,") == 4
+        assert text.count("data:image/svg+xml;base64,") == 5
         assert [p.name for p in tmp_path.iterdir()] == ["report.html"]  # no temporary file left
 
     def test_missing_folder(self, fitted, tmp_path):

@@ -141,11 +141,15 @@ def noise_accuracy_points(result, evaluator=None, *, methods=MATRIX_METHODS) -> 
 
 
 def fit_report_figures(result, evaluator=None, *, points=None) -> dict:
-    """The report's four figures as matplotlib Figures, by name.
+    """The report's figures as matplotlib Figures, by name.
 
     Names: ``sensitivities``, ``delta_e_bars``, ``chromaticity``,
-    ``noise_accuracy``. ``points`` default to :func:`noise_accuracy_points`.
+    ``noise_accuracy``, ``chain`` (each path's element curves and their
+    product for the fitted design). ``points`` default to
+    :func:`noise_accuracy_points`.
     """
+    from workbench.plots.chain import plot_chain
+
     if points is None:
         points = noise_accuracy_points(result, evaluator)
     a = result.after
@@ -154,6 +158,7 @@ def fit_report_figures(result, evaluator=None, *, points=None) -> dict:
         "delta_e_bars": plot_delta_e_bars(a),
         "chromaticity": plot_chromaticity_shifts(a, observer=result.design.observer),
         "noise_accuracy": plot_noise_vs_accuracy(points),
+        "chain": plot_chain(a.wavelengths, result.design.element_curves())[0].figure,
     }
     if getattr(result, "front", ()):
         figs["front"] = plot_front(result.front)
@@ -397,6 +402,9 @@ _CAPTIONS = {
     "noise_accuracy": ("Noise gain (largest row norm of the matrix) against mean ΔE00 over samples × illuminants "
                        "for the three matrix rules — least squares, white-preserving (Finlayson & Drew 1997), "
                        "ΔE00-minimising — at the start (open) and after the fit (filled)."),
+    "chain": ("The fitted chain element by element: on each channel's path every element's curve (dashed: "
+              "transmittance, or the sensor's quantum efficiency, 0-1) and their product, the channel's "
+              "sensitivity (solid)."),
 }
 
 _CAPTIONS["front"] = ("The accuracy-noise front (--front): each point a fit of (1 − t)·objective/objective₀ + "
@@ -409,7 +417,23 @@ _ALT = {
     "chromaticity": "u′v′ diagram with arrows from true to camera colour",
     "noise_accuracy": "noise gain against mean ΔE00 for three matrix rules",
     "front": "the accuracy-noise front: mean ΔE00 against noise gain, the written fit starred",
+    "chain": "element curves and their product along each channel's path",
 }
+
+
+def _throughput_table(design) -> str:
+    from workbench.analysis.throughput import throughput
+
+    label, E, _ = design.illuminant_values(design.fit.recording_illuminant)
+    t = throughput(design.element_curves(), E, illuminant=label)
+    body = "".join(
+        f"<tr><td>{_esc(r['element'])}</td><td>{_esc(r['type'])}</td>"
+        + "".join(f'<td class="num">{_esc(_f(r[ch], ".1f"))}</td>' for ch in "RGB") + "</tr>"
+        for r in t.rows())
+    return ("<h3>Throughput per channel, fitted design</h3>"
+            f'<p class="meta">{_esc(t.method)}.</p>'
+            '<table id="throughput"><tr><th>element</th><th>type</th><th>R (%)</th><th>G (%)</th>'
+            f"<th>B (%)</th></tr>{body}</table>")
 
 
 def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: int = 100) -> str:
@@ -481,6 +505,7 @@ def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: i
         _measures_table(result),
         "<h2>Figures</h2>",
         figures,
+        _throughput_table(d),
         "<h3>Noise against accuracy, the numbers</h3>",
         '<table id="noise-points"><tr><th>matrix rule, state</th><th>noise gain (largest row norm)</th>'
         "<th>mean σ_out of the grey, display RGB (white = 1)</th><th>mean ΔE00 (CIEDE2000)</th>"

@@ -12,6 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from workbench.analysis.evaluator import DesignEvaluator
+from workbench.analysis.throughput import throughput
 from workbench.cli.commands._output import notice, render_rows, to_json
 from workbench.colorimetry.cie import observer_label
 from workbench.errors import WorkbenchError
@@ -34,6 +35,9 @@ def register(subparsers) -> None:
                    help="output format on stdout (default table)")
     p.add_argument("--sensitivities", metavar="OUT.csv",
                    help="also write the R, G, B sensitivities as a wide CSV")
+    p.add_argument("--figures", metavar="DIR",
+                   help="also write chain.png (each path's elements and their product) and sensitivities.png "
+                        "into DIR (written as one unit)")
     p.add_argument("--ir-cutoff", metavar="NM", type=float, action="append", default=[],
                    help="another cut-off for the near-infrared share and ΔE00 change, nm "
                         "(380-1100; 700 nm and the design's [fit] infrared_cutoff_nm are always reported; repeatable)")
@@ -75,6 +79,7 @@ def evaluate(design, *, infrared_cutoffs=()) -> dict:
     m = ev.measures(use_stored_matrix=design.matrix is not None, infrared_cutoffs=infrared_cutoffs)
     sens = ev.model.channel_sensitivities()
     wl = sens.wavelengths
+    passed = throughput(ev.model.element_curves(), ev.rec, illuminant=ev.recording_label)
     return {
         "design": design.name,
         "file": design.source,
@@ -87,6 +92,7 @@ def evaluate(design, *, infrared_cutoffs=()) -> dict:
         },
         "vora_value": m.vora_value,
         **{k: v for k, v in m.summary().items() if k not in ("vora_value", "neugebauer_q")},
+        "throughput": passed.to_dict(),
         "method": {
             "sensitivities": METHODS["sensitivities"],
             "peak_nm": METHODS["peak_nm"],
@@ -103,6 +109,25 @@ def evaluate(design, *, infrared_cutoffs=()) -> dict:
     }
 
 
+FIGURE_FILES = ("chain.png", "sensitivities.png")
+
+
+def write_figures(design, directory) -> list:
+    """chain.png (each path's element curves and product) and sensitivities.png into an open OutputFolder."""
+    from workbench.fileio.atomic import write_atomically
+    from workbench.plots.chain import plot_chain
+    from workbench.plots.spectra import plot_spectra
+
+    model = design.model()
+    out = []
+    for name, make in (("chain.png", lambda: plot_chain(model.wavelengths, model.element_curves())[0].figure),
+                       ("sensitivities.png", lambda: plot_spectra(model.channel_sensitivities()).figure)):
+        fig = make()
+        write_atomically(directory / name, lambda fh, fig=fig: fig.savefig(fh, format="png", dpi=110))
+        out.append(directory / name)
+    return out
+
+
 def run(args) -> int:
     for c in args.ir_cutoff:
         if not 380 <= c <= 1100:
@@ -111,8 +136,20 @@ def run(args) -> int:
         from workbench.fileio.outdir import check_output_file
 
         check_output_file(args.sensitivities, option="--sensitivities")
+    figures = None
+    if args.figures:
+        from workbench.fileio.outdir import OutputFolder
+
+        figures = OutputFolder(args.figures, option="--figures", command="evaluate", names=FIGURE_FILES)
+        figures._validate()
     design = load_design(args.design)
     result = evaluate(design, infrared_cutoffs=args.ir_cutoff)
+    if figures is not None:
+        with figures:
+            written = write_figures(design, figures)
+            figures.commit()
+        for p in written:
+            notice(f"wrote {figures.target / p.name}")
     for n in result["notes"]:
         notice(n)
     if args.sensitivities:
@@ -144,6 +181,10 @@ def run(args) -> int:
         f"matrix: {m['matrix']}; Luther residual {result['luther_residual']:.4f}; "
         f"{m['smi']}: {result['smi']['smi']:.1f}",
     ]))
+    print()
+    tp = result["throughput"]
+    print(render_rows(tp["rows"], ["element", "type", "R", "G", "B"], "table", header_lines=[
+        f"throughput: {tp['unit']} each element passes ({tp['method']})"]))
     print()
     ir = [{"cutoff_nm": cut, "illuminant": ill,
            **{f"{ch}_ir_%": 100 * v["share"][ch] for ch in CHANNELS},
