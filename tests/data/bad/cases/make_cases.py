@@ -107,7 +107,7 @@ EMISSION = {  # read as emission: tristimulus --illuminant, light, primaries --e
     "emission_all_negative": (rgb(-ones), ["'R (W/m2/nm)' is all zero or negative"]),
     "emission_deep_negative": (rgb(peak - 0.5 * (np.array(WL) < 420)), ["below −5 % of the peak"]),
     "emission_1e300": (rgb(1e300 * peak), ["magnitude above 1e+15"]),
-    "emission_percent_header": ("wavelength (nm),R %,G %,B %\n" + "".join(f"{w},1,2,3\n" for w in WL), ["values are percent", "emission"]),
+    "emission_percent_header": ("wavelength (nm),R %,G %,B %\n" + "".join(f"{w},1,2,3\n" for w in WL), ["'R %'"]),
 }
 
 OUT = {}
