@@ -169,6 +169,13 @@ class TestFitStatus:
          "error: 'illuminant weight moon' must name one of the fit's illuminants (daylight, tungsten, "
          "stage-led) (got 'moon')"),
         (["--front", "1"], "error: '--front' must be a whole number of points >= 2 (got 1)"),
+        (["--robust", "--robust-percentile", "100"],
+         "error: '--robust-percentile' must be a number in (0, 100) (got 100.0)"),
+        (["--robust", "--robust-percentile", "0"], "error: '--robust-percentile' must be a number in (0, 100) (got 0.0)"),
+        (["--robust-percentile", "90"], "error: '--robust-percentile' needs --robust"),
+        (["--robust", "--robust-draws", "1"], "error: '--robust-draws' must be a whole number >= 2 (got 1)"),
+        (["--robust", "--front", "3"],
+         "error: '--front' and '--robust' cannot be combined (the front is of nominal fits)"),
         (["--max-evaluations", "0"], "error: '--max-evaluations' must be a whole number >= 1 (got 0)"),
         (["--max-evaluations", "-5"], "error: '--max-evaluations' must be a whole number >= 1 (got -5)"),
         (["--time-limit", "0"], "error: '--time-limit' must be a number of seconds > 0 (got 0)"),
@@ -263,3 +270,21 @@ class TestFrontOption:
         assert err == ["error: '--front' needs a matrix computed by its rule ([fit] matrix = \"least-squares\" or "
                        "\"white-preserving\"); a ΔE00 matrix is fitted freely and shrinks to zero at the noise-only "
                        "end (got 'delta-e00')"]
+
+
+class TestRobustOption:
+    @pytest.mark.slow  # the nominal and the robust fit of the demo, two tolerance runs
+    def test_nominal_against_robust(self, tmp_path, capsys, demo_design_path):
+        """--robust writes the robust design; metrics.json sets nominal against robust with Wilson intervals."""
+        out = tmp_path / "o"
+        rc = main(["fit", str(demo_design_path), "--out", str(out), "--quiet", "--no-report", "--robust",
+                   "--robust-draws", "16"])
+        assert rc == 0
+        m = json.loads((out / "metrics.json").read_text())
+        rb = m["robust"]
+        for side in ("nominal", "robust"):
+            lo, hi = rb[side]["yield_interval_95"]
+            assert 0 <= lo <= rb[side]["yield"] <= hi <= 1
+        assert rb["robust"]["worst_mean_delta_E00"] <= rb["nominal"]["worst_mean_delta_E00"] + 0.1
+        assert rb["check_seed"] != rb["seed"]
+        assert "nominal against robust (16 draws" in capsys.readouterr().out

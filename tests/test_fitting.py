@@ -587,3 +587,73 @@ class TestFront:
         assert str(e.value) == ("'--front' needs a matrix computed by its rule ([fit] matrix = \"least-squares\" or "
                                 "\"white-preserving\"); a ΔE00 matrix is fitted freely and shrinks to zero at the "
                                 "noise-only end (got 'delta-e00')")
+
+
+class TestRobust:
+    """The robust (tolerance-averaged) objective."""
+
+    def test_quadratic_with_gaussian_parameter_noise(self):
+        """E f(x + δ) = f(x) + tr(HΣ)/2 for f(x) = (x − a)ᵀH(x − a)/2, δ ~ N(0, Σ); the optimum stays at a."""
+        # E[(x+δ−a)ᵀH(x+δ−a)]/2 = (x−a)ᵀH(x−a)/2 + E[δᵀHδ]/2 = f(x) + tr(HΣ)/2
+        # (Petersen & Pedersen, The Matrix Cookbook, 2012, eq. 318)
+        from workbench.analysis.fit import _local_quasi_newton, _Tracker, tail_residuals
+
+        rng = np.random.default_rng(5)
+        A = rng.normal(size=(3, 3))
+        H = A @ A.T + 3 * np.eye(3)
+        a = np.array([0.3, -0.2, 0.5])
+        L = np.diag([0.05, 0.1, 0.02])
+        Sigma = L @ L.T
+        K = 4000
+        D = rng.standard_normal((K, 3)) @ L.T                       # common random numbers
+
+        def f(X):
+            E = X - a
+            return 0.5 * np.einsum("...i,ij,...j->...", E, H, E)
+
+        def residuals(X):
+            X = np.atleast_2d(X)
+            return tail_residuals(f(X[:, None, :] + D[None]))
+
+        track = _Tracker(residuals, 10 ** 6, False, None)
+        n = 3
+        ok, _ = _local_quasi_newton(track, np.zeros(n), np.full(n, -5.0), np.full(n, 5.0), n, np.ones(n), np.zeros(n))
+        assert ok
+        # the sample-average optimum is a − mean(δ); the expected-loss optimum is a
+        np.testing.assert_allclose(track.best_x, a - D.mean(axis=0), atol=1e-5)
+        np.testing.assert_allclose(track.best_x, a, atol=4 * 0.1 / np.sqrt(K) * 3)
+        expected = 0.5 * np.trace(H @ Sigma)
+        assert track.best_cost == pytest.approx(expected, rel=0.05)
+        # at any x: the sample mean equals f(x) + (x − a)ᵀH δ̄ + mean(δᵀHδ)/2 exactly
+        x = np.array([0.1, 0.0, 0.2])
+        r = residuals(x)[0]
+        exact = f(x) + (x - a) @ H @ D.mean(axis=0) + 0.5 * np.mean(np.einsum("ki,ij,kj->k", D, H, D))
+        assert float(r @ r) == pytest.approx(exact, rel=1e-12)
+
+    def test_tail_residuals_mean_of_the_worst(self):
+        """With a percentile P the cost is the mean of the worst (100 − P) % of the scores."""
+        from workbench.analysis.fit import tail_residuals
+
+        u = np.array([[1.0, 5.0, 2.0, 4.0, 3.0]])
+        r = tail_residuals(u, 60.0)
+        assert float(np.sum(r * r)) == pytest.approx((5.0 + 4.0) / 2)
+        assert float(np.sum(tail_residuals(u) ** 2)) == pytest.approx(3.0)
+
+    def test_no_tolerances_refused(self, tmp_path):
+        """A design with no toleranced parameter cannot be fitted robustly: one line."""
+        from workbench.analysis.fit import check_robust
+
+        d = load_design(_recovery_design(tmp_path))
+        with pytest.raises(WorkbenchError) as e:
+            check_robust(d)
+        assert str(e.value) == (f"'--robust' needs toleranced parameters: {d.source} gives no parameter a "
+                                "tolerance = { distribution, width } table")
+
+    @pytest.mark.parametrize("p", [0, 100, -5, 150.0])
+    def test_percentile_outside_0_100(self, demo_design, p):
+        """A percentile outside (0, 100) is refused."""
+        from workbench.analysis.fit import check_robust
+
+        with pytest.raises(WorkbenchError) as e:
+            check_robust(demo_design, percentile=p)
+        assert str(e.value) == f"'--robust-percentile' must be a number in (0, 100) (got {p!r})"

@@ -28,7 +28,8 @@ from workbench.report.html import fit_result_html
 from workbench.report.json_text import json_text
 
 __all__ = ["FitResult", "FitStatus", "FIT_STATUS_TABLE", "fit_design", "FitStopped", "bound_costs",
-           "bound_cost_text", "parameter_unit", "ACROSS_ILLUMINANTS", "fit_front", "non_dominated", "check_front",
+           "bound_cost_text", "parameter_unit", "ACROSS_ILLUMINANTS", "fit_front", "non_dominated", "check_front", "fit_robust",
+           "check_robust", "ROBUST_METHOD",
            "FRONT_METHOD"]
 
 
@@ -115,6 +116,7 @@ class FitResult:
     across_illuminants: str = "weighted-mean"
     illuminant_weights: tuple[tuple[str, float], ...] = ()
     front: tuple[dict, ...] = ()
+    robust: dict | None = None
 
     @property
     def converged(self) -> bool:
@@ -161,6 +163,7 @@ class FitResult:
             "across_illuminants": self.across_illuminants,
             "illuminant_weights": dict(self.illuminant_weights),
             "front": list(self.front),
+            "robust": self.robust,
             "before": self.before.summary(),
             "after": self.after.summary(),
             "residual_per_wavelength": {
@@ -401,6 +404,70 @@ class _Objective:
         }
 
 
+class _RobustObjective(_Objective):
+    """The expected (or upper-tail) worst-light mean ΔE00 of units drawn from the design's tolerances.
+
+    For a candidate x the matrix is the one its nominal design gets (the
+    design's rule, fixed for its units, as a unit is calibrated with the
+    nominal matrix); unit k has the parameters x + δ_k, δ_k drawn once from
+    the ``[tolerance]`` distributions (common random numbers: the same δ_k
+    for every x, so differences between candidates are not noise). A unit's
+    score u_k = (Σ_j m_jk^p)^(1/p), the smooth maximum over the lights of
+    its sample-weighted mean ΔE00. The cost is the mean of u_k
+    (``percentile`` None) or, for a percentile P, the mean of the worst
+    (100 − P) % of the units (the conditional value at risk, an upper bound
+    of the P-th percentile): Σ r² with r_k = √(c_k u_k).
+    """
+
+    def __init__(self, ev: DesignEvaluator, deltas: dict, *, percentile=None):
+        super().__init__(ev)
+        self.deltas = {k: np.asarray(v, dtype=float) for k, v in deltas.items()}
+        self.K = len(next(iter(self.deltas.values())))
+        self.percentile = percentile
+        self.nominal = ev.design.parameters()
+
+    def unit_scores(self, X) -> np.ndarray:
+        """u (B, K) for candidates X (B, n_free)."""
+        ev, nf = self.ev, self.nf
+        X = np.atleast_2d(np.asarray(X, dtype=float))
+        B, K = X.shape[0], self.K
+        _, _, M = self.parts(X)                                     # the nominal matrices (B, J, 3, 3)
+        values = {}
+        free = set(ev.free)
+        for i, k in enumerate(ev.free):
+            values[k] = np.repeat(X[:, i], K)
+        for k, d in self.deltas.items():
+            base = values[k] if k in free else np.full(B * K, self.nominal[k].value)
+            values[k] = base + np.tile(d, B)
+        S = ev.sensitivities(values)
+        if S.ndim == 2:
+            S = np.broadcast_to(S, (B * K,) + S.shape)
+        C, _ = ev.bench.balanced(S)
+        Mu = np.repeat(M, K, axis=0)
+        d = ev.bench.delta_e(C, Mu)                                 # (B·K, J, samples)
+        w = ev.bench.weights
+        m = np.einsum("ujk,k->uj", d, w) / w.sum()                  # (B·K, J)
+        top = m.max(axis=1, keepdims=True)
+        u = top[:, 0] * np.sum((m / top) ** WORST_P, axis=1) ** (1.0 / WORST_P)
+        return u.reshape(B, K)
+
+    def __call__(self, X) -> np.ndarray:
+        return tail_residuals(self.unit_scores(X), self.percentile)
+
+
+def tail_residuals(u, percentile=None) -> np.ndarray:
+    """Residuals (B, K) whose Σ r² over K units is the mean of the scores u (B, K) ≥ 0, or of their worst (100 − P) %."""
+    u = np.asarray(u, dtype=float)
+    K = u.shape[-1]
+    if percentile is None:
+        c = np.full_like(u, 1.0 / K)
+    else:
+        n_tail = max(1, int(math.ceil(K * (1 - percentile / 100.0))))
+        rank = np.argsort(np.argsort(-u, axis=-1), axis=-1)
+        c = np.where(rank < n_tail, 1.0 / n_tail, 0.0)
+    return np.sqrt(c * u)
+
+
 def bound_costs(objective: _Objective, x, lower, upper, at_bound, names, units) -> tuple[dict, ...]:
     """What each bound a parameter ends at costs: the first-order gain per unit of relaxing it.
 
@@ -587,7 +654,7 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
                evaluator: DesignEvaluator | None = None, global_start: str | None = None,
                seed: int | None = None, max_evaluations: int | None = None,
                time_limit: float | None = None, callback=None, illuminant_weights=None,
-               across_illuminants: str | None = None, _mix=None) -> FitResult:
+               across_illuminants: str | None = None, _mix=None, _robust=None) -> FitResult:
     """Fit the design's free parameters (and a ΔE00 matrix when asked) to its objective.
 
     Parameters
@@ -675,7 +742,10 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     lo = np.concatenate([np.zeros(nf), np.full(nm, -np.inf)])
     hi = np.concatenate([np.ones(nf), np.full(nm, np.inf)])
     x_start = np.concatenate([start, m0])
-    objective = _Objective(ev, illuminant_weights=fit_weights, across=across, mix=_mix)
+    if _robust is not None:
+        objective = _RobustObjective(ev, _robust["deltas"], percentile=_robust.get("percentile"))
+    else:
+        objective = _Objective(ev, illuminant_weights=fit_weights, across=across, mix=_mix)
     track = _Tracker(objective, budget, progress, stop, callback, time_limit, t0)
     track.tag = "start"
     status, message = FitStatus.BUDGET_SPENT, ""
@@ -715,7 +785,7 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
                 pass
             bx = track.best_x
             starts = [np.concatenate([(bx[:nf] - base) / span, m0])]
-        local = _local_quasi_newton if fit.objective == "mean-delta-e00" else _local
+        local = _local_quasi_newton if (fit.objective == "mean-delta-e00" or _robust is not None) else _local
         if len(starts) > 1:
             # a short local run from each candidate, then the best point found run to convergence
             for i, u0 in enumerate(starts):
@@ -893,3 +963,111 @@ def fit_front(design: Design, points: int, *, evaluator: DesignEvaluator | None 
         current = r.design
     keep = non_dominated(out, ("accuracy_cost", "noise_gain_rms"))
     return tuple(p for p, k in zip(out, keep) if k)
+
+
+# --------------------------------------------------------------------------
+# Designs that survive their tolerances
+# --------------------------------------------------------------------------
+
+ROBUST_METHOD = (
+    "the fit's objective replaced by the expected (or, for a percentile P, the mean of the worst (100 − P) %, "
+    "the conditional value at risk) worst-light mean ΔE00 of units drawn from the [tolerance] distributions, "
+    "each unit with the nominal design's matrix (the fixed-matrix case), the same draws for every candidate "
+    "(common random numbers); started from the nominal fit; the yield then checked by the tolerance Monte "
+    "Carlo on fresh draws (another seed) for both designs, with its 95 % Wilson interval")
+
+
+def check_robust(design: Design, *, draws=None, percentile=None) -> None:
+    """Refuse, in one line, a robust fit that cannot be made."""
+    from workbench.analysis.tolerance_draws import toleranced_parameters
+
+    if draws is not None and (isinstance(draws, bool) or not isinstance(draws, (int, np.integer)) or draws < 2):
+        raise WorkbenchError(f"'--robust-draws' must be a whole number >= 2 (got {draws!r})")
+    if percentile is not None and not (isinstance(percentile, (int, float)) and 0 < percentile < 100):
+        raise WorkbenchError(f"'--robust-percentile' must be a number in (0, 100) (got {percentile!r})")
+    if not toleranced_parameters(design):
+        raise WorkbenchError(f"'--robust' needs toleranced parameters: {design.source or design.name} gives no "
+                             "parameter a tolerance = { distribution, width } table")
+    if not design.free_parameters():
+        raise WorkbenchError(f"'--robust' needs free parameters: {design.source or design.name} has none")
+
+
+def fit_robust(design: Design, *, draws: int = 32, percentile: float | None = None, seed: int | None = None,
+               evaluator: DesignEvaluator | None = None, progress: bool = True,
+               stop: threading.Event | None = None, max_evaluations: int | None = None,
+               time_limit: float | None = None, nominal: FitResult | None = None,
+               check_trials: int = 1000, callback=None) -> FitResult:
+    """A design that survives its tolerances: fit the tolerance-averaged objective, then check the yield.
+
+    Parameters
+    ----------
+    design : Design
+        With free parameters and toleranced parameters.
+    draws : int
+        Units drawn once from the tolerances (common random numbers).
+    percentile : float, optional
+        In (0, 100): minimise the mean of the worst (100 − P) % of the units
+        instead of the mean of all.
+    seed : int, optional
+        Of the draws (default the design's ``[fit] seed``); the yield check
+        uses ``seed + 1`` (fresh draws).
+    max_evaluations : int, optional
+        Budget in unit evaluations (default 40 × the design's budget).
+    nominal : FitResult, optional
+        The nominal fit to start from (made when None).
+    check_trials : int
+        Units of the final yield check, for both designs.
+
+    Returns
+    -------
+    FitResult
+        Of the robust design, with ``robust`` = {method, draws, percentile,
+        seed, nominal: {...}, robust: {...}} where each side holds
+        ``yield``, ``yield_interval_95`` (Wilson), ``mean_delta_E00`` by
+        illuminant (nominal design), ``vora_value`` and ``noise_gain``.
+
+    References
+    ----------
+    Rockafellar, R. T. & Uryasev, S. (2000). Optimization of conditional
+    value-at-risk. *J. Risk* 2(3), 21-41.
+    Wilson, E. B. (1927). *J. Am. Stat. Assoc.* 22, 209-212.
+    """
+    from workbench.analysis.tolerance import run_tolerance
+    from workbench.analysis.tolerance_draws import sample_parameters
+
+    check_robust(design, draws=draws, percentile=percentile)
+    ev = evaluator if evaluator is not None else DesignEvaluator(design)
+    seed = design.fit.seed if seed is None else seed
+    if nominal is None:
+        nominal = fit_design(design, progress=progress, stop=stop, evaluator=ev, time_limit=time_limit,
+                             callback=callback)
+    start = replace(nominal.design, matrix=None)
+    drawn = sample_parameters(start, draws, seed)
+    nominal_values = start.parameters()
+    deltas = {k: v - nominal_values[k].value for k, v in drawn.items()}
+    budget = max_evaluations if max_evaluations is not None else 40 * design.fit.max_evaluations
+    res = fit_design(start, progress=progress, stop=stop, evaluator=ev, global_start="none",
+                     max_evaluations=budget // draws, time_limit=time_limit, callback=callback,
+                     _robust={"deltas": deltas, "percentile": percentile})
+
+    def side(fr: FitResult) -> dict:
+        t = run_tolerance(fr.design, trials=check_trials, seed=seed + 1, matrix="fixed", field=False,
+                          progress=False, evaluator=ev.with_design(replace(fr.design, matrix=None)))
+        summ = t.summary()
+        a = fr.after
+        return {
+            "yield": summ["yield"], "yield_interval_95": summ["yield_interval_95"],
+            "mean_delta_E00": {ill: a.delta_E00[ill]["mean"] for ill in a.illuminants},
+            "worst_mean_delta_E00": max(a.delta_E00[ill]["mean"] for ill in a.illuminants),
+            "vora_value": a.vora_value,
+            "noise_gain": float(np.max(np.linalg.norm(a.matrices, axis=-1))),
+        }
+
+    info = {
+        "method": ROBUST_METHOD, "draws": int(draws), "percentile": percentile, "seed": int(seed),
+        "check_trials": int(check_trials), "check_seed": int(seed + 1),
+        "spec": {"max_mean_delta_E00": design.tolerance.max_mean_delta_E00, "min_vora": design.tolerance.min_vora},
+        "nominal": side(nominal), "robust": side(res),
+    }
+    return replace(res, start_design=design, robust=info,
+                   evaluations=res.evaluations * draws, budget=(budget // draws) * draws)

@@ -74,6 +74,13 @@ def register(subparsers) -> None:
     p.add_argument("--front", type=int, default=None, metavar="N",
                    help="also fit N >= 2 points along the trade-off between mean ΔE00 and noise gain; "
                         "writes front.csv and plots the front in the report (each point has the budget)")
+    p.add_argument("--robust", action="store_true",
+                   help="fit the design that survives its tolerances: the expected worst-light mean ΔE00 over "
+                        "units drawn from [tolerance] (the nominal fit first); the yield of both on fresh draws")
+    p.add_argument("--robust-draws", type=int, default=32, metavar="K",
+                   help="units drawn once for the robust objective (common random numbers; default 32)")
+    p.add_argument("--robust-percentile", type=float, default=None, metavar="P",
+                   help="with --robust: minimise the mean of the worst (100 − P) %% of the units, P in (0, 100)")
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
                    help="wall-time limit of the whole fit in seconds (default: none)")
     p.add_argument("--no-report", action="store_true", help="skip report.html")
@@ -167,6 +174,7 @@ def metrics(result) -> dict:
         "across_illuminants": d["across_illuminants"],
         "illuminant_weights": d["illuminant_weights"],
         "front": d["front"],
+        "robust": d["robust"],
         "methods": d["methods"],
     }
     return out
@@ -197,6 +205,23 @@ def _print_summary(design, result) -> None:
     if result.bound_costs:
         print()
         print(bound_cost_table(result), flush=True)
+    if result.robust:
+        rb = result.robust
+        rows = []
+        for side in ("nominal", "robust"):
+            d = rb[side]
+            lo, hi = d["yield_interval_95"]
+            rows.append({"design": side, "yield_%": 100 * d["yield"], "wilson_95_%": f"{100 * lo:.1f}-{100 * hi:.1f}",
+                         "worst_mean_dE00": d["worst_mean_delta_E00"], "vora_value": d["vora_value"],
+                         "noise_gain": d["noise_gain"]})
+        print()
+        print(render_rows(rows, ["design", "yield_%", "wilson_95_%", "worst_mean_dE00", "vora_value", "noise_gain"],
+                          "table", digits=3, header_lines=[
+                              f"nominal against robust ({rb['draws']} draws"
+                              + (f", worst {100 - rb['percentile']:g} %" if rb["percentile"] else ", expected value")
+                              + f"; yield of {rb['check_trials']} fresh units, seed {rb['check_seed']}, against "
+                              f"mean ΔE00 ≤ {rb['spec']['max_mean_delta_E00']:g} under every light and "
+                              f"ν ≥ {rb['spec']['min_vora']:g}, matrix fixed from the nominal design):"]), flush=True)
     if result.front:
         from workbench.analysis.fit import FRONT_METHOD
 
@@ -210,7 +235,8 @@ def _print_summary(design, result) -> None:
 
 
 def run(args) -> int:
-    from workbench.analysis.fit import check_fit_options, check_front, fit_design, fit_front
+    from workbench.analysis.fit import (check_fit_options, check_front, check_robust, fit_design, fit_front,
+                                        fit_robust)
     from workbench.fileio.outdir import OutputFolder
     from workbench.fileio.spectra_csv import write_spectra_csv
 
@@ -238,6 +264,12 @@ def run(args) -> int:
     check_fit_options(design, illuminant_weights=weights, across_illuminants=args.across_illuminants)
     if args.front is not None:
         check_front(design)
+    if args.robust or args.robust_percentile is not None:
+        if not args.robust:
+            raise WorkbenchError("'--robust-percentile' needs --robust")
+        if args.front is not None:
+            raise WorkbenchError("'--front' and '--robust' cannot be combined (the front is of nominal fits)")
+        check_robust(design, draws=args.robust_draws, percentile=args.robust_percentile)
     # the output folder is one unit: validated and locked now, written into a staging folder, swapped in last
     with OutputFolder(args.out, option="--out", command="fit", names=FILES) as out:
         result = fit_design(design, progress=not args.quiet, global_start=args.global_start,
@@ -245,6 +277,10 @@ def run(args) -> int:
                             across_illuminants=args.across_illuminants, illuminant_weights=weights)
         for n in result.notes:
             notice(n)
+        if args.robust:
+            result = fit_robust(design, draws=args.robust_draws, percentile=args.robust_percentile,
+                                seed=args.seed, progress=not args.quiet, nominal=result,
+                                time_limit=args.time_limit)
         if args.front is not None:
             front = fit_front(design, args.front, progress=not args.quiet, max_evaluations=args.max_evaluations,
                               accuracy_fit=result)
