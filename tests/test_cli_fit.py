@@ -277,8 +277,7 @@ class TestRobustOption:
     def test_nominal_against_robust(self, tmp_path, capsys, demo_design_path):
         """--robust writes the robust design; metrics.json sets nominal against robust with Wilson intervals."""
         out = tmp_path / "o"
-        rc = main(["fit", str(demo_design_path), "--out", str(out), "--quiet", "--no-report", "--robust",
-                   "--robust-draws", "16"])
+        rc = main(["fit", str(demo_design_path), "--out", str(out), "--quiet", "--robust", "--robust-draws", "16"])
         assert rc == 0
         m = json.loads((out / "metrics.json").read_text())
         rb = m["robust"]
@@ -288,3 +287,4 @@ class TestRobustOption:
         assert rb["robust"]["worst_mean_delta_E00"] <= rb["nominal"]["worst_mean_delta_E00"] + 0.1
         assert rb["check_seed"] != rb["seed"]
         assert "nominal against robust (16 draws" in capsys.readouterr().out
+        assert 'id="robust"' in (out / "report.html").read_text()

@@ -554,3 +554,16 @@ class TestBoundCostsSection:
         assert [r[0] for r in rows[1:]] == [c["name"] for c in result.bound_costs]
         for r, c in zip(rows[1:], result.bound_costs):
             assert r[3] == f"{c['d_cost']:+.3g}" and r[5] == f"{c['d_mean_delta_E00']:+.3g}"
+
+
+class TestPerLightTable:
+    def test_every_light_by_matrix_rule(self, fitted, page, points):
+        """One row per matrix rule with the fitted filters; the last cell says whether every light is ≤ 1.0."""
+        rows = parse(page).tables["per-light"]
+        fitted_points = [p for p in points if p["state"] == "fitted"]
+        assert [r[0] for r in rows[1:]] == [p["label"] for p in fitted_points]
+        for r, p in zip(rows[1:], fitted_points):
+            assert r[1:-1] == [f"{v:.3f}" for v in p["by_illuminant"].values()]
+            assert r[-1] == ("yes" if max(p["by_illuminant"].values()) <= 1.0 else "no")
+            # the per-light means average to the overall mean (equal sample counts per light)
+            assert np.mean(list(p["by_illuminant"].values())) == pytest.approx(p["mean_delta_E00"], rel=1e-12)

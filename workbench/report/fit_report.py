@@ -98,6 +98,7 @@ def _point(ev, values, label: str, method: str, state: str) -> dict:
         "noise_gain": float(np.max(row_norms)),
         "sigma_out": float(np.mean(sigma)),
         "mean_delta_E00": float(np.mean(res.delta_E00)),
+        "by_illuminant": {ill: float(np.mean(res.delta_E00[j])) for j, ill in enumerate(res.illuminants)},
         "vora_value": float(vora_value(S.T, ev.cmfs, ev.rec, ev.view)),
     }
 
@@ -352,6 +353,47 @@ def _parameters_table(result) -> str:
             f'{"".join(body)}</table>')
 
 
+def _per_light_table(points) -> str:
+    """Mean ΔE00 under each light with the fitted filters, by matrix rule: does any rule get every light ≤ 1?"""
+    rows = [p for p in points if p.get("state") == "fitted" and p.get("by_illuminant")]
+    if not rows:
+        return ""
+    ills = list(rows[0]["by_illuminant"])
+    body = "".join(
+        f"<tr><td>{_esc(p['label'])}</td>"
+        + "".join(f'<td class="num">{_esc(_f(p["by_illuminant"][i], ".3f"))}</td>' for i in ills)
+        + f"<td>{'yes' if max(p['by_illuminant'].values()) <= 1.0 else 'no'}</td></tr>" for p in rows)
+    head = "".join(f"<th>mean ΔE00 under {_esc(i)}</th>" for i in ills)
+    return ("<h3>Each light with the fitted filters, by matrix rule</h3>"
+            "<p>Mean ΔE00 (CIEDE2000) over the samples under each light, the fitted filters with each matrix "
+            "rule at the design's scope; the last column says whether that rule gets every light to ≤ 1.0.</p>"
+            f'<table id="per-light"><tr><th>matrix rule</th>{head}<th>every light ≤ 1.0</th></tr>{body}</table>')
+
+
+def _robust_section(result) -> str:
+    """Nominal against robust (``workbench fit --robust``): yield with its Wilson interval, ΔE00, noise gain."""
+    rb = getattr(result, "robust", None)
+    if not rb:
+        return ""
+    body = ""
+    for side in ("nominal", "robust"):
+        d = rb[side]
+        lo, hi = d["yield_interval_95"]
+        body += (f"<tr><td>{side}</td><td class=\"num\">{_esc(_f(100 * d['yield'], '.1f'))} %</td>"
+                 f"<td class=\"num\">{_esc(_f(100 * lo, '.1f'))}–{_esc(_f(100 * hi, '.1f'))} %</td>"
+                 f"<td class=\"num\">{_esc(_f(d['worst_mean_delta_E00'], '.3f'))}</td>"
+                 f"<td class=\"num\">{_esc(_f(d['vora_value'], '.4f'))}</td>"
+                 f"<td class=\"num\">{_esc(_f(d['noise_gain'], '.3f'))}</td></tr>")
+    spec = rb["spec"]
+    return ("<h2>Nominal against robust</h2>"
+            f"<p>The written design is the robust one. Yield: {rb['check_trials']} fresh units (seed "
+            f"{rb['check_seed']}) against mean ΔE00 ≤ {spec['max_mean_delta_E00']:g} under every light and "
+            f"ν ≥ {spec['min_vora']:g}. Method: {_esc(rb['method'])}.</p>"
+            '<table id="robust"><tr><th>design</th><th>yield</th><th>95 % Wilson interval</th>'
+            "<th>worst light's nominal mean ΔE00</th><th>nominal ν</th><th>noise gain (largest row norm)</th></tr>"
+            f"{body}</table>")
+
+
 def _bound_costs_section(result) -> str:
     """What each bound a parameter ended at costs, ranked (empty when none is at a bound)."""
     costs = getattr(result, "bound_costs", ())
@@ -510,6 +552,8 @@ def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: i
         '<table id="noise-points"><tr><th>matrix rule, state</th><th>noise gain (largest row norm)</th>'
         "<th>mean σ_out of the grey, display RGB (white = 1)</th><th>mean ΔE00 (CIEDE2000)</th>"
         f"<th>Vora value ν</th></tr>{noise_rows}</table>",
+        _per_light_table(points),
+        _robust_section(result),
         "<h2>Fitted parameters</h2>",
         _parameters_table(result),
         _bound_costs_section(result),
