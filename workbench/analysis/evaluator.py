@@ -158,7 +158,7 @@ def sensitivity_metamerism_index(S, wavelengths, samples, illuminant, *, observe
     }
 
 
-def noise_report(M, raw_white, noise) -> dict:
+def noise_report(M, raw_white, noise, *, grey_electrons=None) -> dict:
     """Noise of the colour-correction matrix for the sensor noise model ``noise``.
 
     Parameters
@@ -166,6 +166,10 @@ def noise_report(M, raw_white, noise) -> dict:
     M : (..., 3, 3) the matrix applied to white-balanced RGB.
     raw_white : (..., 3) raw RGB of the perfect diffuser under the light.
     noise : NoiseModel (full well, read noise, exposure, grey).
+    grey_electrons : (..., 3) optional
+        The grey's photo-electrons per channel from the signal budget
+        (:func:`workbench.analysis.signal_budget.signal_budget`), clipped at
+        the full well; replaces the ``exposure`` rule.
 
     Returns
     -------
@@ -190,8 +194,12 @@ def noise_report(M, raw_white, noise) -> dict:
     """
     M = np.asarray(M, dtype=float)
     w = np.asarray(raw_white, dtype=float)
-    e_white = noise.exposure * noise.full_well_e * w / np.max(w, axis=-1, keepdims=True)
-    e = noise.grey * e_white
+    if grey_electrons is not None:
+        e = np.minimum(np.asarray(grey_electrons, dtype=float), noise.full_well_e)
+        e_white = e / noise.grey
+    else:
+        e_white = noise.exposure * noise.full_well_e * w / np.max(w, axis=-1, keepdims=True)
+        e = noise.grey * e_white
     sigma_in = np.sqrt(e + noise.read_noise_e ** 2) / e_white
     var_out = np.einsum("...ij,...j->...i", M * M, sigma_in ** 2)
     sigma_out = np.sqrt(var_out)
@@ -270,6 +278,7 @@ class Measures:
     weighted_mean_delta_E00: float
     methods: dict
     infrared: object = None
+    signal: dict | None = None
 
     def summary(self) -> dict:
         """The headline numbers as plain JSON-ready data."""
@@ -290,6 +299,8 @@ class Measures:
             },
             "white_balance_gains": {ill: self.gains[j].tolist() for j, ill in enumerate(self.illuminants)},
             **({"near_infrared": self.infrared.summary()} if self.infrared is not None else {}),
+            **({"signal_budget": {ill: b.to_dict() for ill, b in self.signal.items()}}
+               if self.signal is not None else {}),
         }
 
     def per_sample_table(self) -> list[dict]:
@@ -450,6 +461,37 @@ class DesignEvaluator:
             return None
         return np.stack([np.array(per[n]) for n in self.bench.illuminant_names])
 
+    def signal_budgets(self, S) -> dict | None:
+        """The grey's signal budget per illuminant for sensitivities S (3, n), or None without ``[noise] scene_lux``.
+
+        A relative sensor curve is scaled so its peak is ``[noise] qe_percent``
+        (refused without it): the budget needs electrons per photon.
+        """
+        from workbench.analysis.signal_budget import signal_budget
+
+        nm = self.design.noise
+        if nm.scene_lux is None:
+            return None
+        S = np.asarray(S, dtype=float)
+        if nm.qe_percent is not None:
+            sensors = [c for c in self.model.element_curves() if c.type == "sensor-qe"]
+            if not sensors:
+                raise WorkbenchError("noise.qe_percent: the chain has no sensor-qe element to scale")
+            peak = np.max(np.prod([np.asarray(c.values) for c in sensors], axis=0), axis=-1)   # (3,)
+            S = S * (nm.qe_percent / 100.0 / np.where(peak > 0, peak, 1.0))[:, None]
+        elif self.model.units not in ("1",):
+            raise WorkbenchError(
+                f"noise.qe_percent: the sensor curve is {self.model.units!r}, not quantum efficiency 0-1; give "
+                "its peak quantum efficiency in percent for the signal budget")
+        out = {}
+        for j, ill in enumerate(self.bench.illuminant_names):
+            out[ill] = signal_budget(
+                S, self.wavelengths, self.bench.E[j], lux=nm.scene_lux, f_number=nm.f_number,
+                exposure_s=nm.exposure_s, pixel_pitch_um=nm.pixel_pitch_um, reflectance=nm.grey,
+                lens_transmittance=nm.lens_transmittance, full_well_e=nm.full_well_e,
+                read_noise_e=nm.read_noise_e, illuminant=ill)
+        return out
+
     def infrared_cutoffs(self, extra=()) -> tuple[float, ...]:
         """700 nm, the design's ``[fit] infrared_cutoff_nm`` and any ``extra`` cut-offs, nm, once each."""
         return tuple(dict.fromkeys([DEFAULT_CUTOFF_NM, float(self.design.fit.infrared_cutoff_nm),
@@ -487,8 +529,18 @@ class DesignEvaluator:
         smi["samples"] = "CIE 13.3 TCS01-TCS08"
         smi["illuminant"] = "CIE D65"
         smi["slope"] = SMI_SLOPE
-        noise = {ill: noise_report(res.matrices[j], res.raw_white[j], self.design.noise)
+        signal = self.signal_budgets(S)
+        noise = {ill: noise_report(res.matrices[j], res.raw_white[j], self.design.noise,
+                                   grey_electrons=None if signal is None else signal[ill].electrons)
                  for j, ill in enumerate(res.illuminants)}
+        signal_text = None
+        if signal is not None:
+            sig = next(iter(signal.values()))
+            signal_text = (f"shot + read noise: the grey's electrons from the signal budget ({sig.method}; "
+                            f"{self.design.noise.scene_lux:g} lx under each illuminant, f/{self.design.noise.f_number:g}, "
+                            f"{self.design.noise.exposure_s:g} s, {self.design.noise.pixel_pitch_um:g} µm pixels), "
+                            f"clipped at the full well {self.design.noise.full_well_e:g} e⁻; read "
+                            f"{self.design.noise.read_noise_e:g} e⁻ rms; σ_out in display RGB (white = 1)")
         infrared = infrared_report(self.bench, S, cutoffs_nm=self.infrared_cutoffs(infrared_cutoffs),
                                    method=method if matrices is None else fit.matrix, scope=scope)
         j = res.illuminants.index(self.curve_illuminant)
@@ -509,7 +561,7 @@ class DesignEvaluator:
             "delta_E00": METHODS["delta_E00"],
             "matrix": f"{method}, {scope}",
             "smi": smi["method"] + ", CIE 13.3 TCS01-08 under D65",
-            "noise": noise_method(self.design.noise),
+            "noise": signal_text or noise_method(self.design.noise),
             "recording_illuminant": self.design.fit.recording_illuminant or "equal energy",
             "viewing_illuminant": self.design.fit.viewing_illuminant or "equal energy",
             "observer": observer_label(self.design.observer),
@@ -525,7 +577,7 @@ class DesignEvaluator:
             wavelengths=self.wavelengths, illuminants=res.illuminants,
             sample_names=res.sample_names, sample_sets=res.sample_sets,
             weighted_mean_delta_E00=float(res.weighted_mean(self.bench.weights)), methods=methods,
-            infrared=infrared,
+            infrared=infrared, signal=signal,
         )
 
     def batch(self, values: dict, *, matrices=None, method=None, scope=None) -> dict:

@@ -576,17 +576,33 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
                tuple(weights), **extra)
 
 
+#: The [noise] keys of the signal budget, all or none.
+_SIGNAL_KEYS = ("scene_lux", "f_number", "exposure_s", "pixel_pitch_um")
+
+
 def _check_noise(c: _Checker, v) -> NoiseModel | None:
     t = c.table(v, "noise")
     if t is None:
         return None
-    c.unknown(t, ("full_well_e", "read_noise_e", "exposure", "grey"), "noise")
+    c.unknown(t, ("full_well_e", "read_noise_e", "exposure", "grey", *_SIGNAL_KEYS, "lens_transmittance",
+                  "qe_percent"), "noise")
     n0 = len(c.problems)
     out = {}
     rules = {"full_well_e": ("a number > 0 (electrons)", lambda f: f > 0),
              "read_noise_e": ("a number >= 0 (electrons rms)", lambda f: f >= 0),
              "exposure": ("a number in (0, 1] (fraction of the full well)", lambda f: 0 < f <= 1),
-             "grey": ("a number in (0, 1] (reflectance)", lambda f: 0 < f <= 1)}
+             "grey": ("a number in (0, 1] (reflectance)", lambda f: 0 < f <= 1),
+             "scene_lux": ("a number > 0 (lx)", lambda f: f > 0),
+             "f_number": ("a number in [0.5, 1000]", lambda f: 0.5 <= f <= 1000),
+             "exposure_s": ("a number in (0, 3600] (seconds)", lambda f: 0 < f <= 3600),
+             "pixel_pitch_um": ("a number in (0, 1000] (µm)", lambda f: 0 < f <= 1000),
+             "lens_transmittance": ("a number in (0, 1] (fraction)", lambda f: 0 < f <= 1),
+             "qe_percent": ("a number in (0, 100] (percent)", lambda f: 0 < f <= 100)}
+    given = [k for k in _SIGNAL_KEYS if k in t]
+    if given and len(given) < len(_SIGNAL_KEYS):
+        missing = [k for k in _SIGNAL_KEYS if k not in t]
+        c.bad("noise", "all of " + ", ".join(_SIGNAL_KEYS) + " for the signal budget (missing "
+              + ", ".join(missing) + ")", show_got=False)
     for k, (expected, ok) in rules.items():
         if k in t:
             f = _number(t[k])
@@ -940,6 +956,10 @@ def design_to_dict(d: Design, rebase=None) -> dict:
     out["fit"] = fit
     if d.noise != NoiseModel():
         out["noise"] = {k: getattr(d.noise, k) for k in ("full_well_e", "read_noise_e", "exposure", "grey")}
+        out["noise"].update({k: getattr(d.noise, k) for k in (*_SIGNAL_KEYS, "qe_percent")
+                             if getattr(d.noise, k) is not None})
+        if d.noise.lens_transmittance != 1.0:
+            out["noise"]["lens_transmittance"] = d.noise.lens_transmittance
     if d.tolerance != ToleranceSpec():
         tol: dict[str, Any] = {"max_mean_delta_E00": d.tolerance.max_mean_delta_E00,
                                "min_vora": d.tolerance.min_vora}

@@ -288,13 +288,24 @@ class NoiseModel:
 
     ``exposure`` is the fraction of the full well the perfect white reaches
     in the channel that collects most of it; ``grey`` the reflectance of the
-    patch whose output noise is reported.
+    patch whose output noise is reported. With ``scene_lux`` (and
+    ``f_number``, ``exposure_s``, ``pixel_pitch_um``) the grey's electrons
+    come instead from the signal budget of the camera equation
+    (:mod:`workbench.analysis.signal_budget`) under each illuminant;
+    ``lens_transmittance`` for a lens not in the chain, ``qe_percent`` the
+    sensor's peak quantum efficiency when its curve is relative.
     """
 
     full_well_e: float = 20000.0
     read_noise_e: float = 8.0
     exposure: float = 0.8
     grey: float = 0.18
+    scene_lux: float | None = None
+    f_number: float | None = None
+    exposure_s: float | None = None
+    pixel_pitch_um: float | None = None
+    lens_transmittance: float = 1.0
+    qe_percent: float | None = None
 
 
 @dataclass(frozen=True)

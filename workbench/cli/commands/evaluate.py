@@ -181,6 +181,17 @@ def run(args) -> int:
         f"matrix: {m['matrix']}; Luther residual {result['luther_residual']:.4f}; "
         f"{m['smi']}: {result['smi']['smi']:.1f}",
     ]))
+    if "signal_budget" in result:
+        print()
+        sb = [{"illuminant": ill, **r} for ill, b in result["signal_budget"].items() for r in b["channels"]]
+        first = next(iter(result["signal_budget"].values()))
+        inp = first["inputs"]
+        print(render_rows(sb, ["illuminant", "channel", "electrons", "clipped", "snr_shot", "snr_shot_db", "snr"],
+                          "table", header_lines=[
+            f"signal budget: photo-electrons per pixel on a {inp['reflectance']:g} grey at {inp['lux']:g} lx, "
+            f"f/{inp['f_number']:g}, {inp['exposure_s']:g} s, {inp['pixel_pitch_um']:g} µm pixels; SNR = √N_e "
+            "(shot) and with read noise",
+            first["method"]]))
     print()
     tp = result["throughput"]
     print(render_rows(tp["rows"], ["element", "type", "R", "G", "B"], "table", header_lines=[
