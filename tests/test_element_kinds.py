@@ -296,6 +296,22 @@ class TestKindWithOwnParameters:
         assert "  chain[9].layers: expected an array of layer names (got 3)" in str(e.value).splitlines()
 
 
+class TestKindGroups:
+    def test_one_splitter_whichever_kind(self, tmp_path):
+        """A second splitter kind in the splitters' group shares the one-per-chain limit."""
+        other = ElementKind(name="test-splitter", curve=lambda x: np.ones((3, x.wavelengths.size)),
+                            per_path=True, paths_key=False, at_most_one=True, group="dichroic-splitter")
+        register_kind(other)
+        try:
+            extra = '\n[[chain]]\nname = "second"\ntype = "test-splitter"\n'
+            with pytest.raises(DesignError) as e:
+                load_design(_design_with(tmp_path, extra))
+            assert str(e.value).splitlines()[1:] == [
+                "  chain[9].type: expected at most one dichroic-splitter in a chain (got 'test-splitter')"]
+        finally:
+            unregister_kind("test-splitter")
+
+
 class TestDocsTable:
     def test_design_file_doc_is_current(self):
         """docs/design-file.md's table of kinds is the one the registry writes."""

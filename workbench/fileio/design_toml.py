@@ -755,11 +755,14 @@ def design_from_dict(data: dict, *, base_dir=".", source=None) -> Design:
             if e is not None:
                 chain.append((i, e))
         _duplicates(c, [(i, t.get("name")) for i, t in enumerate(items) if isinstance(t.get("name"), str)], "chain")
+        groups: dict[str, set] = {}
         for kind in ELEMENT_KINDS.values():
             if kind.at_most_one:
-                same = [i for i, t in enumerate(items) if t.get("type") == kind.name]
-                for i in same[1:]:
-                    c.bad(f"chain[{i}].type", f"at most one {kind.name} in a chain", kind.name)
+                groups.setdefault(kind.group or kind.name, set()).add(kind.name)
+        for group, names in groups.items():
+            same = [i for i, t in enumerate(items) if t.get("type") in names]
+            for i in same[1:]:
+                c.bad(f"chain[{i}].type", f"at most one {group} in a chain", items[i].get("type"))
     target = _check_target(c, data["target"]) if "target" in data else Target()
     samples = _check_samples(c, data["samples"]) if "samples" in data else []
     if "samples" in data and isinstance(data["samples"], list):

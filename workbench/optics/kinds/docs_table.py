@@ -53,7 +53,8 @@ def _row(kind: ElementKind) -> str:
     what = kind.summary
     rules = []
     if kind.at_most_one:
-        rules.append("at most one per chain")
+        rules.append("at most one per chain" if kind.group in (None, kind.name)
+                     else f"at most one {kind.group} per chain")
     if not kind.paths_key:
         rules.append("acts on R, G and B itself (no `paths`)")
     rules += [f"`{b}` > `{a}`" for a, b in kind.ordered]

@@ -268,7 +268,11 @@ class ElementKind:
         The element takes a ``paths`` key (default all of R, G, B); False
         for an element that acts on all three by itself (the splitter).
     at_most_one : bool
-        At most one element of this kind in a chain.
+        At most one element of this kind — or of its ``group`` — in a chain.
+    group : str or None
+        Kinds with ``at_most_one`` and the same group share the limit (a
+        second kind of beam splitter sets ``group="dichroic-splitter"``: one
+        splitter per chain, whichever kind).
     order : int
         Position in listings (the validator's "one of ..." and the
         documentation table); built-in kinds use 10-90.
@@ -307,6 +311,7 @@ class ElementKind:
     per_path: bool = False
     paths_key: bool = True
     at_most_one: bool = False
+    group: str | None = None
     order: int = 1000
     notes: str = ""
     more_params: Callable[[dict], Mapping[str, ParamSpec]] | None = None
