@@ -27,7 +27,13 @@ class TestRecipeCommand:
         blue = d["faces"][0]
         assert len(blue["layers"]) == 9 and blue["layers"][0]["material"] == "SiO2"
         assert sorted(p.name for p in out.iterdir() if not p.name.startswith(".")) == [
-            "face-blue-green.csv", "face-green-red.csv", "recipes.json"]
+            "design.toml", "face-blue-green.csv", "face-green-red.csv", "recipes.json"]
+        assert set(d["measures"]["mean_delta_E00"]) == {"daylight", "tungsten", "stage-led"}
+        from workbench.fileio.design_toml import load_design
+
+        coated = load_design(out / "design.toml")
+        assert [e.type for e in coated.chain].count("coating") == 2
+        assert "prism-blue-green.layer_9_nm" in coated.parameters()
         status, csv_text, err = _run(capsys, ["coating", str(out / "face-blue-green.csv"), "--incident", "1.52",
                                               "--substrate", "1.52", "--grid", "450:550:50", "--format", "csv"])
         assert status == 0, err

@@ -217,7 +217,7 @@ BAD = {
     ),
     'unknown_type': (
         'PATH: 1 problem in the design file (chain[0].type)\n'
-        "  chain[0].type: expected one of measured, glass, long-pass, short-pass, band-pass, neutral-density, colour-correction, dichroic-splitter, sensor-qe (got 'shortpass')"
+        "  chain[0].type: expected one of measured, glass, long-pass, short-pass, band-pass, neutral-density, colour-correction, dichroic-splitter, coating, sensor-qe (got 'shortpass')"
     ),
     'fit_across_illuminants': (
         'PATH: 4 problems in the design file (fit.across_illuminants, fit.illuminant_weights.day, '

@@ -34,7 +34,7 @@ DEMO = ROOT / "spectra-demo" / "tern3_design.toml"
 DOCS = ROOT / "docs" / "design-file.md"
 
 BUILT_IN = ("measured", "glass", "long-pass", "short-pass", "band-pass", "neutral-density",
-            "colour-correction", "dichroic-splitter", "sensor-qe")
+            "colour-correction", "dichroic-splitter", "coating", "sensor-qe")
 
 
 # --------------------------------------------------------------------------

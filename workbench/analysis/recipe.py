@@ -33,7 +33,7 @@ from workbench.optics.stacks import cone_response, parse_layer_formula, physical
 from workbench.optics.thinfilm import stop_band_edges
 
 __all__ = ["Recipe", "starting_stack", "refine_recipe", "RefineReport", "REFLECTS", "refine_in_camera",
-           "CameraRefineReport", "idealised_face_reflectance", "splitter_recipes", "FaceRecipe"]
+           "CameraRefineReport", "idealised_face_reflectance", "splitter_recipes", "FaceRecipe", "coated_design"]
 
 #: Which side of the edge a face reflects.
 REFLECTS = ("short", "long")
@@ -508,3 +508,48 @@ def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refi
             rec, report = refine_recipe(rec, wl, target, max_evaluations=max_evaluations)
         out.append(FaceRecipe(face, side, float(edge_nm), target, rec, report))
     return out
+
+
+def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coated faces)"):
+    """The design with its idealised splitter replaced by two ``coating`` elements made of ``faces``.
+
+    Each face keeps its angle, cone and glass; its layers are written with
+    physical thicknesses (``L[74.7634] H[25.2293] …``) and every layer gets
+    its own ``layer_<i>_nm`` parameter, bounded to ±20 %, so ``workbench fit``
+    can refine the layers (mark them free) and ``workbench tolerance`` can
+    draw them. The splitter's ``loss`` is not carried over (the stacks are
+    lossless dielectrics).
+
+    Returns
+    -------
+    workbench.model.design.Design
+    """
+    from workbench.fileio.design_toml import design_from_dict, design_to_dict
+
+    data = design_to_dict(design)
+    chain = data["chain"]
+    i = next((k for k, e in enumerate(chain) if e["type"] == "dichroic-splitter"), None)
+    if i is None:
+        raise WorkbenchError(f"{design.name!r} must have a dichroic-splitter element (got none)")
+    split = chain[i]
+    order = split.get("order", "blue-first")
+    by_face = {f.face: f for f in faces}
+    first, second = (("blue-green", "B"), ("green-red", "R")) if order == "blue-first" else \
+        (("green-red", "R"), ("blue-green", "B"))
+    elements = []
+    for (face, channel), paths in ((first, ["R", "G", "B"]), (second, ["G", second[1]])):
+        f = by_face[face]
+        rec = f.recipe
+        el = {"name": f"{split['name']}-{face}", "type": "coating", "paths": sorted(paths, key="RGB".index),
+              "reflects": channel, "layers": rec.formula(digits=4),
+              "materials": {s: m.name for s, m in rec.materials.items()},
+              "incident": rec.incident.name, "substrate": rec.substrate.name, "aoi_deg": rec.aoi_deg}
+        if rec.f_number is not None:
+            el["f_number"] = rec.f_number
+        for j, d in enumerate(rec.thicknesses_nm):
+            el[f"layer_{j + 1}_nm"] = {"value": round(float(d), 4), "min": round(0.8 * float(d), 4),
+                                       "max": round(1.2 * float(d), 4)}
+        elements.append(el)
+    chain[i:i + 1] = elements
+    data["name"] = design.name + name_suffix
+    return design_from_dict(data, base_dir=design.base_dir, source=f"{design.source or design.name} (coated)")

@@ -7,7 +7,12 @@ thickness refined to the idealised curve. Prints each recipe (layer,
 material, physical thickness, QWOT) with the face's edge and the fit; with
 ``--out DIR`` writes one layer table per face (``face-blue-green.csv``,
 ``face-green-red.csv``: columns ``material``, ``thickness_nm``, ``qwot``,
-readable by ``workbench coating``) and ``recipes.json``, as one unit.
+readable by ``workbench coating``), ``recipes.json`` and ``design.toml`` (the
+design with the splitter replaced by two ``coating`` elements, each layer a
+parameter ``layer_<i>_nm`` bounded to ±20 %: mark them free and ``workbench
+fit`` refines the layers against the camera objective), as one unit. The
+camera's measures with the idealised and with the coated faces are printed
+side by side.
 """
 
 from __future__ import annotations
@@ -74,7 +79,7 @@ def _layer_csv(f) -> str:
 def run(args) -> int:
     from workbench.analysis.recipe import splitter_recipes
     from workbench.errors import WorkbenchError
-    from workbench.fileio.design_toml import load_design
+    from workbench.fileio.design_toml import load_design, save_design
 
     if not 1 <= args.periods <= 200:
         raise WorkbenchError(f"--periods must be 1-200 (got {args.periods})")
@@ -85,14 +90,25 @@ def run(args) -> int:
         from workbench.fileio.outdir import OutputFolder
 
         folder = OutputFolder(args.out, option="--out", command="recipe",
-                              names=("face-blue-green.csv", "face-green-red.csv", "recipes.json"))
+                              names=("face-blue-green.csv", "face-green-red.csv", "recipes.json", "design.toml"))
         folder._validate()
     design = load_design(args.design)
     faces = splitter_recipes(design, periods=args.periods, high=args.high, low=args.low,
                              refine=args.evaluations > 0, max_evaluations=max(args.evaluations, 1))
     method = ("characteristic-matrix method; each face averaged over its cone and s, p; refined by bounded "
               "least squares to the idealised face's reflectance (workbench.analysis.recipe)")
-    data = {"design": str(args.design), "method": method, "faces": [_face_dict(f) for f in faces]}
+    from workbench.analysis.evaluator import DesignEvaluator
+    from workbench.analysis.recipe import coated_design
+
+    coated = coated_design(design, faces)
+    m_ideal, m_coated = DesignEvaluator(design).measures(), DesignEvaluator(coated).measures()
+    compare = {"vora_value": {"idealised": m_ideal.vora_value, "coated": m_coated.vora_value},
+               "mean_delta_E00": {ill: {"idealised": m_ideal.delta_E00[ill]["mean"],
+                                        "coated": m_coated.delta_E00[ill]["mean"]} for ill in m_ideal.delta_E00},
+               "method": "workbench evaluate's measures of the design as given and with the two coated faces "
+                         "(matrix fitted for each as the design's [fit] says)"}
+    data = {"design": str(args.design), "method": method, "faces": [_face_dict(f) for f in faces],
+            "measures": compare}
     if args.format == "json":
         text = to_json(data)
     else:
@@ -112,7 +128,12 @@ def run(args) -> int:
                                       header_lines=header if args.format == "table" else (), digits=3))
         text = ("\n\n" if args.format == "table" else "\n").join(blocks)
         if args.format == "table":
-            text = f"# {method}\n" + text
+            lines = [f"# {method}", "# camera measures, idealised faces → coated faces "
+                     "(matrix fitted for each as the design's [fit] says):",
+                     f"#   Vora value ν            {m_ideal.vora_value:.4f} → {m_coated.vora_value:.4f}"]
+            for ill, v in compare["mean_delta_E00"].items():
+                lines.append(f"#   mean ΔE00 {ill:<13} {v['idealised']:.3f} → {v['coated']:.3f}")
+            text = "\n".join(lines) + "\n" + text
     if folder is not None:
         from workbench.fileio.atomic import write_text_atomically
 
@@ -120,7 +141,8 @@ def run(args) -> int:
             for f in faces:
                 write_text_atomically(out.path / f"face-{f.face}.csv", _layer_csv(f))
             write_text_atomically(out.path / "recipes.json", to_json(data) + "\n")
+            save_design(coated, out.path / "design.toml")
             out.commit()
-        notice(f"wrote face-blue-green.csv, face-green-red.csv and recipes.json into {args.out}")
+        notice(f"wrote face-blue-green.csv, face-green-red.csv, recipes.json and design.toml into {args.out}")
     print(text)
     return 0

@@ -1,0 +1,158 @@
+"""Element kind ``coating``: trims and splitter faces from real stacks in design files."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from workbench.fileio.design_toml import design_from_dict, load_design, save_design
+from workbench.model.design import DesignError
+from workbench.optics.materials import material_named
+from workbench.optics.stacks import cone_rays, parse_layer_formula, physical_thicknesses, resolve_materials
+from workbench.optics.thinfilm import stack_response
+
+
+def _design(*elements, grid=(400.0, 700.0, 10.0)):
+    chain = [{"name": "flat", "type": "neutral-density", "density": 0.0}, *elements]
+    return {
+        "schema": 1, "name": "coating test", "observer": 2,
+        "grid": {"start_nm": grid[0], "stop_nm": grid[1], "step_nm": grid[2]},
+        "target": {"kind": "primaries", "name": "ITU-R BT.709"},
+        "chain": chain,
+        "samples": [{"name": "tcs", "source": "cie-13.3"}],
+        "illuminants": [{"name": "daylight", "cie": "D65"}],
+    }
+
+
+TRIM = {"name": "trim", "type": "coating", "paths": ["G"], "layers": "(0.5L H 0.5L)^6",
+        "materials": {"H": "TiO2", "L": "SiO2"}, "reference_nm": 430.0, "aoi_deg": 5.0, "f_number": 2.8}
+
+
+def _reference_T(spec, wl, *, n_inc=1.0, substrate="crown-517", reflect=False):
+    """The coating's curve computed by hand: engine per ray, pupil weights, mean of s and p."""
+    table = spec["materials"]
+    if isinstance(table, str):
+        table = dict(p.split("=") for p in table.replace(" ", "").split(","))
+    mats = resolve_materials(table)
+    layers = parse_layer_formula(spec["layers"], mats)
+    d = physical_thicknesses(layers, mats, spec.get("reference_nm")) * spec.get("thickness_scale", 1.0)
+    N = np.stack([mats[x.symbol].index(wl) for x in layers])
+    n_cone = float(np.real(np.atleast_1d(n_inc)[np.size(n_inc) // 2]))   # the cone at mid-grid
+    angles, w = cone_rays(spec.get("aoi_deg", 0.0), spec.get("f_number"), n_cone, rings=4, azimuths=8)
+    res = stack_response(N, d, wl, angles, incident=n_inc, substrate=material_named(substrate).index(wl))
+    Q = res.R if reflect else res.T
+    return 0.5 * (Q[0] + Q[1]).T @ w
+
+
+class TestCoatingKind:
+    def test_trim_is_cone_averaged_transmittance(self):
+        """A trim coating puts its unpolarised, cone-averaged T on its path and leaves the others."""
+        design = design_from_dict(_design(TRIM))
+        model = design.model()
+        wl = model.wavelengths
+        curves = {c.name: c.values for c in model.element_curves()}
+        # Macleod (2010) ch. 2 through the engine ray by ray; pupil-area weights (common practice)
+        np.testing.assert_allclose(curves["trim"][1], _reference_T(TRIM, wl), atol=1e-12)
+        np.testing.assert_array_equal(curves["trim"][[0, 2]], 1.0)
+
+    def test_two_faces_split_the_light(self):
+        """Two lossless faces (blue first, then red) share all light: B + G + R = 1 at every wavelength."""
+        blue = {"name": "blue-face", "type": "coating", "paths": ["R", "G", "B"], "reflects": "B",
+                "layers": "(0.5L H 0.5L)^10", "materials": "H=TiO2, L=SiO2", "reference_nm": 440.0,
+                "aoi_deg": 25.0, "f_number": 2.0, "incident": "crown-517", "substrate": "crown-517"}
+        red = dict(blue, name="red-face", paths=["R", "G"], reflects="R", layers="(0.5H L 0.5H)^10",
+                   reference_nm=720.0, aoi_deg=12.0)
+        model = design_from_dict(_design(blue, red)).model()
+        S = model.sensitivities()
+        wl = model.wavelengths
+        n_glass = material_named("crown-517").index(wl).real
+        # common practice: energy conservation of lossless faces, face by face
+        np.testing.assert_allclose(S.sum(axis=0), 1.0, atol=1e-12)
+        np.testing.assert_allclose(S[2], _reference_T(blue, wl, n_inc=n_glass, reflect=True), atol=1e-12)
+        assert S[2, 0] > 0.9 and S[2, -1] < 0.1          # blue reflected at 400 nm, not at 700 nm
+        assert S[0, -1] > 0.9 and S[0, 0] < 0.1          # red reflected at 700 nm
+
+    def test_batch_of_reference_wavelengths(self):
+        """A batch of reference wavelengths gives each member's own curve."""
+        model = design_from_dict(_design(dict(TRIM, reference_nm={"value": 430.0, "min": 400.0, "max": 460.0,
+                                                                  "free": True}))).model()
+        batch = model.sensitivities({"trim.reference_nm": np.array([420.0, 440.0])})
+        one = model.sensitivities({"trim.reference_nm": 440.0})
+        np.testing.assert_allclose(batch[1], one, atol=1e-14)
+        assert not np.allclose(batch[0], batch[1])
+
+    def test_own_layer_thickness_replaces_the_formula(self):
+        """layer_<i>_nm replaces that layer's formula thickness (and may be free)."""
+        spec = dict(TRIM, layer_2_nm={"value": 60.0, "min": 40.0, "max": 80.0, "free": True})
+        design = design_from_dict(_design(spec))
+        assert "trim.layer_2_nm" in design.parameters()
+        mats = resolve_materials({"H": "TiO2", "L": "SiO2"})
+        layers = parse_layer_formula(TRIM["layers"], mats)
+        d = physical_thicknesses(layers, mats, 430.0)
+        d[1] = 60.0
+        formula = " ".join(f"{x.symbol}[{t!r}]" for x, t in zip(layers, d))
+        same = design_from_dict(_design(dict(TRIM, layers=formula)))
+        np.testing.assert_allclose(design.model().sensitivities(), same.model().sensitivities(), atol=1e-13)
+        moved = design.model().sensitivities({"trim.layer_2_nm": 70.0})
+        assert not np.allclose(moved, same.model().sensitivities())
+
+    def test_save_and_load_keep_the_stack(self, tmp_path):
+        """A design with a coating saves (materials as a table) and loads to the same curves."""
+        design = design_from_dict(_design(TRIM), base_dir=tmp_path)
+        save_design(design, tmp_path / "d.toml")
+        import tomllib
+
+        saved = tomllib.loads((tmp_path / "d.toml").read_text())
+        assert saved["chain"][1]["materials"] == {"H": "TiO2", "L": "SiO2"}
+        again = load_design(tmp_path / "d.toml")
+        np.testing.assert_allclose(again.model().sensitivities(), design.model().sensitivities(), atol=0)
+
+
+class TestCoatingKindRejections:
+    def _problems(self, element):
+        with pytest.raises(DesignError) as err:
+            design_from_dict(_design(element))
+        return str(err.value)
+
+    def test_bad_formula(self):
+        """A formula with an unknown symbol names the key and the place."""
+        text = self._problems(dict(TRIM, layers="(H L)^4 M"))
+        assert ("chain[1].layers: expected a layer formula; layers must be symbols (H, L), numbers before "
+                "them, [nm] after them and (groups)^N (got 'M' at character 9)") in text
+
+    def test_unknown_material(self):
+        """An unknown material names the symbol."""
+        text = self._problems(dict(TRIM, materials="H=TiO3, L=SiO2"))
+        assert ('chain[1].materials: expected a table of material symbols such as {H = "TiO2", L = "SiO2"}; '
+                "H: material must be one of air, TiO2") in text
+
+    def test_qwot_needs_reference(self):
+        """QWOT layers without reference_nm are refused."""
+        element = dict(TRIM)
+        del element["reference_nm"]
+        assert "chain[1].reference_nm: expected a reference wavelength in nm for the QWOT layers (missing)" in \
+            self._problems(element)
+
+    def test_face_reflects_into_its_paths(self):
+        """A face must reflect into one of its own paths."""
+        text = self._problems(dict(TRIM, reflects="B"))
+        assert 'chain[1].reflects: expected one of the element\'s paths (G) or "none" (got \'B\')' in text
+
+
+class TestDocumentedExamples:
+    def test_examples_in_design_file_doc_load(self):
+        """Every TOML example of the coating section of docs/design-file.md loads and computes."""
+        import re
+        import tomllib
+        from pathlib import Path
+
+        text = (Path(__file__).parents[1] / "docs" / "design-file.md").read_text(encoding="utf-8")
+        section = text[text.index("### Real coatings"):]
+        section = section[:section.index("\n## ")]
+        blocks = re.findall(r"```toml\n(.*?)```", section, flags=re.S)
+        assert len(blocks) == 2
+        for block in blocks:
+            elements = tomllib.loads(block)["chain"]
+            model = design_from_dict(_design(*elements)).model()
+            S = model.sensitivities()
+            assert np.all(np.isfinite(S)) and np.all((S >= 0) & (S <= 1))

@@ -1,0 +1,308 @@
+"""Element kind ``coating``: a real multilayer stack (trim coating, IR cut, or one splitter face).
+
+The stack is a layer formula over material symbols (:mod:`workbench.optics.stacks`):
+``layers = "(0.5L H 0.5L)^12"`` with ``materials = {H = "TiO2", L = "SiO2"}`` and
+the QWOT reference wavelength ``reference_nm``; or physical thicknesses,
+``layers = "H[52.3] L[88.1] …"``. It is computed by the characteristic-
+matrix method (:mod:`workbench.optics.thinfilm`) at its chief-ray angle in
+its incidence medium, averaged over the rays of the lens's cone (when
+``f_number`` is given) and over s and p (unpolarised unless
+``polarisation`` says otherwise).
+
+Use
+---
+``reflects = "none"`` (default)
+    The element transmits: T on each of its ``paths`` (a trim coating, an
+    IR cut).
+``reflects = "B"`` (or ``"G"``, ``"R"``)
+    A splitter face: the named path gets the face's reflectance R, the
+    other paths in ``paths`` its transmittance T, paths not listed are not
+    touched. A blue-first prism is two faces: ``paths = ["R","G","B"]``,
+    ``reflects = "B"``; then ``paths = ["R","G"]``, ``reflects = "R"``.
+    Each face is averaged over the cone on its own, so the green path gets
+    ⟨T₁⟩⟨T₂⟩ where the idealised splitter multiplies ray by ray (a stated
+    simplification; the two differ little when the faces' edges are apart).
+
+Parameters ``reference_nm`` and ``thickness_scale`` (all thicknesses × the
+scale: a systematic proportional thickness error) can be free, bounded and
+toleranced like any other; so can each layer's own physical thickness,
+``layer_<i>_nm`` (i from 1 at the incidence side; the kind's ``more_params``
+names one per layer of the formula), which, when given, replaces what the
+formula says for that layer. The material indices are evaluated on the
+design grid once, when the design is loaded (``load``); the chief-ray angle
+``aoi_deg`` takes the field angle in the field-shift analysis
+(``field_angles``).
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from workbench.errors import WorkbenchError
+from workbench.optics.kinds.registry import (
+    CurveInput, ElementKind, KindProblem, LoadInput, OptionSpec, ParamSpec, register_kind,
+)
+
+__all__ = ["KIND", "MaterialTable", "parse_materials", "CoatingData"]
+
+REFLECTS = ("none", "R", "G", "B")
+POLARISATIONS = ("unpolarised", "s", "p")
+BACK_SURFACE = ("none", "uncoated")
+_CHANNELS = ("R", "G", "B")
+_SYMBOL = re.compile(r"[A-Za-z][A-Za-z0-9_]*")
+
+
+class MaterialTable(dict):
+    """The ``materials`` option: symbol → material name or index, read-only and hashable (saved as a table)."""
+
+    __slots__ = ()
+
+    def __hash__(self):
+        return hash(tuple(self.items()))
+
+    def _read_only(self, *a, **k):
+        raise TypeError("a MaterialTable is read-only")
+
+    __setitem__ = __delitem__ = update = pop = popitem = clear = setdefault = _read_only
+
+
+def parse_materials(value) -> MaterialTable:
+    """The ``materials`` option: a table ``{H = "TiO2", L = 1.46}`` or a string ``"H=TiO2, L=1.46"``.
+
+    Raises
+    ------
+    ValueError
+        What was expected, for the design-file validator.
+    """
+    from workbench.optics.materials import material_named
+
+    expected = 'a table of material symbols such as {H = "TiO2", L = "SiO2"}'
+    if isinstance(value, str):
+        pairs = []
+        for part in value.replace(";", ",").split(","):
+            if part.strip():
+                sym, sep, name = part.partition("=")
+                if not sep:
+                    raise ValueError(expected)
+                pairs.append((sym.strip(), name.strip()))
+    elif isinstance(value, dict):
+        pairs = list(value.items())
+    else:
+        raise ValueError(expected)
+    if not pairs:
+        raise ValueError(expected)
+    out = {}
+    for sym, spec in pairs:
+        if not isinstance(sym, str) or not _SYMBOL.fullmatch(sym):
+            raise ValueError(f"{expected}; symbols are letters, digits and _ starting with a letter "
+                             f"(got {sym!r})")
+        if isinstance(spec, bool) or not isinstance(spec, (str, int, float)):
+            raise ValueError(f"{expected}; each a material name or an index (got {spec!r} for {sym})")
+        try:
+            material_named(spec if isinstance(spec, str) else float(spec))
+        except WorkbenchError as err:
+            raise ValueError(f"{expected}; {sym}: {err}") from None
+        out[sym] = spec if isinstance(spec, str) else float(spec)
+    return MaterialTable(out)
+
+
+def _parse_medium(value):
+    """``incident`` / ``substrate``: a built-in material name or an index."""
+    from workbench.optics.materials import material_named
+
+    if isinstance(value, bool) or not isinstance(value, (str, int, float)):
+        raise ValueError("a material name or an index such as 1.52")
+    try:
+        material_named(value if isinstance(value, str) else float(value))
+    except WorkbenchError as err:
+        raise ValueError(f"a material name or an index such as 1.52; {err}") from None
+    return value
+
+
+def _formula(options):
+    from workbench.optics.stacks import parse_layer_formula, resolve_materials
+
+    mats = resolve_materials(dict(options["materials"]), what="materials")
+    return parse_layer_formula(options["layers"], mats, what="layers"), mats
+
+
+def _more_params(options: dict) -> dict:
+    """One optional physical thickness per layer of the formula: ``layer_1_nm`` … ``layer_L_nm``."""
+    if "layers" not in options or "materials" not in options:
+        return {}
+    try:
+        layers, _ = _formula(options)
+    except WorkbenchError:
+        return {}                         # the check reports the formula's problem at its key
+    return {f"layer_{i + 1}_nm": ParamSpec(0.0, 100000.0, True, False, "nm", optional=True,
+                                           meaning=f"physical thickness of layer {i + 1} ({x.symbol}); "
+                                                   "replaces the formula's")
+            for i, x in enumerate(layers)}
+
+
+@dataclass(frozen=True, eq=False)
+class CoatingData:
+    """What a coating needs on the design grid, made once at load."""
+
+    layers: tuple
+    materials: dict
+    N: np.ndarray            # (L, n) complex
+    n_incident: np.ndarray   # (n,) real
+    n_substrate: np.ndarray  # (n,) complex
+    notes: tuple = ()
+
+
+def _load(x: LoadInput) -> CoatingData:
+    from workbench.optics.materials import material_named
+
+    try:
+        layers, mats = _formula(x.options)
+    except WorkbenchError as err:
+        raise WorkbenchError(f"{x.key}: {err}") from None
+    wl = np.asarray(x.wavelengths, dtype=float)
+    by_sym = {}
+    for sym, m in mats.items():
+        try:
+            by_sym[sym] = m.index(wl)
+        except WorkbenchError as err:
+            raise WorkbenchError(f"{x.key}.materials.{sym}: {err}") from None
+    media = {}
+    for key in ("incident", "substrate"):
+        spec = x.option(key)
+        try:
+            media[key] = material_named(spec if isinstance(spec, str) else float(spec)).index(wl)
+        except WorkbenchError as err:
+            raise WorkbenchError(f"{x.key}.{key}: {err}") from None
+    if np.any(media["incident"].imag != 0):
+        raise WorkbenchError(f"{x.key}.incident: expected a lossless medium (got {x.option('incident')!r})")
+    N = np.stack([by_sym[layer.symbol] for layer in layers])
+    n_inc = media["incident"].real.copy()
+    n_sub = media["substrate"].copy()
+    for a in (N, n_inc, n_sub):
+        a.setflags(write=False)
+    return CoatingData(tuple(layers), mats, N, n_inc, n_sub)
+
+
+def _thicknesses(data: CoatingData, params: dict) -> np.ndarray:
+    """Physical thicknesses ``(..., L)`` for batched parameters."""
+    layers, mats = data.layers, data.materials
+    ref = np.asarray(params.get("reference_nm", np.nan), dtype=float)
+    scale = np.asarray(params["thickness_scale"], dtype=float)
+    own = {i: np.asarray(params[f"layer_{i + 1}_nm"], dtype=float) for i in range(len(layers))
+           if f"layer_{i + 1}_nm" in params}
+    shape = np.broadcast_shapes(ref.shape, scale.shape, *(v.shape for v in own.values()))
+    ref_b = np.broadcast_to(ref, shape).reshape(-1)
+    need_ref = any(x.qwot is not None for i, x in enumerate(layers) if i not in own)
+    n_at = {s: m.index(ref_b).real for s, m in mats.items()} if need_ref else {}
+    cols = []
+    for i, x in enumerate(layers):
+        if i in own:
+            cols.append(np.broadcast_to(own[i], shape).reshape(-1))
+        elif x.physical_nm is not None:
+            cols.append(np.full(ref_b.shape, x.physical_nm))
+        else:
+            cols.append(x.qwot * ref_b / (4.0 * n_at[x.symbol]))
+    d = np.stack(cols, axis=-1).reshape(shape + (len(layers),))
+    return d * scale[..., None]
+
+
+def _curve(x: CurveInput):
+    from workbench.optics.stacks import cone_response
+
+    data: CoatingData = x.data
+    wl = np.asarray(x.wavelengths, dtype=float)
+    d = _thicknesses(data, x.params)
+    if np.any(~(d > 0)):
+        raise WorkbenchError("coating layer thicknesses must be > 0 nm (got one ≤ 0)")
+    aoi = np.asarray(x.p("aoi_deg"), dtype=float)
+    fno = x.params.get("f_number")
+    batch = np.broadcast_shapes(d.shape[:-1], aoi.shape, np.shape(fno) if fno is not None else ())
+    d = np.broadcast_to(d, batch + d.shape[-1:])
+    aoi_b = np.broadcast_to(aoi, batch).reshape(-1)
+    fno_b = None if fno is None else np.broadcast_to(np.asarray(fno, dtype=float), batch).reshape(-1)
+    d_flat = d.reshape(-1, d.shape[-1])
+    R = np.empty((d_flat.shape[0], wl.size))
+    T = np.empty_like(R)
+    # one engine call per distinct geometry (a fit step or a tolerance draw moves few of them)
+    geo = np.stack([aoi_b, np.zeros_like(aoi_b) if fno_b is None else fno_b], axis=1)
+    keys, inverse = np.unique(geo, axis=0, return_inverse=True)
+    for k, (a, f) in enumerate(keys):
+        rows = np.nonzero(inverse.reshape(-1) == k)[0]
+        r, t, _, _ = cone_response(data.N, d_flat[rows], wl, aoi_deg=float(a),
+                                   f_number=None if fno_b is None else float(f),
+                                   incident=data.n_incident, substrate=data.n_substrate,
+                                   polarisation=x.option("polarisation"), rings=x.option("rings"),
+                                   azimuths=x.option("azimuths"),
+                                   back_surface=x.option("back_surface") == "uncoated")
+        R[rows], T[rows] = r, t
+    R = R.reshape(batch + (wl.size,))
+    T = T.reshape(batch + (wl.size,))
+    out = np.ones(batch + (3, wl.size))
+    reflects = x.option("reflects")
+    for i, ch in enumerate(_CHANNELS):
+        if ch in x.paths:
+            out[..., i, :] = R if ch == reflects else T
+    return out
+
+
+def _check(raw: dict, params: dict, options: dict):
+    """The formula parses; QWOT layers have a reference; a face reflects into one of its paths."""
+    if "layers" not in options or "materials" not in options:
+        return
+    try:
+        layers, _ = _formula(options)
+    except WorkbenchError as err:
+        yield KindProblem("layers", f"a layer formula; {err}", ...)
+        return
+    own = {i for i in range(len(layers)) if f"layer_{i + 1}_nm" in raw}
+    if any(x.qwot is not None for i, x in enumerate(layers) if i not in own) and "reference_nm" not in raw:
+        yield KindProblem("reference_nm", "a reference wavelength in nm for the QWOT layers (missing)", ...)
+    reflects = options.get("reflects", "none")
+    paths = raw.get("paths", list(_CHANNELS))
+    if reflects != "none" and isinstance(paths, list) and reflects not in paths:
+        yield KindProblem("reflects", f"one of the element's paths ({', '.join(map(str, paths))}) or \"none\"",
+                          reflects)
+
+
+KIND = register_kind(ElementKind(
+    name="coating",
+    summary="multilayer thin-film coating (trim, IR cut or splitter face), characteristic-matrix method",
+    curve=_curve,
+    per_path=True,
+    check=_check,
+    load=_load,
+    more_params=_more_params,
+    field_angles=("aoi_deg",),
+    params={
+        "reference_nm": ParamSpec(100.0, 3000.0, False, False, "nm", optional=True,
+                                  meaning="reference wavelength of the QWOT layers"),
+        "thickness_scale": ParamSpec(0.0, 3.0, True, False, "", 1.0,
+                                     meaning="every layer's thickness × this (systematic thickness error)"),
+        "aoi_deg": ParamSpec(0.0, 80.0, False, False, "deg", 0.0,
+                             meaning="chief-ray angle in the incidence medium"),
+        "f_number": ParamSpec(0.5, 1000.0, False, False, "", optional=True,
+                              meaning="absent: the chief ray only; given: averaged over the cone of rays"),
+    },
+    options={
+        "layers": OptionSpec("str", required=True,
+                             meaning="layer formula from the incidence side: `(H L)^10 H`, `0.5L`, `H[52.3]` (nm)"),
+        "materials": OptionSpec(parse_materials, required=True,
+                                meaning="symbols: `{H = \"TiO2\", L = \"SiO2\"}`, built-in names or indices"),
+        "incident": OptionSpec(_parse_medium, default="air",
+                               meaning="incidence medium (e.g. crown-517 inside a prism)"),
+        "substrate": OptionSpec(_parse_medium, default="crown-517", meaning="substrate material or index"),
+        "reflects": OptionSpec(REFLECTS, default="none",
+                               meaning="`none`: T on its paths; a channel: that path gets R, the others T"),
+        "polarisation": OptionSpec(POLARISATIONS, default="unpolarised", meaning="light reaching the coating"),
+        "back_surface": OptionSpec(BACK_SURFACE, default="none",
+                                   meaning="`uncoated`: the substrate's back face into air, added incoherently"),
+        "rings": OptionSpec("count", default=4, meaning="quadrature rings over the cone"),
+        "azimuths": OptionSpec("count", default=8, meaning="quadrature azimuths over the cone"),
+    },
+    notes="R, T by the characteristic-matrix method, averaged over the cone's rays and s, p; "
+          "`layer_<i>_nm` parameters (one per layer) replace the formula's thickness",
+    order=85,
+))
