@@ -256,6 +256,45 @@ class TestDesignPanelFit:
         assert panel.progress.value > 0 and panel.progress.bar_style == "success"
         assert "Fit of" in panel.fit_report.value
 
+    @pytest.mark.slow  # a worst-light fit in the panel thread
+    def test_objective_choice(self, panel):
+        """'ΔE00, worst light' fits the worst-illuminant objective; 'Vora value ν' the ν objective."""
+        panel.objective.value = "worst"
+        panel.fit(wait=True)
+        assert panel.result.objective == "mean-delta-e00" and panel.result.across_illuminants == "worst"
+        assert panel.objective.disabled is False
+
+    @pytest.mark.slow  # three fits along the front
+    def test_front_mode(self, panel):
+        """The front mode fits N points, shows the figure and the table, with a running progress total."""
+        panel.mode.value = "front"
+        panel.front_points.value = 3
+        panel.fit(wait=True)
+        res = panel.result
+        assert [p["t"] for p in res.front] == [0.0, 0.5, 1.0]
+        assert 'alt="accuracy against noise"' in panel.fit_report.value
+        assert panel.progress.value > res.evaluations  # the three fits counted together
+
+    @pytest.mark.slow  # the nominal and the robust fit, two tolerance runs
+    def test_robust_mode(self, panel):
+        """The robust mode writes nominal against robust (yields with Wilson intervals) into the panel."""
+        panel.mode.value = "robust"
+        panel.robust_draws.value = 4
+        panel.fit(wait=True)
+        rb = panel.result.robust
+        assert rb["draws"] == 4 and 0 <= rb["robust"]["yield"] <= 1
+        assert "Nominal against robust" in panel.fit_report.value
+
+    def test_front_refused_for_a_delta_e_matrix(self, panel):
+        """A front with a ΔE00 matrix is refused in the error line before any work."""
+        from dataclasses import replace
+
+        panel.design = replace(panel.design, fit=replace(panel.design.fit, matrix="delta-e00"))
+        panel.mode.value = "front"
+        panel.fit()
+        assert not panel.fitting
+        assert panel.error.text.startswith("error: '--front' needs a matrix computed by its rule")
+
     def test_stop_keeps_the_best_point(self, panel, monkeypatch):
         """Stop during a fit ends it as 'stopped' (status 3) with the best point so far."""
         from workbench.analysis.evaluator import DesignEvaluator

@@ -370,7 +370,7 @@ def _per_light_table(points) -> str:
             f'<table id="per-light"><tr><th>matrix rule</th>{head}<th>every light ≤ 1.0</th></tr>{body}</table>')
 
 
-def _robust_section(result) -> str:
+def robust_section_html(result) -> str:
     """Nominal against robust (``workbench fit --robust``): yield with its Wilson interval, ΔE00, noise gain."""
     rb = getattr(result, "robust", None)
     if not rb:
@@ -553,7 +553,7 @@ def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: i
         "<th>mean σ_out of the grey, display RGB (white = 1)</th><th>mean ΔE00 (CIEDE2000)</th>"
         f"<th>Vora value ν</th></tr>{noise_rows}</table>",
         _per_light_table(points),
-        _robust_section(result),
+        robust_section_html(result),
         "<h2>Fitted parameters</h2>",
         _parameters_table(result),
         _bound_costs_section(result),

@@ -46,7 +46,8 @@ from workbench.optics.kinds import element_param_spec
 from workbench.fileio.design_toml import load_design, save_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
-from workbench.analysis.fit import FitResult, fit_design
+from workbench.analysis.fit import (FitResult, check_fit_options, check_front, check_robust, fit_design,
+                                    fit_front, fit_robust)
 from workbench.widgets.common import (
     ErrorLine, compact, design_from_upload, fmt_number, guard, html_table, output_png, show_png, uploaded_files,
 )
@@ -197,7 +198,12 @@ class DesignPanel(W.VBox):
     and redraws the figure; ``tests/benchmarks/bench_widgets.py`` times that
     path. The Fit button runs :func:`workbench.analysis.fit.fit_design` from the
     current slider values in a background thread; Stop ends it and keeps
-    the best point so far. Saving writes the design with the current values
+    the best point so far. The objective menu overrides the design's
+    (ΔE00 averaged over the lights, ΔE00 of the worst light, ν); the mode
+    chooses one fit, the accuracy–noise front (``points`` fits, plotted;
+    :func:`~workbench.analysis.fit.fit_front`) or the fit robust to the
+    design's tolerances (``draws`` units; :func:`~workbench.analysis.fit.fit_robust`,
+    nominal against robust with the yields), all with one progress bar. Saving writes the design with the current values
     and the matrix of the current state, atomically.
     """
 
@@ -217,6 +223,7 @@ class DesignPanel(W.VBox):
         self._thread: threading.Thread | None = None
         self._stop = threading.Event()
         self._last_progress = 0.0
+        self._offset, self._last_n = 0, 0
         # one evaluation + redraw at a time: the fit thread and the kernel's main thread (a value
         # the browser sends back) must not draw into the one figure together
         self._lock = threading.RLock()
@@ -260,6 +267,24 @@ class DesignPanel(W.VBox):
                                     tooltip="end the fit; the best point so far is kept",
                                     layout=W.Layout(width="90px"))
         self.stop_button.add_class("wb-stop")
+        self.objective = W.Dropdown(
+            options=[("the design's [fit]", "design"), ("ΔE00, average over the lights", "mean"),
+                     ("ΔE00, worst light", "worst"), ("Vora value ν", "vora")],
+            value="design", description="objective", layout=W.Layout(width="330px"),
+            style={"description_width": "70px"})
+        self.objective.add_class("wb-objective")
+        self.mode = W.ToggleButtons(
+            options=[("fit", "fit"), ("accuracy–noise front", "front"), ("robust to tolerances", "robust")],
+            value="fit", tooltips=["one fit", "N fits from accurate to quiet, plotted", "fit the design that "
+                                   "survives its [tolerance], yield of nominal and robust"],
+            style={"button_width": "150px"})
+        self.mode.add_class("wb-fit-mode")
+        self.front_points = W.BoundedIntText(value=5, min=2, max=50, description="points",
+                                             layout=W.Layout(width="130px"), style={"description_width": "45px"})
+        self.front_points.add_class("wb-front-points")
+        self.robust_draws = W.BoundedIntText(value=16, min=2, max=1000, description="draws",
+                                             layout=W.Layout(width="130px"), style={"description_width": "45px"})
+        self.robust_draws.add_class("wb-robust-draws")
         self.progress = W.IntProgress(value=0, min=0, max=1, description="evaluations",
                                       layout=W.Layout(width="320px"), style={"description_width": "80px"})
         self.progress.add_class("wb-progress")
@@ -306,6 +331,8 @@ class DesignPanel(W.VBox):
                     W.VBox([self.plot], layout=W.Layout(flex="1 1 0%", min_width="0", margin="0 0 0 8px"))],
                    layout=W.Layout(width="100%")),
             self.table,
+            W.HBox([self.objective, self.mode]),
+            W.HBox([self.front_points, self.robust_draws]),
             W.HBox([self.fit_button, self.stop_button, self.progress]),
             self.fit_status,
             self.fit_report,
@@ -469,14 +496,22 @@ class DesignPanel(W.VBox):
         if self.fitting or self.design is None:
             return
         with guard(self.error) as g:
-            start = self.design.with_values(self.values())
+            start = self._with_objective(self.design.with_values(self.values()))
             if not start.free_parameters():
                 raise WorkbenchError(f"{self.design.source or self.design.name}: no free parameters to fit "
                                      "(set free = true with min and max on at least one)")
+            check_fit_options(start)
+            if self.mode.value == "front":
+                check_front(start)
+            elif self.mode.value == "robust":
+                check_robust(start, draws=int(self.robust_draws.value))
         if g.failed:
             return
         self._stop = threading.Event()
-        self.progress.max = max(1, start.fit.max_evaluations)
+        budget = max(1, start.fit.max_evaluations)
+        self._offset, self._last_n = 0, 0
+        self.progress.max = budget * {"fit": 1, "front": int(self.front_points.value),
+                                      "robust": 1 + 40}[self.mode.value]
         self.progress.value = 0
         self.progress.bar_style = "info"
         self._last_progress = 0.0
@@ -500,11 +535,28 @@ class DesignPanel(W.VBox):
             return not t.is_alive()
         return True
 
+    def _with_objective(self, d: Design) -> Design:
+        """``d`` with the objective chosen in the panel (the design's own by default)."""
+        from dataclasses import replace
+
+        choice = self.objective.value
+        if choice == "design":
+            return d
+        if choice == "vora":
+            return replace(d, fit=replace(d.fit, objective="vora", across_illuminants="weighted-mean",
+                                          illuminant_weights=()))
+        return replace(d, fit=replace(d.fit, objective="mean-delta-e00",
+                                      across_illuminants="worst" if choice == "worst" else "weighted-mean"))
+
     def _progress(self, n: int) -> None:
+        # a front or a robust fit runs several fits, each counting from 0: keep a running total
+        if n < self._last_n:
+            self._offset += self._last_n
+        self._last_n = n
         now = time.perf_counter()
         if now - self._last_progress > 0.05:
             self._last_progress = now
-            self.progress.value = min(n, self.progress.max)
+            self.progress.value = min(self._offset + n, self.progress.max)
 
     def _set_running(self, running: bool) -> None:
         self.fit_button.disabled = running
@@ -514,12 +566,23 @@ class DesignPanel(W.VBox):
         self.reset_button.disabled = running
         for s in self.sliders.values():
             s.disabled = running
+        for w in (self.objective, self.mode, self.front_points, self.robust_draws):
+            w.disabled = running
 
     def _run_fit(self, start: Design) -> None:
         try:
             with guard(self.error) as g:
+                from dataclasses import replace
+
                 res = fit_design(start, progress=False, stop=self._stop, evaluator=self.evaluator,
                                  callback=self._progress)
+                if self.mode.value == "front" and not self._stop.is_set():
+                    front = fit_front(start, int(self.front_points.value), evaluator=self.evaluator,
+                                      progress=False, stop=self._stop, callback=self._progress, accuracy_fit=res)
+                    res = replace(res, front=front)
+                elif self.mode.value == "robust" and not self._stop.is_set():
+                    res = fit_robust(start, draws=int(self.robust_draws.value), evaluator=self.evaluator,
+                                     progress=False, stop=self._stop, callback=self._progress, nominal=res)
             if g.failed:
                 self.fit_status.value = ('<span style="font-size:12px;color:#b00020">fit failed '
                                          '(see the error line)</span>')
@@ -527,9 +590,10 @@ class DesignPanel(W.VBox):
                 return
             self.result = res
             self.reference, self.reference_label = res.before, "before fit"
+            total = max(self._offset + self._last_n, res.evaluations)   # every fit of a front counted
             if res.converged:
-                self.progress.max = max(1, res.evaluations)
-            self.progress.value = min(res.evaluations, self.progress.max)
+                self.progress.max = max(1, total)
+            self.progress.value = min(total, self.progress.max)
             self.progress.bar_style = "success" if res.converged else "warning"
             with guard(self.error, clear=False):
                 self._quiet = True
@@ -550,9 +614,33 @@ class DesignPanel(W.VBox):
                 f"objective {html.escape(res.objective)}; Vora value ν {b.vora_value:.4f} → "
                 f"{a.vora_value:.4f}; weighted mean ΔE00 {b.weighted_mean_delta_E00:.3f} → "
                 f"{a.weighted_mean_delta_E00:.3f}</span>")
-            self.fit_report.value = compact(res._repr_html_())
+            self.fit_report.value = compact(res._repr_html_() + self._extra_html(res))
         finally:
             self._set_running(False)
+
+    @staticmethod
+    def _extra_html(res: FitResult) -> str:
+        """The robust table and the front's figure (an inline SVG image) of a front or robust fit."""
+        import base64
+
+        from workbench.report.fit_report import plot_front, robust_section_html
+
+        out = robust_section_html(res)
+        if res.front:
+            from workbench.plots._canvas import svg_bytes
+
+            fig = plot_front(res.front)
+            data = base64.b64encode(svg_bytes(fig)).decode("ascii")
+            fig.clear()
+            rows = "".join(
+                f"<tr><td>{p['t']:.2g}</td><td>{p['mean_delta_E00']:.3f}</td>"
+                f"<td>{p['worst_illuminant_mean_delta_E00']:.3f}</td><td>{p['noise_gain_rms']:.3f}</td>"
+                f"<td>{p['vora_value']:.4f}</td></tr>" for p in res.front)
+            out += ('<div class="wb-front"><img alt="accuracy against noise" style="max-width:640px" '
+                    f'src="data:image/svg+xml;base64,{data}">'
+                    "<table><tr><th>t</th><th>mean ΔE00</th><th>worst light mean ΔE00</th>"
+                    f"<th>noise gain (RMS row norm)</th><th>ν</th></tr>{rows}</table></div>")
+        return out
 
     # -- saving and export --------------------------------------------------------
     def current_design(self) -> Design:
