@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 
 import numpy as np
+import pytest
 
 from workbench.cli.main import main
 
@@ -20,7 +21,7 @@ class TestRecipeCommand:
         """JSON names both faces with their layers; --out writes tables that `workbench coating` reads back."""
         out = tmp_path / "rec"
         status, text, err = _run(capsys, ["recipe", str(demo_design_path), "--periods", "4", "--evaluations", "2",
-                                          "--format", "json", "--out", str(out)])
+                                          "--tolerance-trials", "20", "--format", "json", "--out", str(out)])
         assert status == 0, err
         d = json.loads(text)
         assert [f["face"] for f in d["faces"]] == ["blue-green", "green-red"]
@@ -29,6 +30,8 @@ class TestRecipeCommand:
         assert sorted(p.name for p in out.iterdir() if not p.name.startswith(".")) == [
             "design.toml", "face-blue-green.csv", "face-green-red.csv", "recipes.json"]
         assert set(d["measures"]["mean_delta_E00"]) == {"daylight", "tungsten", "stage-led"}
+        ranking = d["layer_tolerance"]["blue-green"]["ranking"]
+        assert len(ranking) == 9 and sum(r["share"] for r in ranking) == pytest.approx(1.0)
         from workbench.fileio.design_toml import load_design
 
         coated = load_design(out / "design.toml")
