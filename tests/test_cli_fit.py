@@ -288,3 +288,38 @@ class TestRobustOption:
         assert rb["check_seed"] != rb["seed"]
         assert "nominal against robust (16 draws" in capsys.readouterr().out
         assert 'id="robust"' in (out / "report.html").read_text()
+
+
+class TestConflictingOptions:
+    """The issue's bad input: one clear line, exit 2, nothing written."""
+
+    def _variant(self, tmp_path, demo_design_path, edit):
+        import shutil
+
+        for f in demo_design_path.parent.glob("*.csv"):
+            shutil.copy(f, tmp_path / f.name)
+        p = tmp_path / "variant.toml"
+        p.write_text(edit(demo_design_path.read_text()))
+        return p
+
+    def test_front_without_free_parameters(self, tmp_path, capsys, demo_design_path):
+        """--front on a design with nothing free."""
+        p = self._variant(tmp_path, demo_design_path, lambda t: t.replace("free = true", "free = false"))
+        rc = main(["fit", str(p), "--out", str(tmp_path / "o"), "--quiet", "--front", "4"])
+        assert rc == 2
+        assert capsys.readouterr().err.strip().splitlines() == [
+            f"error: '--front' needs free parameters: {p} has none (set free = true with min and max on at least one)"]
+        assert not (tmp_path / "o").exists()
+
+    def test_robust_without_tolerances(self, tmp_path, capsys, demo_design_path):
+        """--robust on a design whose parameters carry no tolerance."""
+        import re
+
+        p = self._variant(tmp_path, demo_design_path,
+                          lambda t: re.sub(r", tolerance = \{[^}]*\}", "", t))
+        rc = main(["fit", str(p), "--out", str(tmp_path / "o"), "--quiet", "--robust"])
+        assert rc == 2
+        assert capsys.readouterr().err.strip().splitlines() == [
+            f"error: '--robust' needs toleranced parameters: {p} gives no parameter a tolerance = "
+            "{ distribution, width } table"]
+        assert not (tmp_path / "o").exists()
