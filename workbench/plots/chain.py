@@ -45,6 +45,6 @@ def plot_chain(wavelengths, curves, *, ax=None):
         ax[k].set_ylabel(f"{ch}: transmittance / QE (0-1)")
         ax[k].set_ylim(0, 1.05)
         ax[k].legend(fontsize="x-small", loc="upper right")
-        ax[k].set_title(f"channel {ch}: element curves and product along the path", fontsize="small")
+        ax[k].set_title(f"channel {ch}: element curves and product along the path", fontsize="small", y=1.0)
     ax[-1].set_xlabel("wavelength λ (nm)")
     return ax

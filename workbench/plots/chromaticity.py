@@ -82,7 +82,7 @@ def plot_chromaticity_diagram(primaries, *, diagram: str = "xy", observer="2", a
     ax.set_xlim(0, 0.8 if d == "xy" else 0.65)
     ax.set_ylim(0, 0.9 if d == "xy" else 0.65)
     ax.legend(fontsize=7, loc="upper right")
-    ax.set_title(f"Gamut triangles, {'CIE 1931 xy' if d == 'xy' else 'CIE 1976 u′v′'} diagram")
+    ax.set_title(f"Gamut triangles, {'CIE 1931 xy' if d == 'xy' else 'CIE 1976 u′v′'} diagram", y=1.0)
     return ax
 
 
@@ -113,6 +113,6 @@ def plot_target_cmfs(targets: Spectra, *, observer="2", ax=None, title: str | No
     ax.axhline(0, color="0.5", lw=0.6)
     ax.set_xlabel("wavelength λ (nm)")
     ax.set_ylabel("relative sensitivity (inverse RP 177 matrix · x̄ȳz̄)")
-    ax.set_title(title or "Target colour-matching functions and CIE functions")
+    ax.set_title(title or "Target colour-matching functions and CIE functions", y=1.0)
     ax.legend(fontsize=7, ncol=2)
     return ax

@@ -77,5 +77,5 @@ def plot_delta_e_map(delta_e, *, ax=None, vmax: float | None = None, title: str 
     ax.set_xlabel("x (pixel)")
     ax.set_ylabel("y (pixel)")
     if title:
-        ax.set_title(textwrap.fill(title, 80), fontsize="small")
+        ax.set_title(textwrap.fill(title, 80), fontsize="small", y=1.0)
     return ax

@@ -117,7 +117,7 @@ def plot_light_spd(lights, *, reference: bool = True, fig=None):
     ax.legend(fontsize="small", loc="best")
     title = (f"Spectral power distribution of {items[0].name}{extra}" if one
              else "Spectral power distributions at equal luminance (CIE 1931 2° ȳ)")
-    ax.set_title(title, fontsize="medium")
+    ax.set_title(title, fontsize="medium", y=1.0)
     return fig
 
 
@@ -166,7 +166,7 @@ def plot_special_indices(indices: LightIndices, *, fig=None):
     ax.set_ylim(lo, 112)
     ax.grid(axis="y", alpha=0.3)
     ax.legend(fontsize="small", loc="lower left")
-    ax.set_title(f"{indices.name}: CIE 13.3 special indices (colour-science, CIE 1995)", fontsize="medium")
+    ax.set_title(f"{indices.name}: CIE 13.3 special indices (colour-science, CIE 1995)", fontsize="medium", y=1.0)
     return fig
 
 
@@ -229,7 +229,7 @@ def plot_camera_delta_e(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
     ax.legend(fontsize="small", loc="upper right")
     ax.set_title(f"Camera fidelity index {fid.index:.1f}: {fid.light} vs {fid.reference} on {fid.camera}\n"
                  "(white balance on the perfect diffuser, the camera's matrix; Tech 3355 scoring of ΔE00 "
-                 "on open samples)", fontsize="medium")
+                 "on open samples)", fontsize="medium", y=1.0)
     return fig
 
 
@@ -272,7 +272,7 @@ def plot_camera_shifts(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
     full.set_ylabel(AXIS_LABELS["uv"][1])
     full.grid(alpha=0.3)
     full.legend(fontsize="x-small", loc="upper center", bbox_to_anchor=(0.5, -0.12), ncol=2)
-    full.set_title("CIE 1976 u′v′ of the camera's renderings", fontsize="small")
+    full.set_title("CIE 1976 u′v′ of the camera's renderings", fontsize="small", y=1.0)
     what = draw_shift_arrows(fig, zoom, r, dv, de, names, k=k, corner=corner, side=side,
                              label_worst=label_worst, what="reference → test light", shrink=0.85)
     zoom.grid(alpha=0.3)
@@ -281,7 +281,7 @@ def plot_camera_shifts(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
         Line2D([], [], marker=ARROW_MARKER, ms=14, color="tab:green", ls="none", label=what),
     ]
     zoom.legend(handles=handles, fontsize="x-small", loc="upper center", bbox_to_anchor=(0.5, -0.12), ncol=2)
-    zoom.set_title(f"{what}; colour = ΔE00", fontsize="small")
+    zoom.set_title(f"{what}; colour = ΔE00", fontsize="small", y=1.0)
     fig.suptitle(f"Colour shifts on camera: {fid.light} vs {fid.reference} ({fid.camera})", fontsize="medium")
     return fig
 
@@ -327,7 +327,7 @@ def plot_comparison(cmp: LightComparison, *, mode: str = "side-by-side", label_w
         ax.set_xlabel("sample (CIE 13.3 TCS01-14, then CIE 224 CES01-99)")
         ax.set_ylabel(f"{_DE_LABEL} to the eye, A vs B")
         ax.legend(fontsize="small")
-        ax.set_title(head, fontsize="medium")
+        ax.set_title(head, fontsize="medium", y=1.0)
         return fig
     c = np.asarray(m.camera, dtype=float)
     top = max(float(e.max()), float(c.max()), cmp.differ) * 1.1
@@ -356,5 +356,5 @@ def plot_comparison(cmp: LightComparison, *, mode: str = "side-by-side", label_w
     ax.set_ylabel(f"{_DE_LABEL} on camera, A vs B")
     ax.grid(alpha=0.3)
     ax.legend(fontsize="x-small", loc="upper left", bbox_to_anchor=(1.02, 1.0))
-    ax.set_title(head, fontsize="medium")
+    ax.set_title(head, fontsize="medium", y=1.0)
     return fig

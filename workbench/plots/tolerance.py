@@ -170,7 +170,7 @@ def plot_ranking(result, *, case: str | None = None, response: str = "worst_mean
     left.set_xlabel("share of the variance of the response (%)")
     r2 = rk["r_squared"]
     left.set_title(f"variance contribution (linear fit R² = {r2:.2f})" if r2 is not None and math.isfinite(r2)
-                   else "variance contribution", fontsize="small")
+                   else "variance contribution", fontsize="small", y=1.0)
     left.set_xlim(0, max(5.0, float(np.nanmax(np.r_[eta, src2, 0])) * 1.1))
     left.legend(fontsize="x-small", loc="lower right")
     right.barh(y, np.nan_to_num(lo), height=0.6, color="tab:cyan", label="at nominal − width")
@@ -180,7 +180,7 @@ def plot_ranking(result, *, case: str | None = None, response: str = "worst_mean
     what = {"worst_mean_delta_E00": "worst-illuminant mean ΔE00", "vora_value": "Vora value ν"}.get(
         response, response.replace("delta_E00_mean:", "mean ΔE00 under "))
     right.set_xlabel(f"change of the {what} from the nominal {unit}")
-    right.set_title("one at a time: each parameter alone at ∓1 tolerance width", fontsize="small")
+    right.set_title("one at a time: each parameter alone at ∓1 tolerance width", fontsize="small", y=1.0)
     right.legend(fontsize="x-small", loc="lower right")
     for ax in (left, right):
         ax.grid(axis="x", alpha=0.3)
@@ -235,8 +235,8 @@ def plot_field_shift(field, *, fig=None):
         sec.set_xticks(list(names), [" / ".join(v) for v in names.values()], fontsize="x-small",
                        rotation=60, ha="left", rotation_mode="anchor")
         sec.tick_params(length=2, pad=1)
-    left.set_title("samples: each against itself at the centre", fontsize="small")
-    right.set_title("perfect diffuser (white) and grey", fontsize="small")
+    left.set_title("samples: each against itself at the centre", fontsize="small", y=1.0)
+    right.set_title("perfect diffuser (white) and grey", fontsize="small", y=1.0)
     fig.suptitle(f"Colour shift across the image ({field.splitter}): white balance and matrix set at the centre",
                  fontsize="medium")
     return fig
