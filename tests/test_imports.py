@@ -71,3 +71,18 @@ class TestImportedModules:
         names = [line.split("|")[-1].strip() for line in proc.stderr.splitlines()
                  if line.startswith("import time:")]
         assert "pandas" in heavy(names)
+
+
+class TestCommandListing:
+    def test_listing_equals_full_parser(self):
+        """The --help listing read from the command sources equals the one of every parser registered in full."""
+        from workbench.cli.main import build_parser
+
+        assert build_parser(["--help"]).format_help() == build_parser().format_help()
+
+    def test_each_command_read(self):
+        """Every command's name and help are read from its source (none falls back to importing all)."""
+        from workbench.cli.main import _listing, command_names
+
+        listing = [_listing(n) for n in command_names()]
+        assert all(listing) and [c for c, _ in listing] == command_names()
