@@ -86,3 +86,9 @@ class TestCommandListing:
 
         listing = [_listing(n) for n in command_names()]
         assert all(listing) and [c for c, _ in listing] == command_names()
+
+    def test_top_level_help_before_a_command(self):
+        """``workbench -h evaluate`` lists every command, as argparse shows the top-level help first."""
+        from workbench.cli.main import build_parser
+
+        assert build_parser(["-h", "evaluate"]).format_help() == build_parser().format_help()

@@ -116,7 +116,10 @@ def _listing(name: str) -> tuple[str, str] | None:
 
 
 def _first_word(argv: list[str]) -> str:
-    """The command word of ``argv``: the first argument that is neither an option nor ``--limit``'s value."""
+    """The command word of ``argv``: the first argument that is neither an option nor ``--limit``'s value.
+
+    "" when a top-level ``-h``/``--help`` comes first (the listing of every command is asked for).
+    """
     skip = False
     for a in argv:
         if skip:
@@ -125,6 +128,8 @@ def _first_word(argv: list[str]) -> str:
         if a == "--limit":
             skip = True
             continue
+        if a in ("-h", "--help"):
+            return ""
         if not a.startswith("-"):
             return a
     return ""
