@@ -30,10 +30,10 @@ import numpy as np
 
 FACES = [
     {"name": "blue-face", "type": "coating", "paths": ["R", "G", "B"], "reflects": "B",
-     "layers": "(0.5L H 0.5L)^20", "materials": "H=TiO2, L=SiO2", "reference_nm": 438.74,
+     "layers": "(0.5L H 0.5L)^20", "materials": {"H": "TiO2", "L": "SiO2"}, "reference_nm": 438.74,
      "aoi_deg": 25.0, "f_number": 2.0, "incident": "crown-517", "substrate": "crown-517"},
     {"name": "red-face", "type": "coating", "paths": ["R", "G"], "reflects": "R",
-     "layers": "(0.5H L 0.5H)^20", "materials": "H=TiO2, L=SiO2", "reference_nm": 720.83,
+     "layers": "(0.5H L 0.5H)^20", "materials": {"H": "TiO2", "L": "SiO2"}, "reference_nm": 720.83,
      "aoi_deg": 12.0, "f_number": 2.0, "incident": "crown-517", "substrate": "crown-517"},
 ]
 
@@ -57,9 +57,8 @@ def main() -> None:
     from workbench.analysis.evaluator import DesignEvaluator
     from workbench.analysis.recipe import Recipe, refine_in_camera
     from workbench.fileio.design_toml import design_from_dict, load_design
-    from workbench.optics.kinds.coating import coating_stack
     from workbench.optics.materials import material_named
-    from workbench.optics.stacks import physical_thicknesses
+    from workbench.optics.stacks import parse_layer_formula, physical_thicknesses, resolve_materials
 
     warnings.simplefilter("ignore")
     demo = demo_dir() / "tern3_design.toml"
@@ -88,7 +87,8 @@ def main() -> None:
     t_i = timings(moved_ideal, args.repeats)
     t_f = timings(one_face, args.repeats)
 
-    parsed, mats = coating_stack(FACES[0]["layers"], FACES[0]["materials"])
+    mats = resolve_materials({"H": "TiO2", "L": "SiO2"})
+    parsed = parse_layer_formula(FACES[0]["layers"], mats)
     d = physical_thicknesses(parsed, mats, FACES[0]["reference_nm"])
     rec = Recipe(tuple(x.symbol for x in parsed), mats, d, FACES[0]["reference_nm"], material_named("crown-517"),
                  material_named("crown-517"), 25.0, 2.0)

@@ -189,23 +189,26 @@ def _load(x: LoadInput) -> CoatingData:
 def _thicknesses(data: CoatingData, params: dict) -> np.ndarray:
     """Physical thicknesses ``(..., L)`` for batched parameters."""
     layers, mats = data.layers, data.materials
+    L = len(layers)
     ref = np.asarray(params.get("reference_nm", np.nan), dtype=float)
     scale = np.asarray(params["thickness_scale"], dtype=float)
-    own = {i: np.asarray(params[f"layer_{i + 1}_nm"], dtype=float) for i in range(len(layers))
+    own = {i: np.asarray(params[f"layer_{i + 1}_nm"], dtype=float) for i in range(L)
            if f"layer_{i + 1}_nm" in params}
     shape = np.broadcast_shapes(ref.shape, scale.shape, *(v.shape for v in own.values()))
-    ref_b = np.broadcast_to(ref, shape).reshape(-1)
-    need_ref = any(x.qwot is not None for i, x in enumerate(layers) if i not in own)
-    n_at = {s: m.index(ref_b).real for s, m in mats.items()} if need_ref else {}
-    cols = []
-    for i, x in enumerate(layers):
-        if i in own:
-            cols.append(np.broadcast_to(own[i], shape).reshape(-1))
-        elif x.physical_nm is not None:
-            cols.append(np.full(ref_b.shape, x.physical_nm))
-        else:
-            cols.append(x.qwot * ref_b / (4.0 * n_at[x.symbol]))
-    d = np.stack(cols, axis=-1).reshape(shape + (len(layers),))
+    qwot = np.array([np.nan if x.qwot is None else x.qwot for x in layers])
+    phys = np.array([np.nan if x.physical_nm is None else x.physical_nm for x in layers])
+    d = np.broadcast_to(phys, shape + (L,)).copy()
+    need = np.isfinite(qwot)
+    need[list(own)] = False
+    if need.any():
+        symbols = list(mats)
+        ref_b = np.broadcast_to(ref, shape).reshape(-1)
+        n_at = np.stack([mats[s].index(ref_b).real for s in symbols])          # (M, B)
+        which = np.array([symbols.index(x.symbol) for x in layers])[need]
+        q = qwot[need][:, None] * ref_b[None, :] / (4.0 * n_at[which])           # (L_q, B)
+        d[..., need] = q.T.reshape(shape + (int(need.sum()),))
+    for i, v in own.items():
+        d[..., i] = v
     return d * scale[..., None]
 
 
