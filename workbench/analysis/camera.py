@@ -344,6 +344,8 @@ class ColourBench:
         return delta_E_CIE2000(self.lab_of(C, M), self.true_Lab)
 
     def _refine_delta_e(self, C, M0, scope) -> np.ndarray:
+        # Late: scipy.optimize (~1 s to import) serves only the ΔE00-minimising matrix, so judging
+        # a design with the other rules (``workbench evaluate``) never loads it.
         from scipy.optimize import least_squares
 
         if C.ndim != 3:

@@ -57,6 +57,7 @@ from workbench.report.html import measures_html
 from workbench.report.methods import METHODS, noise_method, smi_method
 from workbench.fileio.spectra_csv import read_spectra_csv
 from workbench.colorimetry.targets import primaries_XYZ, target_cmfs
+from workbench.analysis.signal_budget import signal_budget
 
 __all__ = [
     "design_primaries",
@@ -467,8 +468,6 @@ class DesignEvaluator:
         A relative sensor curve is scaled so its peak is ``[noise] qe_percent``
         (refused without it): the budget needs electrons per photon.
         """
-        from workbench.analysis.signal_budget import signal_budget
-
         nm = self.design.noise
         if nm.scene_lux is None:
             return None

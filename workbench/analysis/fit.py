@@ -19,13 +19,21 @@ from dataclasses import dataclass, field, replace
 from enum import IntEnum
 
 import numpy as np
+from scipy.optimize import differential_evolution, least_squares
+from scipy.stats import qmc
 
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
+from workbench.analysis.measures import vora_value
+from workbench.analysis.progress import progress_bar
 from workbench.errors import WorkbenchError
 from workbench.model.design import ACROSS_ILLUMINANTS, CHANNELS, Design
 from workbench.optics.kinds import element_param_spec
 from workbench.report.html import fit_result_html
 from workbench.report.json_text import json_text
+from scipy.optimize import minimize
+from workbench.analysis.tolerance_draws import toleranced_parameters
+from workbench.analysis.tolerance import run_tolerance
+from workbench.analysis.tolerance_draws import sample_parameters
 
 __all__ = ["FitResult", "FitStatus", "FIT_STATUS_TABLE", "fit_design", "FitStopped", "bound_costs",
            "bound_cost_text", "parameter_unit", "ACROSS_ILLUMINANTS", "fit_front", "non_dominated", "check_front", "fit_robust",
@@ -221,9 +229,7 @@ class _Tracker:
         self.bad = None
         self.bar = None
         if progress:
-            from tqdm.auto import tqdm
-
-            self.bar = tqdm(total=self.budget, desc="fit", unit="eval", leave=False)
+            self.bar = progress_bar(total=self.budget, desc="fit", unit="eval", leave=False)
 
     def remaining(self) -> int:
         return self.budget - self.n
@@ -385,8 +391,6 @@ class _Objective:
         """For points X (B, n): ``cost`` Σr², ``vora_value``, ``mean_delta_E00`` (weighted over samples ×
         illuminants, as :attr:`Measures.weighted_mean_delta_E00`), ``mean_by_illuminant`` (B, J, sample-weighted) and
         ``noise_gain`` (B,) the largest row norm of the matrix."""
-        from workbench.analysis.measures import vora_value
-
         X = np.atleast_2d(np.asarray(X, dtype=float))
         ev = self.ev
         S, C, M = self.parts(X)
@@ -550,8 +554,6 @@ def _local(track: _Tracker, u0, lo, hi, nf, span, base, iterations=None):
     Capped only by the tracker (the whole fit's budget and time): the
     solver's own evaluation limit is set beyond what is left.
     """
-    from scipy.optimize import least_squares
-
     def x_of(u):
         u = np.atleast_2d(u)
         return np.concatenate([base[:nf] + u[:, :nf] * span, u[:, nf:]], axis=1)
@@ -597,8 +599,6 @@ def _local_quasi_newton(track: _Tracker, u0, lo, hi, nf, span, base, iterations=
     algorithm for bound constrained optimization. *SIAM J. Sci. Comput.*
     16(5), 1190-1208.
     """
-    from scipy.optimize import minimize
-
     n = u0.size
 
     def fg(u):
@@ -757,16 +757,12 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
         starts = [np.concatenate([u_start, m0])]
         track.tag = "global"
         if gs == "multi-start":
-            from scipy.stats import qmc
-
             pts = qmc.LatinHypercube(d=nf, seed=seed).random(max(1, fit.starts))
             X = np.concatenate([base + pts * span, np.broadcast_to(m0, (len(pts), nm))], axis=1)
             r = track(X)
             order = np.argsort(np.sum(r * r, axis=-1))[:3]
             starts += [np.concatenate([pts[i], m0]) for i in order]
         elif gs == "differential-evolution":
-            from scipy.optimize import differential_evolution
-
             share = track.n + budget // 2     # the global search may spend half the budget
 
             def de_cost(U):
@@ -979,8 +975,6 @@ ROBUST_METHOD = (
 
 def check_robust(design: Design, *, draws=None, percentile=None) -> None:
     """Refuse, in one line, a robust fit that cannot be made."""
-    from workbench.analysis.tolerance_draws import toleranced_parameters
-
     if draws is not None and (isinstance(draws, bool) or not isinstance(draws, (int, np.integer)) or draws < 2):
         raise WorkbenchError(f"'--robust-draws' must be a whole number >= 2 (got {draws!r})")
     if percentile is not None and not (isinstance(percentile, (int, float)) and 0 < percentile < 100):
@@ -1032,9 +1026,6 @@ def fit_robust(design: Design, *, draws: int = 32, percentile: float | None = No
     value-at-risk. *J. Risk* 2(3), 21-41.
     Wilson, E. B. (1927). *J. Am. Stat. Assoc.* 22, 209-212.
     """
-    from workbench.analysis.tolerance import run_tolerance
-    from workbench.analysis.tolerance_draws import sample_parameters
-
     check_robust(design, draws=draws, percentile=percentile)
     ev = evaluator if evaluator is not None else DesignEvaluator(design)
     seed = design.fit.seed if seed is None else seed

@@ -19,14 +19,21 @@ from functools import lru_cache
 
 import numpy as np
 
-from workbench.colorimetry.cie import cmfs_on
-from workbench.colorimetry.coordinates import XYZ_to_Lab, XYZ_to_uv_prime, delta_E_CIE2000
-from workbench.errors import WorkbenchError
-from workbench.model.spectra import Spectra, grid
+from workbench.analysis.camera import bradford_matrix
 from workbench.analysis.light_indices import cct_duv, emission_XYZ
 from workbench.analysis.light_spd import (
-    DAYLIGHT_CCT_RANGE, light_label, light_short_name, reference_illuminant, working_spd,
+    DAYLIGHT_CCT_RANGE,
+    light_label,
+    light_short_name,
+    reference_illuminant,
+    working_spd,
 )
+from workbench.colorimetry.cie import cmfs_on
+from workbench.colorimetry.coordinates import XYZ_to_Lab, XYZ_to_uv_prime, delta_E_CIE2000
+from workbench.colorimetry.primaries import white_chromaticity
+from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
+from workbench.errors import WorkbenchError
+from workbench.model.spectra import Spectra, grid, resample_values
 
 __all__ = [
     "MATCH_DELTA_E00",
@@ -90,8 +97,6 @@ def camera_fidelity_score(delta_E00, axis=-1) -> tuple[np.ndarray, np.ndarray]:
 
 @lru_cache(maxsize=16)
 def _samples_on(key: bytes):
-    from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
-
     wl = np.frombuffer(key, dtype=float)
     t = tcs_cie_13_3(wl, extrapolation="constant")
     c = ces_cie_224(wl, extrapolation="constant")
@@ -105,8 +110,6 @@ def _samples_on(key: bytes):
 
 def _camera_on(camera, wl: np.ndarray):
     """The camera with its sensitivities on ``wl`` (inside its own range), and the note."""
-    from workbench.model.spectra import resample_values
-
     cw = np.asarray(camera.wavelengths, dtype=float)
     if wl.size == cw.size and np.allclose(wl, cw):
         return camera, None
@@ -475,9 +478,6 @@ def compare_lights(spd_a: Spectra, spd_b: Spectra, *, camera=None, match: float 
     Lam, K. M. (1985), the Bradford transform.
     docs/methods.md §18.
     """
-    from workbench.analysis.camera import bradford_matrix
-    from workbench.colorimetry.primaries import white_chromaticity
-
     if not (0 <= match < differ):
         raise WorkbenchError(f"thresholds must satisfy 0 <= match < differ (got match {match:g}, "
                              f"differ {differ:g})")

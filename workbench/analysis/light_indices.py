@@ -24,14 +24,21 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from workbench.analysis.light_spd import (
+    DAYLIGHT_CCT_RANGE,
+    K_M,
+    SSI_DAYLIGHT_FROM,
+    absolute_scale,
+    light_label,
+    light_short_name,
+    reference_illuminant,
+    working_spd,
+)
 from workbench.colorimetry.cie import canonical_illuminant
 from workbench.colorimetry.coordinates import XYZ_to_uv_prime, XYZ_to_xy
+from workbench.colorimetry.tristimulus import emission_weights
 from workbench.errors import WorkbenchError
 from workbench.model.spectra import Spectra, grid
-from workbench.analysis.light_spd import (
-    DAYLIGHT_CCT_RANGE, K_M, SSI_DAYLIGHT_FROM, absolute_scale, light_label, light_short_name,
-    reference_illuminant, working_spd,
-)
 
 __all__ = ["LightIndices", "light_indices", "cct_duv", "emission_XYZ"]
 
@@ -65,7 +72,7 @@ def _colour():
     import alone takes seconds (it loads its plotting module, matplotlib
     and pandas), and only these published indices need it.
     """
-    import colour
+    import colour  # late: seconds to import, and only these published indices need it
 
     return colour
 
@@ -114,8 +121,6 @@ def cct_duv(XYZ: np.ndarray) -> tuple[float, float]:
 
 def emission_XYZ(wl: np.ndarray, values: np.ndarray) -> np.ndarray:
     """Σ E x̄ȳz̄ Δλ (CIE 1931 2°) on a uniform grid — unnormalised."""
-    from workbench.colorimetry.tristimulus import emission_weights
-
     return emission_weights(wl).apply(values)
 
 

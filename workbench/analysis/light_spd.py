@@ -16,12 +16,16 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 
 from workbench.colorimetry.cie import daylight_basis
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
+from workbench.fileio.spectra_csv import parse_spectra_text, read_spectra_csv
 from workbench.model.spectra import Spectra, grid, is_uniform
+from workbench.fileio.units import spectral_unit, to_watts
+from workbench.fileio.kinds import read_for
 
 __all__ = [
     "CAUTION",
@@ -83,8 +87,6 @@ def absolute_watts(s: Spectra) -> Spectra:
     Units are read by :func:`workbench.fileio.units.spectral_unit`; text it
     does not know is refused, naming the file (never taken as relative).
     """
-    from workbench.fileio.units import spectral_unit, to_watts
-
     unit = spectral_unit(s.units, where=f"{light_label(s)}: units")
     if not unit.photons:
         return s
@@ -108,9 +110,6 @@ def read_light(path, *, spectrum: str | None = None, kind: str | None = None) ->
         ``values`` (1, n) in the file's units (``units`` as the header says,
         ``'relative'`` when it says none).
     """
-    from workbench.fileio.kinds import read_for
-    from workbench.fileio.spectra_csv import read_spectra_csv
-
     s = read_for(lambda k: read_spectra_csv(path, kind=k), ("emission",), command="light",
                  default="emission", kind=kind)
     return absolute_watts(_one_spectrum(s, spectrum))
@@ -118,9 +117,6 @@ def read_light(path, *, spectrum: str | None = None, kind: str | None = None) ->
 
 def parse_light(data: bytes | str, *, source: str, spectrum: str | None = None) -> Spectra:
     """:func:`read_light` for text already in memory (an uploaded file); ``source`` names it in messages."""
-    from workbench.fileio.kinds import read_for
-    from workbench.fileio.spectra_csv import parse_spectra_text
-
     s = read_for(lambda k: parse_spectra_text(data, source=source, kind=k), ("emission",),
                  command="light", default="emission")
     return absolute_watts(_one_spectrum(s, spectrum))
@@ -134,8 +130,6 @@ def light_label(s: Spectra) -> str:
 def light_short_name(s: Spectra) -> str:
     """A short name for titles and tables: the file's stem, else the spectrum's name."""
     if s.source:
-        from pathlib import Path
-
         return Path(s.source).stem
     return s.names[0]
 

@@ -23,14 +23,18 @@ side; the edge shifts with angle and splits in s and p).
 
 from __future__ import annotations
 
+import copy
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy.optimize import least_squares
 
 from workbench.errors import WorkbenchError
+from workbench.optics.elements import angle_shift_factor, edge
 from workbench.optics.materials import Material, material_named
-from workbench.optics.stacks import cone_response, parse_layer_formula, physical_thicknesses
+from workbench.optics.stacks import cone_rays, cone_response, parse_layer_formula, physical_thicknesses
 from workbench.optics.thinfilm import stop_band_edges
+from workbench.fileio.design_toml import design_from_dict, design_to_dict
 
 __all__ = ["Recipe", "starting_stack", "refine_recipe", "RefineReport", "REFLECTS", "refine_in_camera",
            "CameraRefineReport", "idealised_face_reflectance", "splitter_recipes", "FaceRecipe", "coated_design"]
@@ -219,8 +223,6 @@ def refine_recipe(recipe: Recipe, wavelengths_nm, target_R, *, weights=None, low
     -------
     (Recipe, RefineReport)
     """
-    from scipy.optimize import least_squares
-
     wl = np.asarray(wavelengths_nm, dtype=float)
     target = np.asarray(target_R, dtype=float)
     if target.shape != wl.shape:
@@ -272,8 +274,6 @@ def _residuals_of_sensitivities(evaluator, S):
     shallow copy whose ``sensitivities`` returns ``S`` gives the same
     residuals for any sensitivities without touching the caller's evaluator.
     """
-    import copy
-
     ev = copy.copy(evaluator)
     ev.sensitivities = lambda values=None: S
     x = np.broadcast_to(evaluator.start, (S.shape[0], evaluator.start.size))
@@ -325,7 +325,7 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
     -------
     (Recipe, CameraRefineReport)
     """
-    from scipy.optimize import least_squares
+    from scipy.optimize import least_squares  # late: scipy.optimize (~1 s) only for this refinement
 
     if evaluator._n_matrix_params():
         raise WorkbenchError("refining in the camera takes an objective without a fitted ΔE00 matrix "
@@ -421,9 +421,6 @@ def idealised_face_reflectance(element, wavelengths_nm, face: str) -> np.ndarray
     -------
     (n,) ndarray, fraction 0-1
     """
-    from workbench.optics.elements import angle_shift_factor, edge
-    from workbench.optics.stacks import cone_rays
-
     names = {f: (p, side) for f, p, side in SPLITTER_FACES}
     if face not in names:
         raise WorkbenchError(f"'face' must be one of {', '.join(names)} (got {face!r})")
@@ -524,8 +521,6 @@ def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coat
     -------
     workbench.model.design.Design
     """
-    from workbench.fileio.design_toml import design_from_dict, design_to_dict
-
     data = design_to_dict(design)
     chain = data["chain"]
     i = next((k for k, e in enumerate(chain) if e["type"] == "dichroic-splitter"), None)

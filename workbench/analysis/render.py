@@ -57,20 +57,25 @@ from __future__ import annotations
 
 import math
 import os
+import sys
 import time
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from workbench.analysis.camera import Camera, bradford_matrix
+from workbench.analysis.progress import progress_bar
 from workbench.colorimetry.cie import cmfs_on, observer_label
 from workbench.colorimetry.coordinates import XYZ_to_Lab, delta_E_CIE2000
-from workbench.errors import WorkbenchError
 from workbench.colorimetry.primaries import primaries_named
-from workbench.model.spectra import check_wavelengths, is_uniform, resampling_matrix
+from workbench.errors import WorkbenchError
 from workbench.fileio.spectral_cube import SUB_BLOCK, describe_grid
+from workbench.model.spectra import check_wavelengths, is_uniform, resampling_matrix
 
 __all__ = [
+    "load_dask",
+    "load_distributed",
     "client_for",
     "BatchPipeline",
     "SpectraEvaluation",
@@ -333,8 +338,6 @@ class BatchPipeline:
         c8 = np.empty((m, 3), np.uint8) if images else None
         starts = range(0, m, SUB_BLOCK)
         if workers > 1 and len(starts) > 1:
-            from concurrent.futures import ThreadPoolExecutor
-
             per = -(-len(starts) // (4 * workers))          # a few tasks per worker
             groups = [starts[i:i + per] for i in range(0, len(starts), per)]
             with ThreadPoolExecutor(workers) as pool:
@@ -476,15 +479,30 @@ def _render_chunk(pipeline: BatchPipeline, block, images: bool) -> RenderBlock:
     return pipeline.render_block(block, images=images)
 
 
+def load_dask():
+    """The dask package with ``dask.array``, ``dask.delayed`` and ``dask.callbacks`` loaded."""
+    # Late: dask (~0.3 s) serves only out-of-core work; the in-memory render needs numpy alone.
+    import dask.array
+
+    return dask
+
+
+def load_distributed():
+    """The ``distributed`` package (optional: only a cluster scheduler needs it); a one-line error when missing."""
+    try:
+        import distributed  # late: optional, and heavy; only a cluster scheduler needs it
+    except ImportError:  # pragma: no cover
+        raise WorkbenchError("a cluster scheduler needs the 'distributed' package") from None
+    return distributed
+
+
 class _TaskBar:
     """A dask local-scheduler callback that moves a tqdm bar on each finished chunk."""
 
     def __init__(self, bar, prefix: str):
-        from dask.callbacks import Callback
-
         outer = self
 
-        class _CB(Callback):
+        class _CB(load_dask().callbacks.Callback):
             def _posttask(self, key, result, dsk, state, worker_id):
                 name = key[0] if isinstance(key, tuple) else key
                 if isinstance(name, str) and name.startswith(outer.prefix):
@@ -496,10 +514,7 @@ class _TaskBar:
 
 
 def _progress_bar(total: int, enabled: bool, desc: str):
-    from tqdm.auto import tqdm
-    import sys
-
-    return tqdm(total=total, desc=desc, unit="chunk", disable=not enabled, file=sys.stderr,
+    return progress_bar(total=total, desc=desc, unit="chunk", disable=not enabled, file=sys.stderr,
                 leave=True, dynamic_ncols=True)
 
 
@@ -531,10 +546,8 @@ def render_dask(pipeline: BatchPipeline, cube, *, images: bool | None = None, sc
     Ctrl-C (KeyboardInterrupt) stops the work: futures on a cluster are
     cancelled and the interrupt propagates; nothing is returned.
     """
-    import dask
-    import dask.array as da
-
-    if not isinstance(cube, da.Array):
+    dask = load_dask()
+    if not isinstance(cube, dask.array.Array):
         raise WorkbenchError("render_dask needs a dask.array (see SpectralCube.to_dask)")
     if cube.ndim not in (2, 3) or cube.shape[-1] != pipeline.bands:
         raise WorkbenchError(f"the cube must be (N, {pipeline.bands}) or (h, w, {pipeline.bands}) "
@@ -558,12 +571,10 @@ def render_dask(pipeline: BatchPipeline, cube, *, images: bool | None = None, sc
             with tb.callback:
                 results = list(dask.compute(*tasks, scheduler=scheduler, optimize_graph=True))
         else:
-            from distributed import as_completed
-
             futures = client.compute(tasks)
             try:
                 with client.as_current():
-                    for _ in as_completed(futures):
+                    for _ in load_distributed().as_completed(futures):
                         bar.update(1)
                 results = client.gather(futures)
             except BaseException:
@@ -581,10 +592,7 @@ def client_for(scheduler):
     """None for a local scheduler name, else a distributed Client (made from an address)."""
     if scheduler in ("threads", "sync", "synchronous", "single-threaded"):
         return None
-    try:
-        from distributed import Client
-    except ImportError:  # pragma: no cover
-        raise WorkbenchError("a cluster scheduler needs the 'distributed' package") from None
+    Client = load_distributed().Client
     if isinstance(scheduler, Client):
         return scheduler
     if isinstance(scheduler, str):
@@ -603,8 +611,7 @@ def delta_e00_dask(pipeline: BatchPipeline, cube):
     The same block function as the render, chunk by chunk
     (``dask.array.map_blocks``); compute it on any scheduler.
     """
-    import dask.array as da
-
+    da = load_dask().array
     if cube.shape[-1] != pipeline.bands:
         raise WorkbenchError(f"the cube must have {pipeline.bands} bands on the last axis "
                              f"(got shape {cube.shape})")

@@ -33,6 +33,7 @@ import numpy as np
 
 from workbench.errors import WorkbenchError
 from workbench.fileio.units import PLANCK_H, SPEED_OF_LIGHT
+from workbench.colorimetry.cie import cmfs_on
 
 __all__ = ["K_M", "SignalBudget", "signal_budget", "scene_irradiance_scale"]
 
@@ -46,8 +47,6 @@ def scene_irradiance_scale(spd, wavelengths, lux: float) -> float:
 
     E_v = 683 lm/W · Σ k S(λ) V(λ) Δλ on a uniform grid, V = ȳ (CIE 1931 2°).
     """
-    from workbench.colorimetry.cie import cmfs_on
-
     wl = np.asarray(wavelengths, dtype=float)
     S = np.asarray(spd, dtype=float)
     step = float(wl[1] - wl[0])

@@ -46,27 +46,43 @@ References
 
 from __future__ import annotations
 
+import copy
 import os
 import threading
 import time
-from concurrent.futures import ThreadPoolExecutor, wait, FIRST_COMPLETED
+from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
 from dataclasses import replace
 
 import numpy as np
 
-from workbench.model.design import Design, ToleranceSpec
-from workbench.errors import WorkbenchError
-from workbench.fileio.atomic import write_text_atomically
+from workbench.analysis.evaluator import DesignEvaluator, noise_report
+from workbench.analysis.progress import progress_bar
 from workbench.analysis.tolerance_draws import (
-    check_trials_seed, one_at_a_time_values, parameter_unit, sample_parameters, toleranced_parameters,
+    check_trials_seed,
+    one_at_a_time_values,
+    parameter_unit,
+    sample_parameters,
+    toleranced_parameters,
 )
 from workbench.analysis.tolerance_field import (
-    DEFAULT_CORNER_OFFSET_DEG, DEFAULT_EDGE_OFFSET_DEG, FieldShift, default_field_positions, field_shift,
+    DEFAULT_CORNER_OFFSET_DEG,
+    DEFAULT_EDGE_OFFSET_DEG,
+    FieldShift,
+    default_field_positions,
+    field_shift,
     splitter_element,
 )
 from workbench.analysis.tolerance_stats import (
-    ToleranceResult, correlation_ratio, distribution, passes_spec, standardized_regression, wilson_interval,
+    ToleranceResult,
+    correlation_ratio,
+    distribution,
+    passes_spec,
+    standardized_regression,
+    wilson_interval,
 )
+from workbench.errors import WorkbenchError
+from workbench.fileio.atomic import write_text_atomically
+from workbench.model.design import Design, ToleranceSpec
 
 __all__ = [
     "CASES",
@@ -102,8 +118,6 @@ DEFAULT_CHUNK = 250
 
 def _evaluate(ev, design: Design, values: dict, cases, fixed_matrices, n: int) -> dict:
     """Per-unit arrays for a batch of ``n`` units (values: dict of (n,) arrays)."""
-    from workbench.analysis.evaluator import noise_report
-
     out: dict = {}
     for case in cases:
         r = ev.batch(values, matrices=fixed_matrices if case == "fixed" else None)
@@ -199,8 +213,6 @@ def run_tolerance(design: Design, *, trials: int = 2000, seed: int = 0, matrix: 
     Wilson, E. B. (1927). *J. Am. Stat. Assoc.* 22, 209-212 (yield interval).
     docs/methods.md §16.
     """
-    from workbench.analysis.evaluator import DesignEvaluator
-
     t0 = time.perf_counter()
     check_trials_seed(trials, seed)
     if matrix not in MATRIX_CHOICES:
@@ -259,8 +271,6 @@ def run_tolerance(design: Design, *, trials: int = 2000, seed: int = 0, matrix: 
             if nw == 1:
                 e = ev
             else:
-                import copy
-
                 # each thread its own chain model (its curve memo is per instance)
                 e = copy.copy(ev)
                 e.model = design.model()
@@ -274,9 +284,7 @@ def run_tolerance(design: Design, *, trials: int = 2000, seed: int = 0, matrix: 
 
     bar = None
     if progress:
-        from tqdm.auto import tqdm
-
-        bar = tqdm(total=N, desc="tolerance trials", unit="trial", leave=False)
+        bar = progress_bar(total=N, desc="tolerance trials", unit="trial", leave=False)
     interrupted = False
     try:
         if nw == 1:

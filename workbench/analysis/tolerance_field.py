@@ -11,6 +11,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from workbench.analysis.evaluator import DesignEvaluator
 from workbench.colorimetry.coordinates import delta_E_CIE2000
 from workbench.optics.kinds import ELEMENT_KINDS
 from workbench.model.design import Design, FieldPosition
@@ -155,8 +156,6 @@ def field_shift(design: Design, *, evaluator=None, matrices=None, positions=None
     angle shift of an interference edge).
     docs/methods.md §§14, 16.
     """
-    from workbench.analysis.evaluator import DesignEvaluator
-
     ev = evaluator or DesignEvaluator(design)
     sp = splitter_element(design)
     explicit = positions is not None or bool(design.tolerance.field)

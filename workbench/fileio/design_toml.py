@@ -55,6 +55,11 @@ from workbench.model.design import (
     ToleranceSpec,
 )
 from workbench.optics.kinds import ELEMENT_KINDS, OptionSpec, ParamSpec
+from workbench.colorimetry.samples import SAMPLE_SETS
+from workbench.colorimetry.cie import canonical_illuminant
+from workbench.colorimetry.cie import observer_key
+import tomli_w
+from workbench.fileio.limits import limits, read_limited
 
 __all__ = ["load_design", "design_from_bytes", "design_from_dict", "design_to_dict", "save_design"]
 
@@ -248,8 +253,6 @@ def _check_grid(c: _Checker, v) -> Grid | None:
     if vals["stop_nm"] <= vals["start_nm"]:
         c.bad("grid.stop_nm", f"a number above start_nm = {vals['start_nm']:g} nm", t.get("stop_nm"))
         return None
-    from workbench.fileio.limits import limits
-
     min_step = limits().min_step_nm
     if vals["step_nm"] < min_step:
         c.bad("grid.step_nm", f"a step of at least {min_step:g} nm (the input limit min_step_nm)", t.get("step_nm"))
@@ -436,8 +439,6 @@ def _check_named_list(c: _Checker, v, key: str):
 
 
 def _check_samples(c: _Checker, v):
-    from workbench.colorimetry.samples import SAMPLE_SETS
-
     out = []
     for i, t in enumerate(_check_named_list(c, v, "samples")):
         key = f"samples[{i}]"
@@ -457,8 +458,6 @@ def _check_samples(c: _Checker, v):
 
 
 def _check_illuminants(c: _Checker, v):
-    from workbench.colorimetry.cie import canonical_illuminant
-
     out = []
     for i, t in enumerate(_check_named_list(c, v, "illuminants")):
         key = f"illuminants[{i}]"
@@ -732,8 +731,6 @@ def design_from_dict(data: dict, *, base_dir=".", source=None) -> Design:
             c.bad("description", "a string", description)
     observer = "2"
     if "observer" in data:
-        from workbench.colorimetry.cie import observer_key
-
         o = data["observer"]
         try:
             if isinstance(o, bool) or not isinstance(o, (int, str)):
@@ -822,8 +819,6 @@ def load_design(path) -> Design:
     TOML v1.0.0 (2021), *Tom's Obvious Minimal Language*, https://toml.io/en/v1.0.0
     (read with Python's ``tomllib``, PEP 680).
     """
-    from workbench.fileio.limits import limits, read_limited
-
     p = Path(os.fspath(path))
     raw = read_limited(p, max_bytes=limits().design_bytes, limit_name="design_mb")
     return design_from_bytes(raw, source=str(path), base_dir=p.parent)
@@ -991,8 +986,6 @@ def save_design(design: Design, path) -> None:
     TOML v1.0.0 (2021), *Tom's Obvious Minimal Language*, https://toml.io/en/v1.0.0
     (read with Python's ``tomllib``, PEP 680).
     """
-    import tomli_w
-
     target = Path(os.fspath(path))
     new_dir = target.parent.resolve()
     old_dir = Path(design.base_dir).resolve()

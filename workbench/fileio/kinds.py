@@ -16,6 +16,7 @@ import re
 
 from workbench.errors import InputFileError
 from workbench.model.spectra import Spectra
+from workbench.fileio.spectra_csv import KIND_UNSAID_NOTE
 
 __all__ = ["kind_said", "require_kind", "read_for"]
 
@@ -29,8 +30,6 @@ def kind_said(s: Spectra) -> tuple[str | None, str | None]:
     the spectra's), a header leaves ``kind … taken from the header '…'``,
     and silence leaves :data:`KIND_UNSAID_NOTE`.
     """
-    from workbench.fileio.spectra_csv import KIND_UNSAID_NOTE
-
     for n in s.notes:
         if n.endswith(KIND_UNSAID_NOTE):
             return None, None

@@ -14,10 +14,10 @@ import csv
 import io
 import math
 from dataclasses import dataclass
-from pathlib import Path
 
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.optics.materials import Material, material_named
+from workbench.fileio.limits import limits, read_limited
 
 __all__ = ["LayerRow", "read_layer_table"]
 
@@ -71,8 +71,6 @@ def read_layer_table(path, *, user: dict[str, Material] | None = None,
     """
     source = str(path)
     if text is None:
-        from workbench.fileio.limits import limits, read_limited
-
         data = read_limited(path, max_bytes=limits().design_bytes, limit_name="design_mb")
         try:
             text = data.decode("utf-8-sig")

@@ -42,6 +42,8 @@ from __future__ import annotations
 
 import ctypes
 import errno
+import fcntl
+import glob
 import json
 import os
 import shutil
@@ -51,6 +53,7 @@ import uuid
 from pathlib import Path
 
 from workbench.errors import InputFileError, WorkbenchError
+from workbench.fileio.atomic import write_text_atomically
 
 __all__ = ["OutputFolder", "MANIFEST", "check_output_file"]
 
@@ -220,8 +223,6 @@ class OutputFolder:
             raise WorkbenchError(f"{self._where()}: cannot create {t.parent}: {err.strerror or err}") from None
 
     def _lock(self) -> None:
-        import fcntl
-
         lock = self.target.parent / f".{self.target.name}.lock"
         try:
             fd = os.open(lock, os.O_RDWR | os.O_CREAT | getattr(os, "O_CLOEXEC", 0), 0o644)
@@ -279,8 +280,6 @@ class OutputFolder:
         manifest = {"command": self.command, "files": files, "complete": True,
                     "written_utc": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())}
         try:
-            from workbench.fileio.atomic import write_text_atomically
-
             write_text_atomically(self.path / MANIFEST, json.dumps(manifest, indent=1) + "\n")
             _fsync_dir(self.path)
             if os.path.lexists(self.target):
@@ -304,6 +303,4 @@ class OutputFolder:
 
 def glob_escape(name: str) -> str:
     """``name`` with glob's special characters escaped."""
-    import glob
-
     return glob.escape(name)

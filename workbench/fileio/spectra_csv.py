@@ -96,17 +96,18 @@ import io
 import math
 import os
 import re
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from decimal import Decimal
 from pathlib import Path
 
 import numpy as np
 
-from workbench.fileio.atomic import write_text_atomically as _write_atomically
-from workbench.fileio.plausible import check_spectral_values
-from workbench.fileio.limits import check_count, how_to_raise, limits, read_limited, shorten
 from workbench.errors import InputFileError, WorkbenchError
-from workbench.model.spectra import KINDS, Spectra, _fmt_range, check_wavelengths
+from workbench.fileio.atomic import write_text_atomically as _write_atomically
+from workbench.fileio.limits import check_count, how_to_raise, limits, read_limited, shorten
+from workbench.fileio.plausible import check_spectral_values
+from workbench.model.spectra import KINDS, Spectra, format_range, check_wavelengths
+from workbench.fileio.units import spectral_unit, to_watts
 
 __all__ = ["read_spectra_csv", "parse_spectra_text", "write_spectra_csv"]
 
@@ -184,8 +185,6 @@ _METADATA_UNITS = re.compile(
 
 def _as_energy(values, wl, units):
     """Photon counts as the watts they carry (photon units are 10¹³-10¹⁹ per s m² nm), else as they are."""
-    from workbench.fileio.units import spectral_unit, to_watts
-
     try:
         unit = spectral_unit(units)
     except WorkbenchError:
@@ -657,7 +656,7 @@ def _fast_wide(data: bytes, layout: str):
     table = bytes.maketrans(delim + (b"," if comma else b""), b"\n" + (b"." if comma else b""))
     col = data[:end].translate(table)
     numbers = np.empty(rows * width)
-    import pandas as pd
+    import pandas as pd  # late: pandas (~0.5 s to import) only for its C number parser on this path
 
     buf = io.BytesIO(col)
     buf.seek(off)
@@ -777,7 +776,7 @@ class _Reader:
         count = len(names)
         summary = (
             f"read {self.source}: {count} {self.kind} spectr{'um' if count == 1 else 'a'}, "
-            f"{_fmt_range(check_wavelengths(wl))}, {self.layout} layout, "
+            f"{format_range(check_wavelengths(wl))}, {self.layout} layout, "
             f"{_DELIMITER_NAMES[self.delimiter]}-delimited"
         )
         return Spectra(

@@ -12,6 +12,7 @@ holding ``"wavelengths_nm"``: a list of numbers, or
 
 from __future__ import annotations
 
+import hashlib
 import json
 import math
 import os
@@ -19,10 +20,15 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
+import psutil
 
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.limits import shorten
+from workbench.fileio.atomic import write_text_atomically
 from workbench.model.spectra import check_wavelengths, grid, is_uniform
+from workbench.fileio.limits import limits, read_limited
+from workbench.fileio.limits import check_count
+from workbench.fileio.limits import check_regular_file
 
 __all__ = [
     "SUB_BLOCK",
@@ -69,8 +75,6 @@ def auto_chunk_bytes(workers: int | None = None, *, available: int | None = None
     4 MiB), so that every worker gets several chunks.
     """
     if available is None:
-        import psutil
-
         available = int(psutil.virtual_memory().available)
     workers = workers or os.cpu_count() or 1
     size = min(MAX_AUTO_CHUNK, available // (8 * workers))
@@ -128,8 +132,6 @@ def read_sidecar(path) -> tuple[np.ndarray, dict]:
     (strictly increasing) or ``{"start": …, "stop": …, "step": …}``. Other
     keys (``"quantity"``, ``"description"`` …) are kept for the report.
     """
-    from workbench.fileio.limits import limits, read_limited
-
     p = Path(path)
     if not os.path.lexists(p):
         raise InputFileError("no such sidecar file; give the wavelengths with "
@@ -167,8 +169,6 @@ def read_sidecar(path) -> tuple[np.ndarray, dict]:
         elif isinstance(v, list):
             if not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in v):
                 raise WorkbenchError("'wavelengths_nm' must be a list of numbers in nm")
-            from workbench.fileio.limits import check_count
-
             check_count(len(v), "bands", "wavelengths", where="'wavelengths_nm'")
             try:
                 arr = np.array(v, dtype=float)
@@ -185,8 +185,6 @@ def read_sidecar(path) -> tuple[np.ndarray, dict]:
 
 def write_sidecar(path, wavelengths, **extra) -> None:
     """Write a sidecar JSON (atomically) with ``wavelengths_nm`` as a list and any extra keys."""
-    from workbench.fileio.atomic import write_text_atomically
-
     wl = check_wavelengths(wavelengths)
     data = {"wavelengths_nm": [float(x) if x != int(x) else int(x) for x in wl], **extra}
     write_text_atomically(path, json.dumps(data, indent=1, ensure_ascii=False) + "\n")
@@ -244,9 +242,7 @@ class SpectralCube:
         """The whole cube in memory."""
         if self.format == "npy":
             return np.load(self.path)
-        import zarr
-
-        return np.asarray(zarr.open_array(self.path, mode="r")[...])
+        return np.asarray(_zarr_array(self.path)[...])
 
     def to_dask(self, chunk_bytes: int):
         """The cube as a dask array chunked along its first axis; returns ``(array, rows per chunk)``.
@@ -254,7 +250,7 @@ class SpectralCube:
         Rows per chunk by :func:`rows_per_chunk`; for Zarr, rounded down to
         whole Zarr chunks along the first axis when a chunk holds more than one.
         """
-        import dask.array as da
+        import dask.array as da  # late: dask (~0.3 s) only for out-of-core work
 
         rows = rows_per_chunk(self.shape, self.dtype.itemsize, chunk_bytes)
         chunks = (rows,) + self.shape[1:]
@@ -264,9 +260,7 @@ class SpectralCube:
             arr = da.from_array(_NpyChunks(self.path, self.shape, self.dtype), chunks=chunks,
                                 name=name, asarray=False, fancy=False, meta=np.empty((0,) * len(self.shape), self.dtype))
         else:
-            import zarr
-
-            zc = int(zarr.open_array(self.path, mode="r").chunks[0])
+            zc = int(_zarr_array(self.path).chunks[0])
             if rows > zc:                       # whole Zarr chunks per dask chunk
                 rows -= rows % zc
             chunks = (rows,) + self.shape[1:]
@@ -274,9 +268,14 @@ class SpectralCube:
         return arr, rows
 
 
-def _token(*parts) -> str:
-    import hashlib
+def _zarr_array(path):
+    """A Zarr array on disk, opened read-only."""
+    import zarr  # late: optional; only Zarr cubes need it
 
+    return zarr.open_array(str(path), mode="r")
+
+
+def _token(*parts) -> str:
     return hashlib.sha1(repr(parts).encode()).hexdigest()[:16]
 
 
@@ -298,8 +297,6 @@ def open_cube(path, *, wavelengths=None, option: str = "--wavelengths") -> Spect
     InputFileError
         Naming the file (or the option) and what was expected.
     """
-    from workbench.fileio.limits import check_regular_file
-
     p = Path(path)
     if not p.exists():
         raise InputFileError("no such file or directory", str(p))
@@ -307,9 +304,7 @@ def open_cube(path, *, wavelengths=None, option: str = "--wavelengths") -> Spect
     if p.is_dir() or p.suffix.lower() == ".zarr":
         fmt = "zarr"
         try:
-            import zarr
-
-            z = zarr.open_array(str(p), mode="r")
+            z = _zarr_array(p)
         except Exception as err:  # zarr raises several kinds for a non-array folder
             raise InputFileError(f"expected a Zarr array (got {type(err).__name__}: {err})", str(p)) from None
         shape, dtype = tuple(z.shape), np.dtype(z.dtype)

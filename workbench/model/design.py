@@ -114,6 +114,21 @@ class DesignError(WorkbenchError):
 # The data
 # --------------------------------------------------------------------------
 
+def _design_files():
+    """The design-file module :mod:`workbench.fileio.design_toml`."""
+    # Late: the file layer sits above the schema and imports it (a cycle at import time otherwise).
+    from workbench.fileio import design_toml
+
+    return design_toml
+
+
+def _package_tables():
+    """The package's CIE and sample tables: :mod:`workbench.colorimetry` (its ``cie`` and ``samples``)."""
+    # Late: the package's tables, not files of the design; colorimetry sits above the schema.
+    import workbench.colorimetry.samples  # loads workbench.colorimetry.cie too
+
+    return workbench.colorimetry
+
 
 @dataclass(frozen=True)
 class Tolerance:
@@ -375,15 +390,11 @@ class Design:
     @classmethod
     def load(cls, path) -> "Design":
         """Read and validate a design file; see :func:`workbench.fileio.design_toml.load_design`."""
-        from workbench.fileio.design_toml import load_design  # the file layer sits above the schema
-
-        return load_design(path)
+        return _design_files().load_design(path)
 
     def save(self, path) -> None:
         """Write the design atomically; see :func:`workbench.fileio.design_toml.save_design`."""
-        from workbench.fileio.design_toml import save_design  # the file layer sits above the schema
-
-        save_design(self, path)
+        _design_files().save_design(self, path)
 
     def resolve(self, name: str) -> Path:
         """A file name of the design as a path (relative names against ``base_dir``)."""
@@ -392,9 +403,7 @@ class Design:
 
     def to_dict(self) -> dict:
         """The design as the plain TOML data :func:`workbench.fileio.design_toml.save_design` writes."""
-        from workbench.fileio.design_toml import design_to_dict  # the file layer sits above the schema
-
-        return design_to_dict(self)
+        return _design_files().design_to_dict(self)
 
     # -- parameters ------------------------------------------------------------
     def parameters(self) -> dict[str, Param]:
@@ -449,11 +458,8 @@ class Design:
         spec = self.illuminants[index]
         where = f"illuminants[{index}] {name!r}"
         if spec.cie is not None:
-            # the package's CIE tables, not a file of the design; colorimetry sits above the schema
-            from workbench.colorimetry.cie import illuminant_on
-
             try:
-                label, tab = illuminant_on(wl, spec.cie)
+                label, tab = _package_tables().cie.illuminant_on(wl, spec.cie)
             except WorkbenchError as e:
                 raise WorkbenchError(f"{where}: {e}") from None
             return label, np.asarray(tab.values), (tab.note,)
@@ -485,10 +491,7 @@ class Design:
                 if spec.spd is None:
                     raise WorkbenchError(_NOT_RESOLVED.format(what=f"sample set {name!r}"))
                 return spec.spd.resample(wl, extrapolation=spec.extrapolation)
-            # the package's sample tables, not a file of the design; colorimetry sits above the schema
-            from workbench.colorimetry.samples import open_sample_set
-
-            return open_sample_set(spec.source, wl, extrapolation=spec.extrapolation)
+            return _package_tables().samples.open_sample_set(spec.source, wl, extrapolation=spec.extrapolation)
         except RangeCoverageError as e:
             what = spec.file or spec.source
             text = str(e).split(" nm but ")[0]

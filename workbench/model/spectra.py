@@ -29,8 +29,10 @@ from typing import Literal
 import numpy as np
 
 from workbench.errors import RangeCoverageError, WorkbenchError
+from workbench.fileio.limits import check_count, check_step
 
 __all__ = [
+    "format_range",
     "KINDS",
     "INTERPOLATION_METHODS",
     "EXTRAPOLATION_POLICIES",
@@ -62,8 +64,6 @@ def grid(start: float, stop: float, step: float) -> np.ndarray:
     >>> grid(400, 420, 10).tolist()
     [400.0, 410.0, 420.0]
     """
-    from workbench.fileio.limits import check_step
-
     if not step > 0:
         raise WorkbenchError(f"grid step must be > 0 nm (got {step})")
     check_step(start, stop, step)
@@ -93,8 +93,6 @@ def check_wavelengths(wavelengths, *, what: str = "wavelengths", min_points: int
         raise WorkbenchError(f"{what} must hold at least {min_points} points (got {wl.size})")
     if not np.all(np.isfinite(wl)):
         raise WorkbenchError(f"{what} must be finite numbers in nm")
-    from workbench.fileio.limits import check_count
-
     check_count(wl.size, "bands", "wavelengths", where=what)
     d = np.diff(wl)
     if np.any(d <= 0):
@@ -106,7 +104,8 @@ def check_wavelengths(wavelengths, *, what: str = "wavelengths", min_points: int
     return wl
 
 
-def _fmt_range(wl: np.ndarray) -> str:
+def format_range(wl: np.ndarray) -> str:
+    """A grid as text: '380-780 nm at 5 nm' (uniform) or its first and last wavelength and count."""
     if is_uniform(wl):
         return f"{wl[0]:g}-{wl[-1]:g} nm at {wl[1] - wl[0]:g} nm"
     return f"{wl[0]:g}-{wl[-1]:g} nm ({wl.size} points, non-uniform)"
@@ -234,6 +233,7 @@ def coarsening_method(wavelengths, target, preference: str = "interpolation") ->
 
 
 def _spline_matrix(x: np.ndarray, xt: np.ndarray) -> np.ndarray:
+    # Late: scipy.interpolate loads scipy.optimize (~1 s); only the cubic-spline method needs it.
     from scipy.interpolate import CubicSpline
 
     # Not-a-knot cubic spline applied to the identity: column j is the
@@ -470,7 +470,7 @@ class Spectra:
 
     def describe_grid(self) -> str:
         """``'380-780 nm at 5 nm'`` or ``'... (n points, non-uniform)'``."""
-        return _fmt_range(self.wavelengths)
+        return format_range(self.wavelengths)
 
     def __repr__(self) -> str:
         return (
@@ -548,7 +548,7 @@ class Spectra:
         M, used = resampling_matrix(self.wavelengths, xt, method=method, extrapolation=extrapolation)
         values = self.values @ M.T
         note = (
-            f"resampled {self.describe_grid()} -> {_fmt_range(xt)} by {_METHOD_SOURCE[used]}"
+            f"resampled {self.describe_grid()} -> {format_range(xt)} by {_METHOD_SOURCE[used]}"
         )
         lo, hi = self.wavelengths[0], self.wavelengths[-1]
         ext = []
@@ -575,7 +575,7 @@ class Spectra:
             self,
             wavelengths=wl,
             values=self.values[..., keep],
-            notes=self.notes + (f"kept {_fmt_range(wl)} of {self.describe_grid()}",),
+            notes=self.notes + (f"kept {format_range(wl)} of {self.describe_grid()}",),
         )
 
     def covers(self, start: float, stop: float) -> bool:

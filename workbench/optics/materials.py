@@ -45,6 +45,7 @@ from pathlib import Path
 import numpy as np
 
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
+from workbench.fileio.limits import limits, read_limited
 
 __all__ = [
     "Material",
@@ -284,8 +285,6 @@ def read_nk_csv(path, *, name: str | None = None, text: str | None = None) -> Ma
     """
     source = str(path)
     if text is None:
-        from workbench.fileio.limits import limits, read_limited
-
         data = read_limited(path, max_bytes=limits().design_bytes, limit_name="design_mb")
         try:
             text = data.decode("utf-8-sig")

@@ -10,8 +10,9 @@ from __future__ import annotations
 import numpy as np
 
 from workbench.optics.thinfilm import StackResponse, stop_band_edges
+from workbench.plots._canvas import new_figure, place_axes, png_bytes
 
-__all__ = ["plot_stack_spectra", "plot_half_points_vs_angle", "plot_stack_angles"]
+__all__ = ["plot_stack_spectra", "plot_half_points_vs_angle", "plot_stack_angles", "png_bytes"]
 
 _WL_LABEL = "wavelength λ (nm)"
 _METHOD = "characteristic-matrix method"
@@ -19,8 +20,6 @@ _POL_STYLE = {"s": ("tab:blue", "-"), "p": ("tab:red", "-"), "mean": ("0.2", "--
 
 
 def _figure(width: float, height: float):
-    from workbench.plots._canvas import new_figure, place_axes
-
     fig = new_figure(width, height)
     place_axes(fig, left=0.75, right=0.15, top=0.35, bottom=0.55)
     return fig
@@ -116,8 +115,6 @@ def plot_stack_angles(response: StackResponse, *, quantity: str = "T", title: st
     -------
     matplotlib.figure.Figure
     """
-    from workbench.plots._canvas import new_figure, place_axes
-
     fig = new_figure(7.0, 4.0, fig)
     place_axes(fig, left=0.75, right=0.15, top=0.35, bottom=0.55)
     ax = fig.add_subplot()

@@ -26,6 +26,7 @@ from workbench.colorimetry.samples import tcs_cie_13_3
 from workbench.errors import WorkbenchError
 from workbench.plots._canvas import new_figure
 from workbench.plots.chromaticity import AXIS_LABELS, draw_spectral_locus
+from workbench.plots.fit import ARROW_MARKER, arrow_scale, draw_shift_arrows  # one rule for every u′v′ shift plot
 
 __all__ = [
     "plot_light_spd",
@@ -39,8 +40,6 @@ _DE_LABEL = "ΔE00 (CIEDE2000)"
 _WL_LABEL = "wavelength λ (nm)"
 _SET_COLOURS = {"cie-13.3": "tab:orange", "cie-224": "tab:blue"}
 _SET_LABEL = {"cie-13.3": "CIE 13.3 TCS01-14", "cie-224": "CIE 224:2017 CES01-99"}
-#: Factors the u′v′ arrows may be lengthened by (the first that makes them visible).
-from workbench.plots.fit import ARROW_MARKER, arrow_scale, draw_shift_arrows  # noqa: E402  (one rule for every u′v′ shift plot)
 
 
 def _figure(width: float, height: float, fig=None):

@@ -41,6 +41,9 @@ from workbench.optics.kinds import element_param_spec
 from workbench.plots._canvas import png_bytes, svg_bytes
 from workbench.plots.fit import (plot_chromaticity_shifts, plot_delta_e_bars, plot_noise_vs_accuracy,
                                  plot_sensitivities_vs_targets)
+from workbench.plots.chain import plot_chain
+from workbench.plots._canvas import new_figure, place_axes
+from workbench.analysis.throughput import throughput
 
 __all__ = [
     "noise_accuracy_points",
@@ -149,8 +152,6 @@ def fit_report_figures(result, evaluator=None, *, points=None) -> dict:
     product for the fitted design). ``points`` default to
     :func:`noise_accuracy_points`.
     """
-    from workbench.plots.chain import plot_chain
-
     if points is None:
         points = noise_accuracy_points(result, evaluator)
     a = result.after
@@ -180,8 +181,6 @@ def plot_front(front, *, chosen: int = 0, fig=None):
     -------
     matplotlib.figure.Figure
     """
-    from workbench.plots._canvas import new_figure, place_axes
-
     fig = new_figure(7.5, 5.0, fig)
     place_axes(fig, left=0.75, right=0.2, top=0.4, bottom=0.55)
     ax = fig.subplots()
@@ -464,8 +463,6 @@ _ALT = {
 
 
 def _throughput_table(design) -> str:
-    from workbench.analysis.throughput import throughput
-
     label, E, _ = design.illuminant_values(design.fit.recording_illuminant)
     t = throughput(design.element_curves(), E, illuminant=label)
     body = "".join(

@@ -19,6 +19,11 @@ import ipywidgets as W
 import numpy as np
 
 from workbench.errors import WorkbenchError
+from workbench.optics.materials import material_named
+from workbench.optics.stacks import parse_layer_formula, physical_thicknesses, resolve_materials
+from workbench.optics.thinfilm import stack_response, stop_band_edges
+from workbench.plots._canvas import png_bytes
+from workbench.plots.coating import plot_stack_angles
 from workbench.widgets.common import ErrorLine, guard, html_table, show_png
 
 __all__ = ["CoatingPanel", "coating_panel", "parse_material_symbols"]
@@ -108,8 +113,6 @@ class CoatingPanel(W.VBox):
 
     def stack(self):
         """``(symbols, materials, thicknesses_nm)`` of the current entries (thickness scale applied)."""
-        from workbench.optics.stacks import parse_layer_formula, physical_thicknesses, resolve_materials
-
         mats = resolve_materials(parse_material_symbols(self.materials.value), what="materials")
         layers = parse_layer_formula(self.layers.value, mats, what="layers")
         ref = float(self.reference.value)
@@ -120,11 +123,6 @@ class CoatingPanel(W.VBox):
 
     def update(self) -> None:
         """Recompute and redraw from the current entries; errors go to the status line."""
-        from workbench.optics.materials import material_named
-        from workbench.optics.thinfilm import stack_response, stop_band_edges
-        from workbench.plots._canvas import png_bytes
-        from workbench.plots.coating import plot_stack_angles
-
         with guard(self.status):
             symbols, mats, d = self.stack()
             angles = _angles(self.angles.value)

@@ -21,9 +21,12 @@ import io
 import math
 
 import ipywidgets as W
+from matplotlib.backends.backend_agg import FigureCanvasAgg
 
-from workbench.model.design import Design
 from workbench.errors import WorkbenchError
+from workbench.fileio.design_toml import design_from_bytes
+from workbench.fileio.spectra_csv import parse_spectra_text
+from workbench.model.design import Design
 from workbench.report.html import html_table  # the one table of the report views, re-exported for the panels
 
 __all__ = [
@@ -139,8 +142,6 @@ def read_uploaded_spectra(upload: W.FileUpload, *, kind: str | None = None):
     Returns ``None`` when nothing is uploaded. Messages name the uploaded
     file as the CLI names a file given by path.
     """
-    from workbench.fileio.spectra_csv import parse_spectra_text
-
     files = uploaded_files(upload)
     if not files:
         return None
@@ -154,15 +155,11 @@ def design_from_upload(name: str, content: bytes, base_dir) -> Design:
     Relative file names in it resolve against ``base_dir``; messages name
     the file ``name``, as the command line names a path.
     """
-    from workbench.fileio.design_toml import design_from_bytes
-
     return design_from_bytes(content, source=name, base_dir=base_dir)
 
 
 def figure_png(fig, *, dpi=None) -> bytes:
     """PNG bytes of a matplotlib figure (Agg renderer; the figure is left as it is)."""
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-
     if not isinstance(fig.canvas, FigureCanvasAgg):
         FigureCanvasAgg(fig)
     buf = io.BytesIO()

@@ -35,10 +35,12 @@ import math
 import re
 import threading
 import time
+from dataclasses import replace
 from pathlib import Path
 
-import numpy as np
 import ipywidgets as W
+import numpy as np
+from IPython.display import Image
 
 from workbench import demo_dir
 from workbench.model.design import CHANNELS, Design
@@ -48,10 +50,23 @@ from workbench.errors import WorkbenchError
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
 from workbench.analysis.fit import (FitResult, check_fit_options, check_front, check_robust, fit_design,
                                     fit_front, fit_robust)
+from workbench.fileio.spectra_csv import write_spectra_csv
+from workbench.model.spectra import Spectra
 from workbench.widgets.common import (
-    ErrorLine, compact, design_from_upload, fmt_number, guard, html_table, output_png, show_png, uploaded_files,
+    ErrorLine,
+    compact,
+    design_from_upload,
+    fmt_number,
+    guard,
+    html_table,
+    output_png,
+    show_png,
+    uploaded_files,
 )
 from workbench.widgets.sensitivity_figure import SensitivityFigure
+import base64
+from workbench.report.fit_report import plot_front, robust_section_html
+from workbench.plots._canvas import svg_bytes
 
 __all__ = ["measures_html", "DesignPanel", "design_panel"]
 
@@ -478,8 +493,6 @@ class DesignPanel(W.VBox):
 
     def snapshot(self):
         """The picture the panel shows now, as an image for a notebook cell or a report."""
-        from IPython.display import Image
-
         return Image(data=self.png(), format="png")
 
     # -- the fit ---------------------------------------------------------------
@@ -537,8 +550,6 @@ class DesignPanel(W.VBox):
 
     def _with_objective(self, d: Design) -> Design:
         """``d`` with the objective chosen in the panel (the design's own by default)."""
-        from dataclasses import replace
-
         choice = self.objective.value
         if choice == "design":
             return d
@@ -572,8 +583,6 @@ class DesignPanel(W.VBox):
     def _run_fit(self, start: Design) -> None:
         try:
             with guard(self.error) as g:
-                from dataclasses import replace
-
                 res = fit_design(start, progress=False, stop=self._stop, evaluator=self.evaluator,
                                  callback=self._progress)
                 if self.mode.value == "front" and not self._stop.is_set():
@@ -621,14 +630,9 @@ class DesignPanel(W.VBox):
     @staticmethod
     def _extra_html(res: FitResult) -> str:
         """The robust table and the front's figure (an inline SVG image) of a front or robust fit."""
-        import base64
-
-        from workbench.report.fit_report import plot_front, robust_section_html
 
         out = robust_section_html(res)
         if res.front:
-            from workbench.plots._canvas import svg_bytes
-
             fig = plot_front(res.front)
             data = base64.b64encode(svg_bytes(fig)).decode("ascii")
             fig.clear()
@@ -645,8 +649,6 @@ class DesignPanel(W.VBox):
     # -- saving and export --------------------------------------------------------
     def current_design(self) -> Design:
         """The loaded design with the current values and the matrix of the current state."""
-        from dataclasses import replace
-
         values = self.values()
         d = self.design.with_values(values)
         return replace(d, matrix=fitted_matrix(self.evaluator.measures(values)))
@@ -667,9 +669,6 @@ class DesignPanel(W.VBox):
 
     def export(self, path=None) -> bool:
         """Write the R, G, B sensitivities, and ``<stem>-matrixed.csv`` with responses and targets."""
-        from workbench.model.spectra import Spectra
-        from workbench.fileio.spectra_csv import write_spectra_csv
-
         with guard(self.error) as g:
             if self.measures is None:
                 raise WorkbenchError("no design loaded")

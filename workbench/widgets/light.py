@@ -20,7 +20,10 @@ from pathlib import Path
 import ipywidgets as W
 
 from workbench import demo_dir
+from workbench.analysis.evaluator import load_camera
 from workbench.analysis.light import CAUTION, LightReport, light_report, parse_light, read_light, report_rows
+from workbench.errors import InputFileError, WorkbenchError
+from workbench.plots import light as lp
 from workbench.report.light import value_text
 from workbench.widgets.common import ErrorLine, compact, figure_png, guard, html_table, show_png, uploaded_files
 
@@ -120,9 +123,6 @@ class LightPanel(W.VBox):
         text = self.camera_path.value.strip()
         if not text:
             return None
-        from workbench.errors import InputFileError
-        from workbench.analysis.evaluator import load_camera
-
         p = Path(text)
         try:
             key = (str(p.resolve()), p.stat().st_mtime_ns)
@@ -141,15 +141,11 @@ class LightPanel(W.VBox):
     # -- the views ----------------------------------------------------------------
     def evaluate(self) -> LightReport | None:
         """Read the inputs, compute the report and fill every view; an error shows in one line."""
-        from workbench.plots import light as lp
-
         self.button.disabled = True
         try:
             with guard(self.status) as g:
                 a = self._light(self.light_upload, self.light_path)
                 if a is None:
-                    from workbench.errors import WorkbenchError
-
                     raise WorkbenchError("light A: give an SPD file (path) or upload one")
                 b = self._light(self.compare_upload, self.compare_path)
                 cam = self._camera()
@@ -184,8 +180,6 @@ class LightPanel(W.VBox):
               "</details>")
 
     def _show_camera(self, r: LightReport) -> None:
-        from workbench.plots import light as lp
-
         if r.camera is None:
             self.camera_table.value = compact("<p>No camera given: name a design file or a sensitivity CSV "
                                               "in the camera box.</p>")
@@ -209,8 +203,6 @@ class LightPanel(W.VBox):
         show_png(self.shift_plot, figure_png(lp.plot_camera_shifts(c), dpi=80), alt="u′v′ shifts")
 
     def _show_comparison(self, r: LightReport) -> None:
-        from workbench.plots import light as lp
-
         if r.comparison is None:
             self.compare_table.value = compact("<p>No second light: give light B to compare two fixtures.</p>")
             self.compare_plot.outputs = ()

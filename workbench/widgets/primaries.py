@@ -10,13 +10,37 @@ from __future__ import annotations
 import html
 from pathlib import Path
 
-import numpy as np
 import ipywidgets as W
+import numpy as np
+from matplotlib.figure import Figure
 
 from workbench import demo_dir
+from workbench.colorimetry.emitters import Band, Emitter, fit_emitter_set
+from workbench.colorimetry.gamut import coverage_of_named_sets, gamut_area
+from workbench.colorimetry.primaries import (
+    PRIMARIES,
+    drive_levels_for_white,
+    primaries_from_emitters,
+    primaries_from_xy,
+    primaries_named,
+)
+from workbench.colorimetry.signals import BAR_COLUMNS, colour_bars, luma_coefficients_of
+from workbench.colorimetry.targets import target_cmfs
 from workbench.errors import WorkbenchError
+from workbench.fileio.spectra_csv import read_spectra_csv
+from workbench.model.spectra import grid
+from workbench.plots.chromaticity import plot_chromaticity_diagram, plot_target_cmfs
+from workbench.plots.spectra import plot_spectra
 from workbench.widgets.common import (
-    ErrorLine, compact, figure_png, fmt_number, guard, html_table, read_uploaded_spectra, show_png, uploaded_files,
+    ErrorLine,
+    compact,
+    figure_png,
+    fmt_number,
+    guard,
+    html_table,
+    read_uploaded_spectra,
+    show_png,
+    uploaded_files,
 )
 
 __all__ = ["PrimariesPanel", "primaries_panel"]
@@ -38,8 +62,6 @@ def _start_emitters(shape: str):
     450 nm) so that a red below the spectral locus, as BT.709's, can be
     reached. Widths 2-150 nm FWHM, amplitudes 0-100 (relative).
     """
-    from workbench.colorimetry.emitters import Band, Emitter
-
     def band(peak, width, amplitude, peaks):
         return Band(shape, peak, width, amplitude, peak_bounds=peaks, width_bounds=(2.0, 150.0),
                     amplitude_bounds=(0.0, 100.0))
@@ -70,8 +92,6 @@ class PrimariesPanel(W.VBox):
     """
 
     def __init__(self, *, name: str = "ITU-R BT.709", **kw):
-        from workbench.colorimetry.primaries import PRIMARIES
-
         super().__init__(**kw)
         self.add_class("wb-primaries-panel")
         self.primaries = None
@@ -199,16 +219,12 @@ class PrimariesPanel(W.VBox):
 
     def use_named(self) -> bool:
         """Use the named set chosen in the dropdown."""
-        from workbench.colorimetry.primaries import primaries_named
-
         with guard(self.error) as g:
             self._set(primaries_named(self.named.value), None, None)
         return not g.failed
 
     def use_xy(self) -> bool:
         """Use the typed chromaticities and white."""
-        from workbench.colorimetry.primaries import primaries_from_xy
-
         with guard(self.error) as g:
             xy = np.array([[self.xy[f"x{c}"].value, self.xy[f"y{c}"].value] for c in "RGB"])
             p = primaries_from_xy(xy, self.white.value.strip() or "D65", name="typed chromaticities",
@@ -218,8 +234,6 @@ class PrimariesPanel(W.VBox):
 
     def use_emitters(self, path=None, *, spectra=None) -> bool:
         """Use three emitter spectra (R, G, B) from a CSV path or given spectra."""
-        from workbench.fileio.spectra_csv import read_spectra_csv
-
         with guard(self.error) as g:
             s = spectra if spectra is not None else read_spectra_csv(Path(str(path).strip()), kind="emission")
             self._emitter_set(s)
@@ -233,8 +247,6 @@ class PrimariesPanel(W.VBox):
             self._emitter_set(s)
 
     def _emitter_set(self, s) -> None:
-        from workbench.colorimetry.primaries import drive_levels_for_white, primaries_from_emitters
-
         white = self.white.value.strip() or "D65"
         p = primaries_from_emitters(s, self.observer.value, white=white, name=str(s.source or "emitters"))
         d = drive_levels_for_white(s, white, float(self.luminance.value), observer=self.observer.value)
@@ -258,12 +270,6 @@ class PrimariesPanel(W.VBox):
             self._bars()
 
     def _draw(self) -> None:
-        from matplotlib.figure import Figure
-
-        from workbench.plots.chromaticity import plot_chromaticity_diagram, plot_target_cmfs
-        from workbench.colorimetry.primaries import PRIMARIES
-        from workbench.model.spectra import grid
-        from workbench.colorimetry.targets import target_cmfs
 
         p = self.primaries
         sets = [p] + [PRIMARIES[n] for n in self.compare.value if n != p.name]
@@ -281,8 +287,6 @@ class PrimariesPanel(W.VBox):
         show_png(self.target_plot, figure_png(fig), alt="target functions")
 
     def _info(self) -> None:
-        from workbench.colorimetry.gamut import coverage_of_named_sets, gamut_area
-
         p = self.primaries
         M = p.matrix_RGB_to_XYZ
         Minv = p.matrix_XYZ_to_RGB
@@ -324,8 +328,6 @@ class PrimariesPanel(W.VBox):
         self.info.value = compact("".join(parts))
 
     def _bars(self) -> None:
-        from workbench.colorimetry.signals import BAR_COLUMNS, colour_bars, luma_coefficients_of
-
         with guard(self.error, clear=False):
             system = self.primaries if self.bar_luma.value.startswith("this set") else self.bar_luma.value
             label, K = luma_coefficients_of(system)
@@ -343,11 +345,6 @@ class PrimariesPanel(W.VBox):
     # -- the emitter-set fit --------------------------------------------------------
     def fit_emitters(self) -> bool:
         """Fit three one-band emitters so their primaries and white hit the current set."""
-        from matplotlib.figure import Figure
-
-        from workbench.colorimetry.emitters import fit_emitter_set
-        from workbench.plots.spectra import plot_spectra
-        from workbench.model.spectra import grid
 
         with guard(self.error) as g:
             if self.primaries is None:

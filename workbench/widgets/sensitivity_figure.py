@@ -6,6 +6,10 @@ import io
 import math
 
 import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+from PIL import Image  # matplotlib's own PNG writer
 
 __all__ = ["SensitivityFigure"]
 
@@ -53,10 +57,6 @@ class SensitivityFigure:
     """
 
     def __init__(self, wavelengths, *, width: float = 7.4, height: float = 5.2, dpi: int = 84):
-        from matplotlib.backends.backend_agg import FigureCanvasAgg
-        from matplotlib.figure import Figure
-        from matplotlib.lines import Line2D
-
         self.wavelengths = np.asarray(wavelengths, dtype=float)
         self.fig = Figure(figsize=(width, height), dpi=dpi)
         self.canvas = FigureCanvasAgg(self.fig)
@@ -185,8 +185,6 @@ class SensitivityFigure:
 
     def png(self) -> bytes:
         """PNG bytes of what the canvas holds now (fast zlib level)."""
-        from PIL import Image  # matplotlib's own PNG writer
-
         w, h = self.canvas.get_width_height()
         img = Image.frombuffer("RGBA", (w, h), self.canvas.buffer_rgba(), "raw", "RGBA", 0, 1)
         buf = io.BytesIO()

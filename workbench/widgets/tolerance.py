@@ -12,17 +12,24 @@ controls; interrupting the kernel keeps the finished trials.
 
 from __future__ import annotations
 
+import html
 import io
 from pathlib import Path
 
+import ipywidgets as widgets
+from IPython.display import HTML, Image, display
+
+from workbench.analysis.evaluator import DesignEvaluator
+from workbench.analysis.tolerance import MATRIX_CHOICES, run_tolerance
 from workbench.errors import WorkbenchError
+from workbench.fileio.design_toml import load_design
+from workbench.model.design import Design
+from workbench.plots.tolerance import plot_histograms, plot_ranking
 
 __all__ = ["TolerancePanel", "tolerance_panel"]
 
 
 def _png(fig):
-    from IPython.display import Image
-
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=90)
     return Image(data=buf.getvalue(), format="png")
@@ -49,12 +56,6 @@ class TolerancePanel:
     """
 
     def __init__(self, design, *, trials: int = 500, seed: int = 0, matrix: str = "both"):
-        import ipywidgets as widgets
-
-        from workbench.model.design import Design
-        from workbench.fileio.design_toml import load_design
-        from workbench.analysis.evaluator import DesignEvaluator
-        from workbench.analysis.tolerance import MATRIX_CHOICES
 
         self.design = design if isinstance(design, Design) else load_design(Path(design))
         self._evaluator = DesignEvaluator(self.design)
@@ -78,16 +79,10 @@ class TolerancePanel:
         ])
 
     def _ipython_display_(self):
-        from IPython.display import display
-
         display(self.widget)
 
     def run(self):
         """Run with the controls' values; show progress, summary and figures in the output area."""
-        from IPython.display import HTML, display
-
-        from workbench.plots.tolerance import plot_histograms, plot_ranking
-        from workbench.analysis.tolerance import run_tolerance
 
         self.status.value = ""
         self.button.disabled = True
@@ -113,8 +108,6 @@ class TolerancePanel:
 
 
 def _one_line(err) -> str:
-    import html
-
     return html.escape(str(err).splitlines()[0] if str(err) else type(err).__name__)
 
 

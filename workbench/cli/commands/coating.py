@@ -24,6 +24,11 @@ import numpy as np
 
 from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
+from workbench.fileio.atomic import write_bytes_atomically
+from workbench.fileio.layers_csv import read_layer_table
+from workbench.fileio.outdir import OutputFolder
+from workbench.optics.materials import built_in_names, material_named, read_nk_csv
+from workbench.optics.thinfilm import half_points, stack_response, stop_band_edges
 
 HELP = "reflectance and transmittance of a thin-film layer stack, s and p, at several angles"
 
@@ -32,8 +37,6 @@ METHOD = ("characteristic-matrix method (H. A. Macleod, Thin-Film Optical Filter
 
 
 def register(sub) -> None:
-    from workbench.optics.materials import built_in_names
-
     p = sub.add_parser(
         "coating",
         help=HELP,
@@ -97,8 +100,6 @@ def parse_angles(text: str) -> list[float]:
 
 
 def _user_materials(specs) -> dict:
-    from workbench.optics.materials import read_nk_csv
-
     user = {}
     for spec in specs:
         name, sep, path = spec.partition("=")
@@ -109,8 +110,6 @@ def _user_materials(specs) -> dict:
 
 
 def _medium(text: str, option: str, user, wl):
-    from workbench.optics.materials import material_named
-
     try:
         m = material_named(text, user=user)
         return m, m.index(wl)
@@ -125,9 +124,6 @@ def angle_label(a: float) -> str:
 
 def compute(args):
     """Read, check and compute everything; returns (rows, media, response, wl, angles)."""
-    from workbench.fileio.layers_csv import read_layer_table
-    from workbench.optics.thinfilm import stack_response
-
     wl = parse_grid(args.grid)
     angles = parse_angles(args.angles)
     user = _user_materials(args.material)
@@ -152,8 +148,6 @@ def compute(args):
 
 def half_points_of(res, wl, ia: int) -> dict:
     """Every 50 % point of T for s, p and their mean at angle ``ia``."""
-    from workbench.optics.thinfilm import half_points
-
     curves = {"s": res.T[0, ia], "p": res.T[1, ia], "mean": res.T_mean[ia]}
     return {pol: [{"wavelength_nm": round(w, 4), "T": direction} for w, direction in half_points(wl, T)]
             for pol, T in curves.items()}
@@ -161,8 +155,6 @@ def half_points_of(res, wl, ia: int) -> dict:
 
 def band_edges_of(res, wl, ia: int) -> dict:
     """The 50 % points bounding the reflection band that holds the peak R, s, p and mean (None off the grid)."""
-    from workbench.optics.thinfilm import stop_band_edges
-
     curves = {"s": res.R[0, ia], "p": res.R[1, ia], "mean": res.R_mean[ia]}
     out = {}
     for pol, R in curves.items():
@@ -197,13 +189,12 @@ def _spectral_rows(res, wl, angles) -> list[dict]:
 
 def render_figures(res, title: str) -> dict[str, bytes]:
     """Every figure as PNG bytes, keyed by file name (drawn before anything is written)."""
-    from workbench.plots._canvas import png_bytes
-    from workbench.plots.coating import plot_half_points_vs_angle, plot_stack_spectra
+    from workbench.plots import coating as coating_plots  # late: matplotlib, only when figures are asked for
 
     names = figure_names([float(a) for a in res.angles_deg])
-    figs = {name: plot_stack_spectra(res, ia, title=title) for ia, name in enumerate(names[:-1])}
-    figs[names[-1]] = plot_half_points_vs_angle(res, title=title)
-    return {name: png_bytes(fig, dpi=110) for name, fig in figs.items()}
+    figs = {name: coating_plots.plot_stack_spectra(res, ia, title=title) for ia, name in enumerate(names[:-1])}
+    figs[names[-1]] = coating_plots.plot_half_points_vs_angle(res, title=title)
+    return {name: coating_plots.png_bytes(fig, dpi=110) for name, fig in figs.items()}
 
 
 def figure_names(angles) -> tuple[str, ...]:
@@ -214,8 +205,6 @@ def figure_names(angles) -> tuple[str, ...]:
 def run(args) -> int:
     folder = None
     if args.figures is not None:
-        from workbench.fileio.outdir import OutputFolder
-
         folder = OutputFolder(args.figures, option="--figures", command="coating",
                               names=figure_names(parse_angles(args.angles)))
         folder._validate()                     # before any computing
@@ -263,8 +252,6 @@ def run(args) -> int:
         text = render_rows(_spectral_rows(res, wl, angles), _csv_columns(angles), "table",
                            header_lines=header, digits=4)
     if figures is not None:
-        from workbench.fileio.atomic import write_bytes_atomically
-
         with folder as out:
             for name, data in figures.items():
                 write_bytes_atomically(out.path / name, data)

@@ -17,6 +17,8 @@ from workbench.cli.commands._output import notice, render_rows, to_json
 from workbench.colorimetry.cie import observer_label
 from workbench.errors import WorkbenchError
 from workbench.fileio.design_toml import load_design
+from workbench.fileio.atomic import write_atomically
+from workbench.fileio.outdir import OutputFolder, check_output_file
 from workbench.fileio.spectra_csv import write_spectra_csv
 from workbench.model.design import CHANNELS
 from workbench.report.methods import METHODS
@@ -114,14 +116,13 @@ FIGURE_FILES = ("chain.png", "sensitivities.png")
 
 def write_figures(design, directory) -> list:
     """chain.png (each path's element curves and product) and sensitivities.png into an open OutputFolder."""
-    from workbench.fileio.atomic import write_atomically
-    from workbench.plots.chain import plot_chain
-    from workbench.plots.spectra import plot_spectra
+    from workbench.plots import chain as chain_plots, spectra as spectra_plots  # late: matplotlib, for --figures
+
 
     model = design.model()
     out = []
-    for name, make in (("chain.png", lambda: plot_chain(model.wavelengths, model.element_curves())[0].figure),
-                       ("sensitivities.png", lambda: plot_spectra(model.channel_sensitivities()).figure)):
+    for name, make in (("chain.png", lambda: chain_plots.plot_chain(model.wavelengths, model.element_curves())[0].figure),
+                       ("sensitivities.png", lambda: spectra_plots.plot_spectra(model.channel_sensitivities()).figure)):
         fig = make()
         write_atomically(directory / name, lambda fh, fig=fig: fig.savefig(fh, format="png", dpi=110))
         out.append(directory / name)
@@ -133,13 +134,9 @@ def run(args) -> int:
         if not 380 <= c <= 1100:
             raise WorkbenchError(f"--ir-cutoff must be a wavelength in [380, 1100] nm (got {c:g})")
     if args.sensitivities:
-        from workbench.fileio.outdir import check_output_file
-
         check_output_file(args.sensitivities, option="--sensitivities")
     figures = None
     if args.figures:
-        from workbench.fileio.outdir import OutputFolder
-
         figures = OutputFolder(args.figures, option="--figures", command="evaluate", names=FIGURE_FILES)
         figures._validate()
     design = load_design(args.design)

@@ -43,10 +43,14 @@ import math
 from dataclasses import replace
 from pathlib import Path
 
-from workbench.model.design import CHANNELS, GLOBAL_STARTS
-from workbench.fileio.design_toml import load_design
-from workbench.errors import WorkbenchError
+from workbench.analysis.fit import (FRONT_METHOD, check_fit_options, check_front, check_robust, fit_design,
+                                    fit_front, fit_robust)
 from workbench.cli.commands._output import atomic_write_text, notice, render_rows, to_json
+from workbench.errors import WorkbenchError
+from workbench.fileio.design_toml import load_design
+from workbench.fileio.outdir import OutputFolder
+from workbench.fileio.spectra_csv import write_spectra_csv
+from workbench.model.design import CHANNELS, GLOBAL_STARTS
 
 NAME = "fit"
 
@@ -223,8 +227,6 @@ def _print_summary(design, result) -> None:
                               f"mean ΔE00 ≤ {rb['spec']['max_mean_delta_E00']:g} under every light and "
                               f"ν ≥ {rb['spec']['min_vora']:g}, matrix fixed from the nominal design):"]), flush=True)
     if result.front:
-        from workbench.analysis.fit import FRONT_METHOD
-
         rows = [{k: p[k] for k in ("t", "accuracy_cost", "mean_delta_E00", "worst_illuminant_mean_delta_E00",
                                    "noise_gain_rms", "vora_value", "status")} for p in result.front]
         print()
@@ -235,11 +237,6 @@ def _print_summary(design, result) -> None:
 
 
 def run(args) -> int:
-    from workbench.analysis.fit import (check_fit_options, check_front, check_robust, fit_design, fit_front,
-                                        fit_robust)
-    from workbench.fileio.outdir import OutputFolder
-    from workbench.fileio.spectra_csv import write_spectra_csv
-
     if args.max_evaluations is not None and args.max_evaluations < 1:
         raise WorkbenchError(f"'--max-evaluations' must be a whole number >= 1 (got {args.max_evaluations})")
     if args.front is not None and args.front < 2:
@@ -293,7 +290,7 @@ def run(args) -> int:
         atomic_write_text(out / "metrics.json", to_json(metrics(result)) + "\n")
         _print_summary(design, result)
         if not args.no_report:  # after the summary, which needs none of it; matplotlib only imported here
-            from workbench.report.fit_report import write_fit_report
+            from workbench.report.fit_report import write_fit_report  # late: matplotlib, for the report alone
 
             write_fit_report(result, out / "report.html")
         out.commit()

@@ -11,6 +11,7 @@ from pathlib import Path
 
 from workbench import is_packaged, notebooks_dir
 from workbench.errors import WorkbenchError
+import signal
 
 HELP = "start JupyterLab on the notebooks (bound to 127.0.0.1, token required)"
 
@@ -88,8 +89,6 @@ STOP_TIMEOUT_S = 20.0
 
 
 def run(args) -> int:
-    import signal
-
     notice = None
     if args.dir is None:
         root, notice = default_notebook_dir()

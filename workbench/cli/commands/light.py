@@ -15,8 +15,12 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-from workbench.errors import InputFileError, WorkbenchError
+from workbench.analysis.evaluator import load_camera
+from workbench.analysis.light import DIFFER_DELTA_E00, MATCH_DELTA_E00, light_report, read_light
 from workbench.cli.commands._output import notice, to_json
+from workbench.errors import InputFileError, WorkbenchError
+from workbench.fileio.atomic import write_atomically
+from workbench.fileio.outdir import OutputFolder
 from workbench.report.light import report_rows, value_text
 
 NAME = "light"
@@ -56,8 +60,6 @@ def register(subparsers) -> None:
 
 
 def _ssi_reference(text: str):
-    from workbench.analysis.light import read_light
-
     t = text.strip()
     if t.lower() == "auto":
         return "auto"
@@ -67,8 +69,6 @@ def _ssi_reference(text: str):
 
 
 def _load_camera(path: str, primaries: str):
-    from workbench.analysis.evaluator import load_camera
-
     p = Path(path)
     if not p.exists():
         raise InputFileError("cannot read: No such file or directory", str(path))
@@ -81,8 +81,6 @@ def _load_camera(path: str, primaries: str):
 
 def _write_png(fig, path: Path) -> None:
     """Save a figure as PNG through a temporary file and a rename (atomic)."""
-    from workbench.fileio.atomic import write_atomically
-
     write_atomically(path, lambda fh: fig.savefig(fh, format="png", dpi=110))
 
 
@@ -96,16 +94,13 @@ def write_figures(report, directory) -> list[Path]:
     ``directory`` is an open :class:`workbench.fileio.outdir.OutputFolder`
     (the caller commits) or a path, then written as one unit here.
     """
-    from workbench.fileio.outdir import OutputFolder
-    from workbench.plots import light as lp
+    from workbench.plots import light as lp  # late: matplotlib, only when figures are asked for
 
     if not isinstance(directory, OutputFolder):
         with OutputFolder(directory, option="--figures", command="light", names=FIGURE_FILES) as out:
             names = [p.name for p in write_figures(report, out)]
             out.commit()
         return [out.target / n for n in names]
-    import matplotlib.pyplot as plt
-
     makers = {"light-spd.png": lambda: lp.plot_light_spd(report.indices)}
     if report.indices.R is not None:
         makers["light-special-indices.png"] = lambda: lp.plot_special_indices(report.indices)
@@ -117,11 +112,7 @@ def write_figures(report, directory) -> list[Path]:
             makers[f"compare-{mode}.png"] = lambda m=mode: lp.plot_comparison(report.comparison, mode=m)
     out = []
     for name, make in makers.items():
-        fig = make()
-        try:
-            _write_png(fig, directory / name)
-        finally:
-            plt.close(fig)
+        _write_png(make(), directory / name)  # a pyplot-free Figure: freed with its last reference
         out.append(directory / name)
     return out
 
@@ -182,16 +173,12 @@ def _table(report) -> str:
 
 
 def run(args) -> int:
-    from workbench.analysis.light import DIFFER_DELTA_E00, MATCH_DELTA_E00, light_report, read_light
-
     match = MATCH_DELTA_E00 if args.match is None else args.match
     differ = DIFFER_DELTA_E00 if args.differ is None else args.differ
     if not (0 <= match < differ):
         raise WorkbenchError(f"--match and --differ must satisfy 0 <= match < differ (got {match:g} and {differ:g})")
     figures = None
     if args.figures:
-        from workbench.fileio.outdir import OutputFolder
-
         figures = OutputFolder(args.figures, option="--figures", command="light", names=FIGURE_FILES)
         figures._validate()
     spd = read_light(args.spd, spectrum=args.spectrum, kind=args.kind)

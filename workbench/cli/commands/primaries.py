@@ -2,14 +2,14 @@
 
 from __future__ import annotations
 
-from dataclasses import replace
 import math
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
 
-from workbench.errors import WorkbenchError
-from workbench.fileio.limits import shorten
+from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
+from workbench.cli.commands.bars import print_colour_bars
 from workbench.colorimetry.gamut import coverage_of_named_sets, gamut_area
 from workbench.colorimetry.primaries import (
     PRIMARIES,
@@ -19,11 +19,12 @@ from workbench.colorimetry.primaries import (
     primaries_named,
     white_chromaticity,
 )
+from workbench.colorimetry.targets import target_cmfs
+from workbench.errors import WorkbenchError
+from workbench.fileio.limits import check_step, shorten
+from workbench.fileio.outdir import check_output_file
 from workbench.fileio.spectra_csv import read_spectra_csv, write_spectra_csv
 from workbench.model.spectra import grid
-from workbench.colorimetry.targets import target_cmfs
-from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
-from workbench.cli.commands.bars import print_colour_bars
 
 HELP = "matrices, luminance coefficients, gamut and colour bars of a set of display primaries"
 
@@ -124,8 +125,6 @@ def _matrix_lines(title: str, M: np.ndarray) -> list[str]:
 
 def run(args) -> int:
     if args.targets is not None:
-        from workbench.fileio.outdir import check_output_file
-
         check_output_file(args.targets, option="--targets")
     p, drive = _primaries(args)
     if args.bars:
@@ -136,8 +135,6 @@ def run(args) -> int:
         raise WorkbenchError("--format csv is for --bars; use table or json")
     if args.targets is not None:
         start, stop, step = _parse_numbers(args.grid, 3, "--grid")
-        from workbench.fileio.limits import check_step
-
         check_step(start, stop, step, what="--grid")
         t = target_cmfs(p, grid(start, stop, step), args.observer)
         write_spectra_csv(t, args.targets)

@@ -20,6 +20,13 @@ from __future__ import annotations
 from pathlib import Path
 
 from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
+from workbench.analysis.recipe import splitter_recipes
+from workbench.errors import WorkbenchError
+from workbench.fileio.design_toml import load_design, save_design
+from workbench.fileio.outdir import OutputFolder
+from workbench.fileio.atomic import write_text_atomically
+from workbench.analysis.evaluator import DesignEvaluator
+from workbench.analysis.recipe import coated_design
 
 HELP = "turn a design's idealised splitter faces into thin-film layer recipes"
 
@@ -80,10 +87,6 @@ def _layer_csv(f) -> str:
 
 
 def run(args) -> int:
-    from workbench.analysis.recipe import splitter_recipes
-    from workbench.errors import WorkbenchError
-    from workbench.fileio.design_toml import load_design, save_design
-
     if not 1 <= args.periods <= 200:
         raise WorkbenchError(f"--periods must be 1-200 (got {args.periods})")
     if not 0 <= args.tolerance_trials <= 100000:
@@ -92,8 +95,6 @@ def run(args) -> int:
         raise WorkbenchError(f"--evaluations must be 0-100000 (got {args.evaluations})")
     folder = None
     if args.out is not None:
-        from workbench.fileio.outdir import OutputFolder
-
         folder = OutputFolder(args.out, option="--out", command="recipe",
                               names=("face-blue-green.csv", "face-green-red.csv", "recipes.json", "design.toml"))
         folder._validate()
@@ -102,9 +103,6 @@ def run(args) -> int:
                              refine=args.evaluations > 0, max_evaluations=max(args.evaluations, 1))
     method = ("characteristic-matrix method; each face averaged over its cone and s, p; refined by bounded "
               "least squares to the idealised face's reflectance (workbench.analysis.recipe)")
-    from workbench.analysis.evaluator import DesignEvaluator
-    from workbench.analysis.recipe import coated_design
-
     coated = coated_design(design, faces)
     m_ideal, m_coated = DesignEvaluator(design).measures(), DesignEvaluator(coated).measures()
     compare = {"vora_value": {"idealised": m_ideal.vora_value, "coated": m_coated.vora_value},
@@ -163,8 +161,6 @@ def run(args) -> int:
                 lines.append(f"#   mean ΔE00 {ill:<13} {v['idealised']:.3f} → {v['coated']:.3f}")
             text = "\n".join(lines) + "\n" + text
     if folder is not None:
-        from workbench.fileio.atomic import write_text_atomically
-
         with folder as out:
             for f in faces:
                 write_text_atomically(out.path / f"face-{f.face}.csv", _layer_csv(f))

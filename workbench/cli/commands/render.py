@@ -25,13 +25,24 @@ from __future__ import annotations
 
 import math
 import os
+import socket
+import struct
 from pathlib import Path
 
 import numpy as np
+import psutil
 
-from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
-from workbench.fileio.limits import check_count, how_to_raise, limits, shorten
+from workbench.analysis.evaluator import load_camera
+from workbench.analysis.render import BatchPipeline, load_dask, load_distributed, render_dask
 from workbench.cli.commands._output import notice, to_json
+from workbench.colorimetry.cie import illuminant_on
+from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
+from workbench.fileio.atomic import write_atomically, write_text_atomically
+from workbench.fileio.design_toml import load_design
+from workbench.fileio.limits import check_count, check_regular_file, how_to_raise, limits, shorten
+from workbench.fileio.outdir import OutputFolder
+from workbench.fileio.plausible import REFLECTANCE_RANGE
+from workbench.fileio.spectral_cube import auto_chunk_bytes, describe_grid, open_cube, sidecar_path
 
 NAME = "render"
 FILES = ("truth.png", "camera.png", "delta_e00.png", "delta_e00.npy", "summary.json")
@@ -80,12 +91,8 @@ def _chunk_mb(text: str | None) -> float | None:
 
 def _illuminant(design_path: Path, camera, name: str):
     """(label, values on the camera grid, matrix key or None, notes) of ``--illuminant``."""
-    from workbench.colorimetry.cie import illuminant_on
-
     names: list[str] = []
     if design_path.suffix.lower() == ".toml":
-        from workbench.fileio.design_toml import load_design
-
         design = load_design(design_path)
         names = [i.name for i in design.illuminants]
         if name in names:
@@ -104,8 +111,6 @@ def _illuminant(design_path: Path, camera, name: str):
 
 
 def _save_npy(path: Path, a: np.ndarray) -> None:
-    from workbench.fileio.atomic import write_atomically
-
     write_atomically(path, lambda fh: np.save(fh, a, allow_pickle=False))
 
 
@@ -147,9 +152,6 @@ def probe_scheduler(scheme: str, host: str, port: int, *, timeout: float = SCHED
     WorkbenchError
         One line: cannot connect, no answer, or not a dask scheduler.
     """
-    import socket
-    import struct
-
     where = f"--scheduler {scheme}://{host}:{port}"
     try:
         sock = socket.create_connection((host, port), timeout=timeout)
@@ -189,11 +191,7 @@ def _scheduler(text: str):
         return "threads", f"dask local threaded scheduler ({n} threads)", n, None
     probe_scheduler(*parsed)
     try:
-        from distributed import Client
-    except ImportError:  # pragma: no cover
-        raise WorkbenchError("--scheduler: a cluster needs the 'distributed' package") from None
-    try:
-        client = Client(text, timeout=SCHEDULER_TIMEOUT_S, set_as_default=False)
+        client = load_distributed().Client(text, timeout=SCHEDULER_TIMEOUT_S, set_as_default=False)
     except (OSError, TimeoutError, ValueError) as err:
         raise WorkbenchError(f"--scheduler {text}: cannot connect to the dask scheduler "
                              f"({shorten(str(err), 80)})") from None
@@ -203,11 +201,6 @@ def _scheduler(text: str):
 
 
 def run(args) -> int:
-    from workbench.analysis.render import BatchPipeline
-    from workbench.fileio.limits import check_regular_file
-    from workbench.fileio.outdir import OutputFolder
-    from workbench.fileio.spectral_cube import open_cube, sidecar_path
-
     chunk_mb = _chunk_mb(args.chunk_mb)
     parse_scheduler_address(args.scheduler)
     folder = OutputFolder(args.out, option="--out", command="render", names=FILES)
@@ -228,7 +221,6 @@ def run(args) -> int:
                                      f"{how_to_raise('design_mb')}", str(sc))
     cube = open_cube(args.cube, wavelengths=args.wavelengths)
 
-    from workbench.analysis.evaluator import load_camera
 
     camera = load_camera(design_path)
     label, E, key, ill_notes = _illuminant(design_path, camera, args.illuminant)
@@ -253,13 +245,8 @@ def run(args) -> int:
 
 def _render(args, out, cube, camera, label, E, key, ill_notes, pipeline, design_path,
             chunk_mb, scheduler, sched_text, threads, client) -> int:
-    from workbench.analysis.render import render_dask
-    from workbench.fileio.spectral_cube import auto_chunk_bytes
-
     try:
         if chunk_mb is None:
-            import psutil
-
             avail = int(psutil.virtual_memory().available)
             chunk_bytes = auto_chunk_bytes(threads, available=avail, total=cube.nbytes)
             rule = (f"from the memory available: {avail / 2**20:.0f} MiB / (8 × {threads} threads) "
@@ -290,7 +277,7 @@ def _render(args, out, cube, camera, label, E, key, ill_notes, pipeline, design_
     stats = result.stats()
     written = []
     if cube.layout == "image":
-        from workbench.plots.images import plot_delta_e_map, save_figure, save_rgb8_png
+        from workbench.plots.images import plot_delta_e_map, save_figure, save_rgb8_png  # late: matplotlib
 
         save_rgb8_png(result.truth_sRGB8, out / "truth.png",
                       description=f"truth under {label}: {IMAGE_ENCODING}")
@@ -340,8 +327,6 @@ def _render(args, out, cube, camera, label, E, key, ill_notes, pipeline, design_
         ],
         "notes": list(ill_notes),
     }
-    from workbench.fileio.atomic import write_text_atomically
-
     write_text_atomically(out / "summary.json", to_json(summary) + "\n")
     written.append("summary.json")
     out.commit()
@@ -359,11 +344,8 @@ def _check_cube_values(darr, cube, scheduler) -> None:
 
     The rule of :mod:`workbench.fileio.plausible`, counted in one pass over the cube (chunk by chunk).
     """
-    import dask
-    import dask.array as da
-
-    from workbench.fileio.plausible import REFLECTANCE_RANGE
-
+    dask = load_dask()
+    da = dask.array
     lo, hi = REFLECTANCE_RANGE
     finite = da.isfinite(darr)
     masked = da.where(finite, darr, 0)
@@ -390,7 +372,5 @@ def _check_cube_values(darr, cube, scheduler) -> None:
 
 
 def _grid_text(wl) -> str:
-    from workbench.fileio.spectral_cube import describe_grid
-
     return describe_grid(np.asarray(wl, dtype=float))
 

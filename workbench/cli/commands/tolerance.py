@@ -26,18 +26,27 @@ from __future__ import annotations
 
 import contextlib
 import math
+from dataclasses import replace
 from pathlib import Path
 
-from workbench.fileio.design_toml import load_design
-from workbench.errors import WorkbenchError
+from workbench.analysis.tolerance import (
+    DEFAULT_CHUNK,
+    MATRIX_CHOICES,
+    run_tolerance,
+    save_trials,
+    toleranced_parameters,
+)
 from workbench.cli.commands._output import notice, render_rows, to_json
+from workbench.errors import WorkbenchError
+from workbench.fileio.atomic import write_atomically
+from workbench.fileio.design_toml import load_design
+from workbench.fileio.limits import check_count
+from workbench.fileio.outdir import OutputFolder, check_output_file
 
 NAME = "tolerance"
 
 
 def register(subparsers) -> None:
-    from workbench.analysis.tolerance import DEFAULT_CHUNK, MATRIX_CHOICES
-
     p = subparsers.add_parser(
         NAME,
         help="Monte Carlo tolerance analysis: ΔE00, ν, yield, ranking of tolerances, shift across the field",
@@ -68,8 +77,6 @@ def register(subparsers) -> None:
 
 
 def _spec(design, args):
-    from dataclasses import replace
-
     t = design.tolerance
     if args.max_mean_de00 is not None:
         if not args.max_mean_de00 > 0:
@@ -179,17 +186,12 @@ def write_plots(result, folder) -> list[Path]:
     figures land in its staging folder; the caller commits) or a path,
     which is then written as one unit here.
     """
-    from workbench.fileio.outdir import OutputFolder
-
     if not isinstance(folder, OutputFolder):
         with OutputFolder(folder, option="--plots", command="tolerance", names=PLOT_FILES) as out:
             names = [p.name for p in write_plots(result, out)]
             out.commit()
         return [out.target / n for n in names]
-    import matplotlib.pyplot as plt
-
-    from workbench.fileio.atomic import write_atomically
-    from workbench.plots.tolerance import plot_field_shift, plot_histograms, plot_ranking
+    from workbench.plots.tolerance import plot_field_shift, plot_histograms, plot_ranking  # late: matplotlib
 
     makers = []
     for case in result.cases:
@@ -199,20 +201,13 @@ def write_plots(result, folder) -> list[Path]:
         makers.append(("field-shift.png", lambda: plot_field_shift(result.field)))
     out = []
     for name, make in makers:
-        fig = make()
-        try:
-            write_atomically(folder / name, lambda fh: fig.savefig(fh, format="png", dpi=110))
-        finally:
-            plt.close(fig)
+        fig = make()  # a pyplot-free Figure: freed with its last reference
+        write_atomically(folder / name, lambda fh: fig.savefig(fh, format="png", dpi=110))
         out.append(folder / name)
     return out
 
 
 def run(args) -> int:
-    from workbench.analysis.tolerance import run_tolerance, save_trials, toleranced_parameters
-    from workbench.fileio.limits import check_count
-    from workbench.fileio.outdir import OutputFolder, check_output_file
-
     if args.trials < 1:
         raise WorkbenchError(f"--trials: expected a whole number >= 1 (got {args.trials})")
     check_count(args.trials, "trials", "trials", where="--trials")

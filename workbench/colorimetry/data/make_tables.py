@@ -37,7 +37,10 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import colour
 import numpy as np
+from colour.colorimetry.datasets.illuminants import SDS_BASIS_FUNCTIONS_CIE_ILLUMINANT_D_SERIES
+from colour.quality.cfi2017 import load_TCS_CIE2017
 
 OUT = Path(__file__).with_name("cie_tables.npz")
 OBSERVER_NAMES = {
@@ -48,10 +51,6 @@ OBSERVER_NAMES = {
 
 def collect() -> dict[str, np.ndarray]:
     """Every table as a plain array, straight from colour-science."""
-    import colour
-    from colour.colorimetry.datasets.illuminants import SDS_BASIS_FUNCTIONS_CIE_ILLUMINANT_D_SERIES
-    from colour.quality.cfi2017 import load_TCS_CIE2017
-
     out: dict[str, np.ndarray] = {"source": np.array(f"colour-science {colour.__version__}")}
     for key, name in OBSERVER_NAMES.items():
         msds = colour.MSDS_CMFS[name]

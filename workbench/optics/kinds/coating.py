@@ -45,6 +45,9 @@ from workbench.errors import WorkbenchError
 from workbench.optics.kinds.registry import (
     CurveInput, ElementKind, KindProblem, LoadInput, OptionSpec, ParamSpec, register_kind,
 )
+from workbench.optics.materials import material_named
+from workbench.optics.stacks import parse_layer_formula, resolve_materials
+from workbench.optics.stacks import cone_response
 
 __all__ = ["KIND", "MaterialTable", "parse_materials", "CoatingData"]
 
@@ -77,8 +80,6 @@ def parse_materials(value) -> MaterialTable:
     ValueError
         What was expected, for the design-file validator.
     """
-    from workbench.optics.materials import material_named
-
     expected = 'a table of material symbols such as {H = "TiO2", L = "SiO2"}'
     if isinstance(value, str):
         pairs = []
@@ -111,8 +112,6 @@ def parse_materials(value) -> MaterialTable:
 
 def _parse_medium(value):
     """``incident`` / ``substrate``: a built-in material name or an index."""
-    from workbench.optics.materials import material_named
-
     if isinstance(value, bool) or not isinstance(value, (str, int, float)):
         raise ValueError("a material name or an index such as 1.52")
     try:
@@ -123,8 +122,6 @@ def _parse_medium(value):
 
 
 def _formula(options):
-    from workbench.optics.stacks import parse_layer_formula, resolve_materials
-
     mats = resolve_materials(dict(options["materials"]), what="materials")
     return parse_layer_formula(options["layers"], mats, what="layers"), mats
 
@@ -156,8 +153,6 @@ class CoatingData:
 
 
 def _load(x: LoadInput) -> CoatingData:
-    from workbench.optics.materials import material_named
-
     try:
         layers, mats = _formula(x.options)
     except WorkbenchError as err:
@@ -213,8 +208,6 @@ def _thicknesses(data: CoatingData, params: dict) -> np.ndarray:
 
 
 def _curve(x: CurveInput):
-    from workbench.optics.stacks import cone_response
-
     data: CoatingData = x.data
     wl = np.asarray(x.wavelengths, dtype=float)
     d = _thicknesses(data, x.params)
