@@ -158,3 +158,30 @@ class TestDesignEntriesRange:
         s = load_design(p).sample_set("ces")
         assert (s.values[:, -1] == s.values[:, s.wavelengths == 780][:, 0]).all()
         assert any("constant" in n for n in s.notes)
+
+
+class TestEdgeSampling:
+    def test_coarse_grid_warns(self, tmp_path):
+        """A 10 nm grid under an 8 nm edge warns once, naming the element, the key and the step to use."""
+        import warnings
+
+        from workbench.optics.chain import CoarseGridWarning, check_edge_sampling
+
+        (tmp_path / "d.toml").write_text(
+            'schema = 1\nname = "sharp"\n[grid]\nstart_nm = 400\nstop_nm = 700\nstep_nm = 10\n'
+            '[[chain]]\nname = "edge"\ntype = "short-pass"\ncenter_nm = 650\n'
+            'width_nm = { value = 8.0, min = 4.0, max = 40.0, free = true }\n', encoding="utf-8")
+        d = load_design(tmp_path / "d.toml")
+        assert check_edge_sampling(d) == (
+            "grid.step_nm = 10 nm leaves fewer than 2 grid points across the narrowest edge, chain[0] "
+            "'edge'.width_nm = 8 nm (10-90 %); use step_nm ≤ 4 nm for edges this sharp")
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            d.model()
+        assert [w.category for w in caught] == [CoarseGridWarning]
+
+    def test_demo_grid_is_fine(self):
+        """The demo's 5 nm grid samples its narrowest edge (18 nm) with 3.6 points: no warning."""
+        from workbench.optics.chain import check_edge_sampling
+
+        assert check_edge_sampling(load_design(DEMO)) is None

@@ -9,6 +9,7 @@ tabulated curves were read at load; nothing here reads a file).
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -18,7 +19,38 @@ from workbench.model.design import CHANNELS, Design, Element
 from workbench.model.spectra import Spectra
 from workbench.optics.kinds import CurveInput, ElementKind, element_kind
 
-__all__ = ["ElementCurve", "ChainModel"]
+__all__ = ["ElementCurve", "ChainModel", "CoarseGridWarning", "check_edge_sampling"]
+
+#: Grid points wanted across the 10-90 % width of the sharpest edge.
+EDGE_POINTS = 2.0
+
+
+class CoarseGridWarning(UserWarning):
+    """The design grid is too coarse for the sharpest parametric edge of the chain."""
+
+
+def check_edge_sampling(design: Design) -> str | None:
+    """The warning text when the grid step leaves fewer than EDGE_POINTS points across the narrowest edge.
+
+    Each element's width parameters (``width_nm``, ``blue_green_width_nm``,
+    ``green_red_width_nm``) count at their value (a fit that narrows an edge
+    below twice the step is not warned about).
+    """
+    step = float(design.grid.step_nm)
+    narrowest = None
+    for i, e in enumerate(design.chain):
+        for k, p in e.params:
+            if not k.endswith("width_nm"):
+                continue
+            w = float(p.value)
+            if narrowest is None or w < narrowest[0]:
+                narrowest = (w, f"chain[{i}] {e.name!r}.{k}")
+    if narrowest is None or step * EDGE_POINTS <= narrowest[0] + 1e-9:
+        return None
+    w, where = narrowest
+    return (f"grid.step_nm = {step:g} nm leaves fewer than {EDGE_POINTS:g} grid points across the narrowest edge, "
+            f"{where} = {w:g} nm (10-90 %); use step_nm ≤ "
+            f"{w / EDGE_POINTS:g} nm for edges this sharp")
 
 
 @dataclass(frozen=True, eq=False)
@@ -64,6 +96,9 @@ class ChainModel:
             if kind.reads == "sensitivity":
                 self.units = e.data.units
             notes.extend(getattr(e.data, "notes", ()))
+        coarse = check_edge_sampling(design)
+        if coarse is not None:
+            warnings.warn(coarse, CoarseGridWarning, stacklevel=2)
         self.notes = tuple(notes)
         self._memo: dict[str, tuple] = {}
 
