@@ -120,3 +120,17 @@ class TestSplitterRecipes:
         for f, side in zip(faces, (1, 0)):
             R, _, _, _ = f.recipe.response(wl)
             assert stop_band_edges(wl, R)[side] == pytest.approx(f.edge_nm, abs=0.1)
+
+
+class TestMeasuresWithCurves:
+    def test_own_curve_gives_the_design_measures(self, demo_design):
+        """An element replaced by its own transmittance leaves every measure as it was."""
+        from workbench.analysis.evaluator import DesignEvaluator
+        from workbench.analysis.recipe import measures_with_curves
+
+        ev = DesignEvaluator(demo_design)
+        own = next(c for c in ev.model.element_curves() if c.name == "green-edge").values[1]
+        m = measures_with_curves(ev, "green-edge", np.zeros_like(own), own)
+        base = ev.measures()
+        assert m.vora_value == pytest.approx(base.vora_value, abs=1e-14)
+        assert m.delta_E00["daylight"]["mean"] == pytest.approx(base.delta_E00["daylight"]["mean"], abs=1e-12)

@@ -51,3 +51,26 @@ class TestParseMaterialSymbols:
     def test_pairs(self):
         """'H=TiO2, L=SiO2' gives the symbol table."""
         assert parse_material_symbols("H=TiO2, L = 1.46") == {"H": "TiO2", "L": "1.46"}
+
+
+class TestCoatingPanelCamera:
+    def test_stack_in_place_of_a_trim(self, demo_design):
+        """With a design, the panel shows the camera's measures with the stack in place of an element."""
+        from workbench.analysis.evaluator import DesignEvaluator
+        from workbench.analysis.recipe import measures_with_curves
+        from workbench.optics.stacks import cone_response
+
+        panel = CoatingPanel(layers="(0.5L H 0.5L)^8", materials="H=TiO2, L=SiO2", reference_nm=420.0,
+                             incident="1.0", substrate="1.52", angles="0", design=demo_design,
+                             element="green-edge")
+        assert panel.status.text == "" and "with this stack" in panel.camera.value
+        ev = DesignEvaluator(demo_design)
+        symbols, mats, d = panel.stack()
+        wl = ev.wavelengths
+        N = np.stack([mats[s].index(wl) for s in symbols])
+        R, T, _, _ = cone_response(N, d, wl, incident=1.0, substrate=1.52)
+        ref = measures_with_curves(ev, "green-edge", R, T)
+        assert panel.measures.vora_value == pytest.approx(ref.vora_value, abs=1e-12)
+        before = panel.measures.vora_value
+        panel.scale.value = 1.05
+        assert panel.measures.vora_value != before

@@ -37,7 +37,8 @@ from workbench.optics.thinfilm import stop_band_edges
 from workbench.fileio.design_toml import design_from_dict, design_to_dict
 
 __all__ = ["Recipe", "starting_stack", "refine_recipe", "RefineReport", "REFLECTS", "refine_in_camera",
-           "CameraRefineReport", "idealised_face_reflectance", "splitter_recipes", "FaceRecipe", "coated_design"]
+           "CameraRefineReport", "idealised_face_reflectance", "splitter_recipes", "FaceRecipe", "coated_design",
+           "measures_with_curves"]
 
 #: Which side of the edge a face reflects.
 REFLECTS = ("short", "long")
@@ -548,3 +549,32 @@ def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coat
     chain[i:i + 1] = elements
     data["name"] = design.name + name_suffix
     return design_from_dict(data, base_dir=design.base_dir, source=f"{design.source or design.name} (coated)")
+
+
+def measures_with_curves(evaluator, element: str, R, T, *, reflects: str = "none", paths=None):
+    """The camera's measures with element ``element`` replaced by a stack's R and T.
+
+    ``R`` and ``T`` (n,) on the evaluator's grid: the ``reflects`` path gets
+    R, the other ``paths`` (default the element's own) get T. Returns the
+    full :class:`workbench.analysis.evaluator.Measures` (matrix fitted as the
+    design's ``[fit]`` says); the caller's evaluator is not changed.
+    """
+    import copy
+
+    curves = evaluator.model.element_curves()
+    names = [c.name for c in curves]
+    if element not in names:
+        raise WorkbenchError(f"'element' must be one of {', '.join(names)} (got {element!r})")
+    el = curves[names.index(element)]
+    paths = tuple(el.paths if paths is None else paths)
+    F = np.ones((3, evaluator.wavelengths.size))
+    for i, ch in enumerate(_CHANNELS):
+        if ch in paths:
+            F[i] = R if ch == reflects else T
+    S = F
+    for c in curves:
+        if c.name != element:
+            S = S * c.values
+    ev = copy.copy(evaluator)
+    ev.sensitivities = lambda values=None: S
+    return ev.measures()

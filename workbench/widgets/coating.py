@@ -72,6 +72,16 @@ class CoatingPanel(W.VBox):
         Materials or indices.
     angles : str
         Angles in the incidence medium, degrees, comma-separated.
+    design : Design or path-like, optional
+        A camera design: the stack then stands in for one of its elements
+        (``element``; reflecting into ``reflects`` or transmitting), at the
+        first angle, over the cone of ``f_number`` when given, and the
+        camera's Vora value and mean ΔE00 are shown next to the design's own.
+    element : str, optional
+        The element the stack replaces (default: the design's
+        ``dichroic-splitter`` or first element).
+    reflects : {'none', 'R', 'G', 'B'}
+    f_number : float or None
 
     Attributes
     ----------
@@ -82,7 +92,8 @@ class CoatingPanel(W.VBox):
 
     def __init__(self, layers: str = "(0.5L H 0.5L)^10", materials: str = "H=TiO2, L=SiO2",
                  reference_nm: float = 440.0, incident: str = "crown-517", substrate: str = "crown-517",
-                 angles: str = "0, 30, 45"):
+                 angles: str = "0, 30, 45", design=None, element: str | None = None, reflects: str = "none",
+                 f_number: float | None = None):
         wide = W.Layout(width="460px")
         short = W.Layout(width="230px")
         self.layers = W.Text(value=layers, description="layers", layout=wide, continuous_update=False)
@@ -99,6 +110,31 @@ class CoatingPanel(W.VBox):
         self.recipe = W.HTML()
         self.response = None
         self._fig = None
+        self.camera = W.HTML()
+        self.measures = None
+        self._evaluator = None
+        self._design_measures = None
+        self.element = W.Dropdown(description="replaces", options=[], layout=W.Layout(width="300px"))
+        self.reflects = W.Dropdown(description="reflects", options=["none", "R", "G", "B"], value=reflects,
+                                   layout=W.Layout(width="200px"))
+        self.f_number = f_number
+        if design is not None:
+            from pathlib import Path
+
+            from workbench.analysis.evaluator import DesignEvaluator
+
+            if isinstance(design, (str, Path)):
+                from workbench.fileio.design_toml import load_design
+
+                design = load_design(design)
+            self._evaluator = DesignEvaluator(design)
+            self._design_measures = self._evaluator.measures()
+            names = [e.name for e in design.chain]
+            default = next((e.name for e in design.chain if e.type == "dichroic-splitter"), names[0])
+            self.element.options = names
+            self.element.value = element or default
+            self.element.observe(lambda _change: self.update(), names="value")
+            self.reflects.observe(lambda _change: self.update(), names="value")
         for w in (self.layers, self.materials, self.reference, self.incident, self.substrate, self.angles,
                   self.scale, self.quantity):
             w.observe(lambda _change: self.update(), names="value")
@@ -107,7 +143,9 @@ class CoatingPanel(W.VBox):
                    "(angles in the incidence medium)"),
             self.layers, self.materials,
             W.HBox([self.reference, self.angles]), W.HBox([self.incident, self.substrate]),
-            self.scale, self.quantity, self.status, self.figure, self.recipe,
+            self.scale, self.quantity,
+            *([W.HBox([self.element, self.reflects])] if design is not None else []),
+            self.status, self.camera, self.figure, self.recipe,
         ])
         self.update()
 
@@ -157,6 +195,32 @@ class CoatingPanel(W.VBox):
             recipe = html_table(layer_rows, ["#", "material", "nm", "QWOT"],
                                 caption=f"{len(symbols)} layers, {d.sum():.1f} nm; QWOT at {ref:g} nm")
             self.recipe.value = edges + recipe
+            if self._evaluator is not None:
+                self._camera_update(symbols, mats, d, inc, sub, angles[0])
+
+    def _camera_update(self, symbols, mats, d, inc, sub, aoi) -> None:
+        """The camera's measures with the stack in place of the chosen element."""
+        from workbench.analysis.recipe import measures_with_curves
+        from workbench.optics.stacks import cone_response
+
+        ev = self._evaluator
+        wl = ev.wavelengths
+        by_sym = {s: m.index(wl) for s, m in mats.items()}
+        N = np.stack([by_sym[s] for s in symbols])
+        R, T, _, _ = cone_response(N, d, wl, aoi_deg=aoi, f_number=self.f_number, incident=inc.index(wl).real,
+                                   substrate=sub.index(wl))
+        m = measures_with_curves(ev, self.element.value, R, T, reflects=self.reflects.value)
+        self.measures = m
+        base = self._design_measures
+        rows = [{"measure": "Vora value ν", "design": f"{base.vora_value:.4f}", "with this stack": f"{m.vora_value:.4f}"}]
+        for ill in base.delta_E00:
+            rows.append({"measure": f"mean ΔE00 {ill}", "design": f"{base.delta_E00[ill]['mean']:.3f}",
+                         "with this stack": f"{m.delta_E00[ill]['mean']:.3f}"})
+        cone = f", f/{self.f_number:g} cone" if self.f_number else ", chief ray"
+        self.camera.value = html_table(
+            rows, ["measure", "design", "with this stack"],
+            caption=f"camera: the stack in place of {self.element.value!r} at {aoi:g}°{cone}, "
+                    f"reflecting into {self.reflects.value} (matrix refitted as the design's [fit] says)")
 
 
 def coating_panel(**kw) -> CoatingPanel:
