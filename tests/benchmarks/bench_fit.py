@@ -92,7 +92,7 @@ def main() -> None:
         t0 = time.perf_counter()
         res = fit_design(d, progress=False)
         times.append(time.perf_counter() - t0)
-    print(f"   {res.status}: {res.message}; {res.evaluations} evaluations; "
+    print(f"   {res.status_name}: {res.message}; {res.evaluations} evaluations; "
           f"median {statistics.median(times):.2f} s of 3 (goal ≤ 5 s)")
     # the headline figures over the 99 CIE 224 samples only, under D65, A and the LED
     ev = DesignEvaluator(load_design(bench_design(5, work)))
