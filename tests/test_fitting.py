@@ -657,3 +657,12 @@ class TestRobust:
         with pytest.raises(WorkbenchError) as e:
             check_robust(demo_design, percentile=p)
         assert str(e.value) == f"'--robust-percentile' must be a number in (0, 100) (got {p!r})"
+
+
+class TestConvergedAtTheStart:
+    def test_a_start_at_the_optimum_is_converged(self, tmp_path):
+        """Started at the exact optimum, the fit finds nothing better and still reports converged."""
+        p = _recovery_design(tmp_path)
+        p.write_text(p.read_text().replace("value = 548.0", "value = 530.0").replace("value = 25.0", "value = 40.0"))
+        r = fit_design(load_design(p), progress=False)
+        assert r.converged and r.status == FitStatus.CONVERGED

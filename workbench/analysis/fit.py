@@ -796,6 +796,9 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
             ok, message = local(track, np.clip(u0, lo, hi), lo, hi, nf, span, base)
             if ok:
                 converged_runs.add(("local", i))
+                # the run started from the best point so far: when it found nothing better, that
+                # point (evaluated earlier under another tag) is the one that passed the test
+                converged_runs.add(track.best_tag)
         status = FitStatus.CONVERGED if track.best_tag in converged_runs else FitStatus.BUDGET_SPENT
     except FitStopped as e:
         status = e.status
