@@ -508,15 +508,19 @@ def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refi
     return out
 
 
-def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coated faces)"):
+def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coated faces)",
+                  layer_error: float = 0.01, material_error: float = 0.005, index_error: float = 0.005):
     """The design with its idealised splitter replaced by two ``coating`` elements made of ``faces``.
 
     Each face keeps its angle, cone and glass; its layers are written with
     physical thicknesses (``L[74.7634] H[25.2293] …``) and every layer gets
     its own ``layer_<i>_nm`` parameter, bounded to ±20 %, so ``workbench fit``
-    can refine the layers (mark them free) and ``workbench tolerance`` can
-    draw them. The splitter's ``loss`` is not carried over (the stacks are
-    lossless dielectrics).
+    can refine the layers (mark them free). Tolerances for ``workbench
+    tolerance``: each layer normal with σ = ``layer_error`` × its thickness
+    (random per layer), each material's ``thickness_scale_<S>`` σ =
+    ``material_error`` (systematic per material) and ``index_scale_<S>`` σ =
+    ``index_error``. The splitter's ``loss`` is not carried over (the stacks
+    are lossless dielectrics).
 
     Returns
     -------
@@ -544,7 +548,13 @@ def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coat
             el["f_number"] = rec.f_number
         for j, d in enumerate(rec.thicknesses_nm):
             el[f"layer_{j + 1}_nm"] = {"value": round(float(d), 4), "min": round(0.8 * float(d), 4),
-                                       "max": round(1.2 * float(d), 4)}
+                                       "max": round(1.2 * float(d), 4),
+                                       "tolerance": {"distribution": "normal",
+                                                     "width": round(layer_error * float(d), 4)}}
+        for sym in rec.materials:
+            el[f"thickness_scale_{sym}"] = {"value": 1.0, "tolerance": {"distribution": "normal",
+                                                                        "width": material_error}}
+            el[f"index_scale_{sym}"] = {"value": 1.0, "tolerance": {"distribution": "normal", "width": index_error}}
         elements.append(el)
     chain[i:i + 1] = elements
     data["name"] = design.name + name_suffix

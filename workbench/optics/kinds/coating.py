@@ -25,7 +25,9 @@ Use
 
 Parameters ``reference_nm`` and ``thickness_scale`` (all thicknesses × the
 scale: a systematic proportional thickness error) can be free, bounded and
-toleranced like any other; so can each layer's own physical thickness,
+toleranced like any other; so are ``thickness_scale_<S>`` and
+``index_scale_<S>`` for each material symbol S (systematic thickness and
+index errors of one material), and each layer's own physical thickness,
 ``layer_<i>_nm`` (i from 1 at the incidence side; the kind's ``more_params``
 names one per layer of the formula), which, when given, replaces what the
 formula says for that layer. The material indices are evaluated on the
@@ -134,10 +136,17 @@ def _more_params(options: dict) -> dict:
         layers, _ = _formula(options)
     except WorkbenchError:
         return {}                         # the check reports the formula's problem at its key
-    return {f"layer_{i + 1}_nm": ParamSpec(0.0, 100000.0, True, False, "nm", optional=True,
-                                           meaning=f"physical thickness of layer {i + 1} ({x.symbol}); "
-                                                   "replaces the formula's")
-            for i, x in enumerate(layers)}
+    out = {f"layer_{i + 1}_nm": ParamSpec(0.0, 100000.0, True, False, "nm", optional=True,
+                                          meaning=f"physical thickness of layer {i + 1} ({x.symbol}); "
+                                                  "replaces the formula's")
+           for i, x in enumerate(layers)}
+    for sym in dict(options["materials"]):
+        out[f"thickness_scale_{sym}"] = ParamSpec(0.0, 3.0, True, False, "", optional=True,
+                                                  meaning=f"the {sym} layers' thicknesses × this (systematic "
+                                                          "error of one material)")
+        out[f"index_scale_{sym}"] = ParamSpec(0.0, 3.0, True, False, "", optional=True,
+                                              meaning=f"{sym}'s n × this (index error of one material)")
+    return out
 
 
 @dataclass(frozen=True, eq=False)
@@ -211,12 +220,26 @@ def _curve(x: CurveInput):
     data: CoatingData = x.data
     wl = np.asarray(x.wavelengths, dtype=float)
     d = _thicknesses(data, x.params)
+    symbols = list(data.materials)
+    which = np.array([symbols.index(layer.symbol) for layer in data.layers])
+    t_scales = [np.asarray(x.params[f"thickness_scale_{s}"], dtype=float) for s in symbols
+                if f"thickness_scale_{s}" in x.params]
+    if t_scales:
+        ts = np.stack(np.broadcast_arrays(*[np.asarray(x.params.get(f"thickness_scale_{s}", 1.0), dtype=float)
+                                            for s in symbols]), axis=-1)        # (..., M)
+        d = d * ts[..., which]
     if np.any(~(d > 0)):
         raise WorkbenchError("coating layer thicknesses must be > 0 nm (got one ≤ 0)")
+    N = data.N
+    if any(f"index_scale_{s}" in x.params for s in symbols):
+        ns = np.stack(np.broadcast_arrays(*[np.asarray(x.params.get(f"index_scale_{s}", 1.0), dtype=float)
+                                            for s in symbols]), axis=-1)        # (..., M)
+        N = data.N.real * ns[..., which, None] + 1j * data.N.imag               # (..., L, n)
     aoi = np.asarray(x.p("aoi_deg"), dtype=float)
     fno = x.params.get("f_number")
-    batch = np.broadcast_shapes(d.shape[:-1], aoi.shape, np.shape(fno) if fno is not None else ())
+    batch = np.broadcast_shapes(d.shape[:-1], N.shape[:-2], aoi.shape, np.shape(fno) if fno is not None else ())
     d = np.broadcast_to(d, batch + d.shape[-1:])
+    N_flat = np.broadcast_to(N, batch + N.shape[-2:]).reshape((-1,) + N.shape[-2:]) if N.ndim > 2 else None
     aoi_b = np.broadcast_to(aoi, batch).reshape(-1)
     fno_b = None if fno is None else np.broadcast_to(np.asarray(fno, dtype=float), batch).reshape(-1)
     d_flat = d.reshape(-1, d.shape[-1])
@@ -227,7 +250,7 @@ def _curve(x: CurveInput):
     keys, inverse = np.unique(geo, axis=0, return_inverse=True)
     for k, (a, f) in enumerate(keys):
         rows = np.nonzero(inverse.reshape(-1) == k)[0]
-        r, t, _, _ = cone_response(data.N, d_flat[rows], wl, aoi_deg=float(a),
+        r, t, _, _ = cone_response(N if N_flat is None else N_flat[rows], d_flat[rows], wl, aoi_deg=float(a),
                                    f_number=None if fno_b is None else float(f),
                                    incident=data.n_incident, substrate=data.n_substrate,
                                    polarisation=x.option("polarisation"), rings=x.option("rings"),
