@@ -135,3 +135,14 @@ class TestKindFitsCommand:
         p.write_text("wavelength_nm,lamp\n400,50\n500,80\n600,100\n", encoding="utf-8")
         s = read_light(p)
         assert s.kind == "emission" and s.values.max() == 100
+
+    def test_tristimulus_refuses_sensitivity(self, tmp_path, capsys):
+        """`tristimulus` on a QE file: one line naming the file and --kind, exit 2."""
+        from workbench.cli.main import main
+
+        p = tmp_path / "qe.csv"
+        p.write_text("wavelength_nm,QE\n400,0.3\n500,0.5\n600,0.6\n700,0.4\n", encoding="utf-8")
+        assert main(["tristimulus", str(p)]) == 2
+        assert capsys.readouterr().err.strip().splitlines()[-1] == (
+            f"error: {p}: holds sensitivity (so says the header 'QE'), but `workbench tristimulus` takes "
+            "reflectance, transmittance or emission; pass --kind reflectance if it is one")

@@ -41,8 +41,9 @@ def register(sub) -> None:
     p.add_argument("--method", default="integration", choices=["integration", "astm-e308"],
                    help="CIE 15 summation on the data's grid, or ASTM E308 weighting tables "
                    "(default: integration)")
-    p.add_argument("--kind", choices=KINDS, default=None,
-                   help="what the file holds, if its header does not say (default: reflectance)")
+    p.add_argument("--kind", choices=[k for k in KINDS if k != "sensitivity"], default=None,
+                   help="what the file holds, when its header does not say or says otherwise "
+                        "(default: as the file says, else reflectance)")
     p.add_argument("--extrapolate", choices=["none", "constant"], default="none",
                    help="extend data that do not cover 380-780 nm with their end values "
                    "(CIE 167); default: refuse")
