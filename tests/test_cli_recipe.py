@@ -30,6 +30,10 @@ class TestRecipeCommand:
         assert sorted(p.name for p in out.iterdir() if not p.name.startswith(".")) == [
             "design.toml", "face-blue-green.csv", "face-green-red.csv", "recipes.json"]
         assert set(d["measures"]["mean_delta_E00"]) == {"daylight", "tungsten", "stage-led"}
+        # the two edge types split s and p in opposite senses (this project's issue 19; Macleod 2010, ch. 6)
+        blue_at = [r for r in blue["edge_vs_angle"] if r["angle_deg"] == 25.0][0]
+        red_at = [r for r in d["faces"][1]["edge_vs_angle"] if r["angle_deg"] == 12.0][0]
+        assert blue_at["s_nm"] > blue_at["p_nm"] and red_at["s_nm"] < red_at["p_nm"]
         ranking = d["layer_tolerance"]["blue-green"]["ranking"]
         assert len(ranking) == 9 and sum(r["share"] for r in ranking) == pytest.approx(1.0)
         from workbench.fileio.design_toml import load_design

@@ -58,6 +58,30 @@ def register(sub) -> None:
     p.set_defaults(run=run)
 
 
+def _edges_vs_angle(f) -> list[dict]:
+    """The face's 50 % point (chief ray) for s, p and their mean at its angle and ±5°."""
+    import numpy as np
+
+    from workbench.optics.thinfilm import stack_response, stop_band_edges
+
+    rec = f.recipe
+    angles = sorted({max(0.0, rec.aoi_deg - 5.0), rec.aoi_deg, rec.aoi_deg + 5.0})
+    lo = max([m.range_nm[0] for m in rec.materials.values() if m.range_nm] + [f.edge_nm * 0.6])
+    hi = min([m.range_nm[1] for m in rec.materials.values() if m.range_nm] + [f.edge_nm * 1.5])
+    wl = np.arange(lo, hi, 0.05)
+    res = stack_response(rec.indices(wl), rec.thicknesses_nm, wl, angles, incident=rec.incident.index(wl).real,
+                         substrate=rec.substrate.index(wl))
+    side = 1 if f.reflects == "short" else 0
+    out = []
+    for ia, a in enumerate(angles):
+        row = {"angle_deg": a}
+        for name, R in (("s", res.R[0, ia]), ("p", res.R[1, ia]), ("mean", res.R_mean[ia])):
+            e = stop_band_edges(wl, R)[side]
+            row[f"{name}_nm"] = None if not np.isfinite(e) else round(float(e), 2)
+        out.append(row)
+    return out
+
+
 def _face_dict(f) -> dict:
     rec = f.recipe
     return {
@@ -71,6 +95,7 @@ def _face_dict(f) -> dict:
         "substrate": rec.substrate.name,
         "layers": [{k: (round(v, 4) if isinstance(v, float) else v) for k, v in row.items()} for row in rec.table()],
         "total_nm": round(float(rec.thicknesses_nm.sum()), 3),
+        "edge_vs_angle": _edges_vs_angle(f),
         "refinement": None if f.report is None else {
             "rms_before": f.report.rms_before, "rms_after": f.report.rms_after,
             "evaluations": f.report.evaluations, "message": f.report.message,
@@ -139,6 +164,12 @@ def run(args) -> int:
             if f.report is not None:
                 header.append(f"# refined: rms R − idealised {f.report.rms_before:.4f} → {f.report.rms_after:.4f} "
                               f"in {f.report.evaluations} evaluations ({f.report.message})")
+            def nm(v):
+                return "-" if v is None else f"{v:.1f}"
+
+            header.append("# 50 % point, chief ray, s / p / mean: " + "; ".join(
+                f"{r['angle_deg']:g}° {nm(r['s_nm'])} / {nm(r['p_nm'])} / {nm(r['mean_nm'])} nm"
+                for r in d["edge_vs_angle"]))
             t = tolerances.get(f.face)
             if t is not None:
                 side = "long_wave" if f.reflects == "short" else "short_wave"
