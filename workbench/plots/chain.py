@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from workbench.plots._canvas import new_figure
+from workbench.plots._canvas import new_figure, place_axes
 
 __all__ = ["plot_chain"]
 
@@ -31,7 +31,9 @@ def plot_chain(wavelengths, curves, *, ax=None):
         cumulative product solid.
     """
     if ax is None:
-        ax = new_figure(7, 8, layout="constrained").subplots(3, 1, sharex=True)
+        fig = new_figure(7, 8)  # fixed margins (inches): the same texts every time, no layout engine
+        place_axes(fig, left=0.7, right=0.15, top=0.3, bottom=0.5, hspace=0.45, rows=3)
+        ax = fig.subplots(3, 1, sharex=True)
     wl = np.asarray(wavelengths, dtype=float)
     total = np.ones((3, wl.size))
     for j, c in enumerate(curves):

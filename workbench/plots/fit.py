@@ -159,6 +159,7 @@ def _bars(ax, x, heights, colours, width: float = 0.8) -> PolyCollection:
     verts = np.stack([np.column_stack([x0, z]), np.column_stack([x0, h]),
                       np.column_stack([x1, h]), np.column_stack([x1, z])], axis=1)
     bars = PolyCollection(verts, facecolors=colours, edgecolors="none", label="_bars")
+    bars.sticky_edges.y.append(0.0)  # as ax.bar: the axis starts at 0, no margin below the bars
     ax.add_collection(bars, autolim=True)
     ax.autoscale_view()
     return bars
