@@ -643,11 +643,24 @@ class TestRobust:
         """A design with no toleranced parameter cannot be fitted robustly: one line."""
         from workbench.analysis.fit import check_robust
 
-        d = load_design(_recovery_design(tmp_path))
+        p = _recovery_design(tmp_path)
+        p.write_text(p.read_text() + "[tolerance]\nmax_mean_delta_E00 = 1.0\n")
+        d = load_design(p)
         with pytest.raises(WorkbenchError) as e:
             check_robust(d)
         assert str(e.value) == (f"'--robust' needs toleranced parameters: {d.source} gives no parameter a "
                                 "tolerance = { distribution, width } table")
+
+    def test_no_tolerance_section_refused(self, tmp_path):
+        """A design without a [tolerance] specification has nothing to judge the yield against: one line."""
+        from workbench.analysis.fit import check_robust
+
+        d = load_design(_recovery_design(tmp_path))
+        with pytest.raises(WorkbenchError) as e:
+            check_robust(d)
+        assert str(e.value) == (f"'--robust' needs the design's [tolerance] specification (max_mean_delta_E00, "
+                                f"min_vora) to judge the yield against: {d.source} has none (or only its default "
+                                "values)")
 
     @pytest.mark.parametrize("p", [0, 100, -5, 150.0])
     def test_percentile_outside_0_100(self, demo_design, p):

@@ -982,6 +982,12 @@ def check_robust(design: Design, *, draws=None, percentile=None) -> None:
         raise WorkbenchError(f"'--robust-draws' must be a whole number >= 2 (got {draws!r})")
     if percentile is not None and not (isinstance(percentile, (int, float)) and 0 < percentile < 100):
         raise WorkbenchError(f"'--robust-percentile' must be a number in (0, 100) (got {percentile!r})")
+    from workbench.model.design import ToleranceSpec
+
+    if design.tolerance == ToleranceSpec():
+        raise WorkbenchError(f"'--robust' needs the design's [tolerance] specification (max_mean_delta_E00, "
+                             f"min_vora) to judge the yield against: {design.source or design.name} has none "
+                             "(or only its default values)")
     if not toleranced_parameters(design):
         raise WorkbenchError(f"'--robust' needs toleranced parameters: {design.source or design.name} gives no "
                              "parameter a tolerance = { distribution, width } table")
