@@ -27,6 +27,7 @@ from workbench.fileio.outdir import OutputFolder
 from workbench.fileio.atomic import write_text_atomically
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.recipe import coated_design
+from workbench.analysis.layer_tolerance import layer_tolerance
 
 HELP = "turn a design's idealised splitter faces into thin-film layer recipes"
 
@@ -135,8 +136,6 @@ def run(args) -> int:
                                         "coated": m_coated.delta_E00[ill]["mean"]} for ill in m_ideal.delta_E00},
                "method": "workbench evaluate's measures of the design as given and with the two coated faces "
                          "(matrix fitted for each as the design's [fit] says)"}
-    from workbench.analysis.layer_tolerance import layer_tolerance
-
     tolerances = {}
     if args.tolerance_trials > 0:
         wl = DesignEvaluator(design).wavelengths
