@@ -569,8 +569,6 @@ def measures_with_curves(evaluator, element: str, R, T, *, reflects: str = "none
     full :class:`workbench.analysis.evaluator.Measures` (matrix fitted as the
     design's ``[fit]`` says); the caller's evaluator is not changed.
     """
-    import copy
-
     curves = evaluator.model.element_curves()
     names = [c.name for c in curves]
     if element not in names:

@@ -25,6 +25,11 @@ from workbench.optics.thinfilm import stack_response, stop_band_edges
 from workbench.plots._canvas import png_bytes
 from workbench.plots.coating import plot_stack_angles
 from workbench.widgets.common import ErrorLine, guard, html_table, show_png
+from pathlib import Path
+from workbench.analysis.evaluator import DesignEvaluator
+from workbench.fileio.design_toml import load_design
+from workbench.analysis.recipe import measures_with_curves
+from workbench.optics.stacks import cone_response
 
 __all__ = ["CoatingPanel", "coating_panel", "parse_material_symbols"]
 
@@ -119,13 +124,8 @@ class CoatingPanel(W.VBox):
                                    layout=W.Layout(width="200px"))
         self.f_number = f_number
         if design is not None:
-            from pathlib import Path
-
-            from workbench.analysis.evaluator import DesignEvaluator
 
             if isinstance(design, (str, Path)):
-                from workbench.fileio.design_toml import load_design
-
                 design = load_design(design)
             self._evaluator = DesignEvaluator(design)
             self._design_measures = self._evaluator.measures()
@@ -200,9 +200,6 @@ class CoatingPanel(W.VBox):
 
     def _camera_update(self, symbols, mats, d, inc, sub, aoi) -> None:
         """The camera's measures with the stack in place of the chosen element."""
-        from workbench.analysis.recipe import measures_with_curves
-        from workbench.optics.stacks import cone_response
-
         ev = self._evaluator
         wl = ev.wavelengths
         by_sym = {s: m.index(wl) for s, m in mats.items()}
