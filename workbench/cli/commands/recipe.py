@@ -28,6 +28,8 @@ from workbench.fileio.atomic import write_text_atomically
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.recipe import coated_design
 from workbench.analysis.layer_tolerance import layer_tolerance
+import numpy as np
+from workbench.optics.thinfilm import stack_response, stop_band_edges
 
 HELP = "turn a design's idealised splitter faces into thin-film layer recipes"
 
@@ -61,9 +63,6 @@ def register(sub) -> None:
 
 def _edges_vs_angle(f) -> list[dict]:
     """The face's 50 % point (chief ray) for s, p and their mean at its angle and ±5°."""
-    import numpy as np
-
-    from workbench.optics.thinfilm import stack_response, stop_band_edges
 
     rec = f.recipe
     angles = sorted({max(0.0, rec.aoi_deg - 5.0), rec.aoi_deg, rec.aoi_deg + 5.0})
