@@ -34,6 +34,7 @@ from scipy.optimize import minimize
 from workbench.analysis.tolerance_draws import toleranced_parameters
 from workbench.analysis.tolerance import run_tolerance
 from workbench.analysis.tolerance_draws import sample_parameters
+from workbench.model.design import ToleranceSpec
 
 __all__ = ["FitResult", "FitStatus", "FIT_STATUS_TABLE", "fit_design", "FitStopped", "bound_costs",
            "bound_cost_text", "parameter_unit", "ACROSS_ILLUMINANTS", "fit_front", "non_dominated", "check_front", "fit_robust",
@@ -982,8 +983,6 @@ def check_robust(design: Design, *, draws=None, percentile=None) -> None:
         raise WorkbenchError(f"'--robust-draws' must be a whole number >= 2 (got {draws!r})")
     if percentile is not None and not (isinstance(percentile, (int, float)) and 0 < percentile < 100):
         raise WorkbenchError(f"'--robust-percentile' must be a number in (0, 100) (got {percentile!r})")
-    from workbench.model.design import ToleranceSpec
-
     if design.tolerance == ToleranceSpec():
         raise WorkbenchError(f"'--robust' needs the design's [tolerance] specification (max_mean_delta_E00, "
                              f"min_vora) to judge the yield against: {design.source or design.name} has none "
