@@ -679,3 +679,32 @@ class TestConvergedAtTheStart:
         p.write_text(p.read_text().replace("value = 548.0", "value = 530.0").replace("value = 25.0", "value = 40.0"))
         r = fit_design(load_design(p), progress=False)
         assert r.converged and r.status == FitStatus.CONVERGED
+
+
+class TestOneBudget:
+    def test_progress_total_is_the_budget_and_never_overrun(self, tmp_path, monkeypatch):
+        """The progress bar's total is max_evaluations; the running count never passes it."""
+        import tqdm.auto
+
+        totals = []
+
+        class Bar:
+            def __init__(self, total=None, **kw):
+                totals.append(total)
+
+            def update(self, k):
+                pass
+
+            def set_postfix(self, *a, **kw):
+                pass
+
+            def close(self):
+                pass
+
+        monkeypatch.setattr(tqdm.auto, "tqdm", Bar)
+        seen = []
+        d = load_design(_recovery_design(tmp_path))
+        r = fit_design(d, progress=True, max_evaluations=25, global_start="multi-start", callback=seen.append)
+        assert totals == [25]
+        assert r.budget == 25 and r.evaluations <= 25 and max(seen) <= 25
+        assert r.status == FitStatus.BUDGET_SPENT and r.exit_status == 3
