@@ -344,10 +344,13 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     N2 = Nt * Nt
     real_path = not np.any(N2.imag)
     if real_path:
-        arg = N2.real[..., None, :] - beta2                            # (L, ..., A, W)
+        # lossless and propagating everywhere: real arithmetic in reused buffers
+        arg_shape = np.broadcast_shapes(N2.shape[:-1] + (1, N2.shape[-1]), beta2.shape)
+        (arg,) = _workspace(arg_shape, 1, slot="normal", dtype=float)   # (L, ..., A, W)
+        np.subtract(N2.real[..., None, :], beta2, out=arg)
         real_path = bool(np.all(arg > 0))
     if real_path:
-        q = np.sqrt(arg)
+        q = np.sqrt(arg, out=arg)
         N2 = N2.real
     else:
         q = normal_component(N2[..., None, :] - beta2)
@@ -359,8 +362,15 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
         eta = np.empty(eta_shape, dtype=complex)
     eta[..., 0, :, :] = q
     np.divide(N2[..., None, :], q, out=eta[..., 1, :, :])
-    k = (_TWO_PI / wl) * qe                                            # rad/nm
-    delta = k * dt.reshape(dt.shape + (1, 1, 1))
+    if real_path:
+        (k,) = _workspace(qe.shape, 1, slot="wavenumber", dtype=float)
+        np.multiply(_TWO_PI / wl, qe, out=k)                           # rad/nm
+        d_e = dt.reshape(dt.shape + (1, 1, 1))
+        (delta,) = _workspace(np.broadcast_shapes(k.shape, d_e.shape), 1, slot="phase-thickness", dtype=float)
+        np.multiply(k, d_e, out=delta)
+    else:
+        k = (_TWO_PI / wl) * qe                                        # rad/nm
+        delta = k * dt.reshape(dt.shape + (1, 1, 1))
     cd, sd = _cos_sin(delta)
     L = dt.shape[0]
     batch = np.broadcast_shapes(eta.shape[1:-3], delta.shape[1:-3])
