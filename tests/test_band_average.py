@@ -72,3 +72,16 @@ class TestDesignGridResampling:
         ref = band_matrix(wl, grid(400, 700, 5)) @ np.round(t, 12)
         np.testing.assert_allclose(s.values[0], ref, rtol=1e-12)
         assert any("triangular band-pass" in n for n in s.notes)
+
+
+class TestLightBand:
+    def test_band_average_keeps_the_energy(self):
+        """A 0.5 nm SPD averaged to 5 nm keeps its integral (Σ E Δλ) to the interpolant's accuracy."""
+        from workbench.cli.commands.light import band_average
+
+        wl = grid(360, 830, 0.5)
+        v = np.exp(-0.5 * ((wl - 450) / 8) ** 2)
+        s = band_average(Spectra(wl, v[None], ("lamp",), kind="emission", units="W/(m2 nm)"), 5.0)
+        assert s.wavelengths[1] - s.wavelengths[0] == 5
+        # a normalised triangle kernel preserves ∫E dλ away from the ends: 8·√(2π) (closed form of the Gaussian)
+        assert float(s.values.sum() * 5) == pytest.approx(8 * np.sqrt(2 * np.pi), rel=1e-4)

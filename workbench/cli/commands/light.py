@@ -36,6 +36,9 @@ def register(subparsers) -> None:
     p.add_argument("--format", choices=("table", "json"), default="table",
                    help="output format on stdout (default table)")
     p.add_argument("--spectrum", metavar="NAME", help="which spectrum, when the file holds several")
+    p.add_argument("--band", type=float, choices=(1.0, 5.0), default=None, metavar="{1,5}",
+                   help="put a finer export on a 1 or 5 nm grid by averaging over each step with a triangular "
+                        "band-pass (CIE 167, ASTM E2729-style) instead of interpolating")
     p.add_argument("--kind", choices=("emission",), default=None,
                    help="read SPD.csv as emission although its header names another kind")
     p.add_argument("--camera", metavar="DESIGN.toml|SENS.csv",
@@ -172,6 +175,17 @@ def _table(report) -> str:
     return "\n".join(out)
 
 
+def band_average(spd, step: float):
+    """The SPD on the whole-``step`` nm grid inside its range, averaged over each step (triangular band-pass)."""
+    import math
+
+    from workbench.model.spectra import grid
+
+    wl = spd.wavelengths
+    start, stop = math.ceil(wl[0] / step - 1e-9) * step, math.floor(wl[-1] / step + 1e-9) * step
+    return spd.resample(grid(start, stop, step), method="band")
+
+
 def run(args) -> int:
     match = MATCH_DELTA_E00 if args.match is None else args.match
     differ = DIFFER_DELTA_E00 if args.differ is None else args.differ
@@ -183,6 +197,9 @@ def run(args) -> int:
         figures._validate()
     spd = read_light(args.spd, spectrum=args.spectrum, kind=args.kind)
     other = read_light(args.compare, spectrum=args.compare_spectrum) if args.compare else None
+    if args.band is not None:
+        spd = band_average(spd, args.band)
+        other = band_average(other, args.band) if other is not None else None
     camera = _load_camera(args.camera, args.primaries) if args.camera else None
     ref = _ssi_reference(args.ssi_reference)
     report = light_report(spd, camera=camera, compare=other, ssi_reference=ref,
