@@ -180,3 +180,31 @@ class TestMaterialErrors:
         batch = design.model().sensitivities({"trim.index_scale_H": np.array([0.99, 1.01])})
         one = design.model().sensitivities({"trim.index_scale_H": 1.01})
         np.testing.assert_allclose(batch[1], one, atol=1e-14)
+
+
+@pytest.mark.slow
+class TestFitWithFreeLayers:
+    def test_fit_moves_free_layers(self, demo_design, tmp_path):
+        """workbench fit takes a design whose coating layers are free and writes them refined."""
+        from workbench.analysis.recipe import coated_design, splitter_recipes
+        from workbench.cli.main import main
+
+        faces = splitter_recipes(demo_design, periods=3, refine=False)
+        coated = coated_design(demo_design, faces)
+        path = tmp_path / "coated.toml"
+        save_design(coated, path)
+        text = path.read_text()
+        # free two layers of the blue/green face (their [chain.layer_i_nm] tables follow that element)
+        start = text.index('name = "prism-blue-green"')
+        for key in ("layer_3_nm", "layer_4_nm"):
+            i = text.index(f"[chain.{key}]", start)
+            j = text.index("\n", i)
+            text = text[:j + 1] + "free = true\n" + text[j + 1:]
+        path.write_text(text)
+        status = main(["fit", str(path), "--out", str(tmp_path / "out"), "--max-evaluations", "40", "--no-report",
+                       "--quiet"])
+        assert status in (0, 3)                        # converged, or the small budget spent
+        fitted = load_design(tmp_path / "out" / "design.toml")
+        before, after = coated.parameters(), fitted.parameters()
+        assert any(after[f"prism-blue-green.{k}"].value != before[f"prism-blue-green.{k}"].value
+                   for k in ("layer_3_nm", "layer_4_nm"))
