@@ -246,17 +246,17 @@ def cone_response(layer_indices, thicknesses_nm, wavelengths_nm, *, aoi_deg=0.0,
     back_surface : bool
     derivatives : bool
 
-    Notes
-    -----
-    The rays' angles are set once for the cone, with the incidence medium's
-    index at the middle of the grid (its dispersion does not move the rays);
-    the stack itself sees every index at every wavelength.
-
     Returns
     -------
     R, T : (..., n_λ) ndarray, fractions 0-1
     dR, dT : (..., L, n_λ) ndarray or None
         Thickness derivatives (1/nm) when asked.
+
+    Notes
+    -----
+    The rays' angles are set once for the cone, with the incidence medium's
+    index at the middle of the grid (its dispersion does not move the rays);
+    the stack itself sees every index at every wavelength.
     """
     if polarisation not in CONE_POLARISATIONS:
         raise WorkbenchError(f"'polarisation' must be one of {', '.join(CONE_POLARISATIONS)} (got {polarisation!r})")
