@@ -20,7 +20,7 @@ Aims (ratios of medians; not timed tests):
 - the report itself (``write_fit_report`` after the fit, in the same
   process, matplotlib's import included) ≤ 0.3 s; shown split into
   matplotlib's import, the noise-against-accuracy points (three matrix
-  rules, before and after) and the four figures drawn and embedded.
+  rules, before and after) and the figures drawn and embedded.
 
 One warm-up round comes first (it also writes Python's bytecode caches,
 which ``PYTHONDONTWRITEBYTECODE`` is removed from the children's
@@ -150,7 +150,7 @@ def main() -> None:
     print(f"  fit with report / NS:    {verdict(med_w[names[4]] / med_w[NS], 2.5)}; "
           f"{verdict(med_c[names[4]] / med_c[NS], 2.5)}")
     print(f"  report itself:           {report_w:.3f} s wall, {report_c:.3f} s CPU (aim ≤ 0.3 s); "
-          f"its four figures {figs_c:.3f} s CPU")
+          f"its figures {figs_c:.3f} s CPU")
 
 
 if __name__ == "__main__":
