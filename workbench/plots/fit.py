@@ -35,6 +35,7 @@ __all__ = [
     "plot_noise_vs_accuracy",
     "ARROW_SCALES",
     "arrow_scale",
+    "bar_collection",
     "draw_shift_arrows",
 ]
 
@@ -151,7 +152,7 @@ def _levels(positions, near: float) -> list[int]:
     return levels
 
 
-def _bars(ax, x, heights, colours, width: float = 0.8) -> PolyCollection:
+def bar_collection(ax, x, heights, colours, width: float = 0.8) -> PolyCollection:
     """Bars of ``heights`` at ``x`` as one collection (one artist, not one patch per bar)."""
     h = np.nan_to_num(np.asarray(heights, dtype=float), nan=0.0)
     x0, x1 = x - width / 2, x + width / 2
@@ -200,7 +201,7 @@ def plot_delta_e_bars(measures, *, label_worst: int = 3, fig=None):
     top = float(np.nanmax(d)) if np.isfinite(d).any() else 1.0
     for j, ax in enumerate(axes):
         ill = measures.illuminants[j]
-        _bars(ax, x, d[j], list(colour_of))
+        bar_collection(ax, x, d[j], list(colour_of))
         st = measures.delta_E00[ill]
         ax.axhline(st["mean"], color="k", lw=1.1, label=f"mean {st['mean']:.2f}")
         ax.axhline(st["p95"], color="k", lw=1.0, ls="--", label=f"95th percentile {st['p95']:.2f}")

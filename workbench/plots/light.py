@@ -26,7 +26,7 @@ from workbench.colorimetry.samples import tcs_cie_13_3
 from workbench.errors import WorkbenchError
 from workbench.plots._canvas import new_figure
 from workbench.plots.chromaticity import AXIS_LABELS, draw_spectral_locus
-from workbench.plots.fit import ARROW_MARKER, _bars, arrow_scale, draw_shift_arrows  # one rule for every u′v′ shift plot
+from workbench.plots.fit import ARROW_MARKER, arrow_scale, bar_collection, draw_shift_arrows  # one rule for every u′v′ shift plot
 
 __all__ = [
     "plot_light_spd",
@@ -206,7 +206,7 @@ def plot_camera_delta_e(fid: CameraFidelity, *, label_worst: int = 4, fig=None):
     ax = fig.subplots()
     x = np.arange(K)
     cols = [_SET_COLOURS.get(s, "0.5") for s in fid.sample_sets]
-    _bars(ax, x, d, cols)  # one collection, not 113 patches
+    bar_collection(ax, x, d, cols)  # one collection, not 113 patches
     ax.axhline(float(d.mean()), color="k", lw=1.1, label=f"mean ΔE00 {d.mean():.2f}")
     ax.axhline(fid.delta_E_a, color="k", lw=1.0, ls="--",
                label=f"ΔE_a = (mean ΔE00⁴)^¼ = {fid.delta_E_a:.2f} (scored)")
@@ -320,7 +320,7 @@ def plot_comparison(cmp: LightComparison, *, mode: str = "side-by-side", label_w
     head = (f"A = {cmp.light_a}, B = {cmp.light_b}{cam}\n{mode}: Δu′v′ of the lights "
             f"{cmp.delta_u_prime_v_prime:.4f}; verdict: {m.verdict}")
     if m.camera is None:
-        _bars(ax, np.arange(e.size), e, [_SET_COLOURS.get(s, "0.5") for s in cmp.sample_sets])
+        bar_collection(ax, np.arange(e.size), e, [_SET_COLOURS.get(s, "0.5") for s in cmp.sample_sets])
         ax.axhline(cmp.match, color="tab:green", ls="--", lw=1, label=f"match ≤ {cmp.match:g}")
         ax.axhline(cmp.differ, color="tab:red", ls="--", lw=1, label=f"differ ≥ {cmp.differ:g}")
         ax.set_xlabel("sample (CIE 13.3 TCS01-14, then CIE 224 CES01-99)")

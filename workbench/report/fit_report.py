@@ -25,7 +25,6 @@ saves the page atomically.
 from __future__ import annotations
 
 import base64
-import html
 from pathlib import Path
 
 import numpy as np
@@ -33,11 +32,11 @@ import numpy as np
 from workbench import __version__
 from workbench.analysis.camera import MATRIX_METHODS
 from workbench.analysis.evaluator import DesignEvaluator, noise_report
-from workbench.analysis.fit import BOUND_COSTS_METHOD
+from workbench.analysis.fit import BOUND_COSTS_METHOD, parameter_unit
 from workbench.analysis.measures import vora_value
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.atomic import write_text_atomically
-from workbench.optics.kinds import element_param_spec
+from workbench.report.html import bound_costs_table, escape as _esc, number_text as _f
 from workbench.plots._canvas import png_bytes, svg_bytes
 from workbench.plots.fit import (plot_chromaticity_shifts, plot_delta_e_bars, plot_noise_vs_accuracy,
                                  plot_sensitivities_vs_targets)
@@ -69,10 +68,6 @@ _MATRIX_LABEL = {
     "white-preserving": "white-preserving",
     "delta-e00": "ΔE00-minimising",
 }
-
-
-def _esc(v) -> str:
-    return html.escape(str(v), quote=True)
 
 
 # --------------------------------------------------------------------------
@@ -229,16 +224,6 @@ figcaption { font-size: 0.88em; color: #444; max-width: 60em; }
 """
 
 
-def _f(v, fmt: str) -> str:
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        return "—"
-    if not np.isfinite(x):
-        return "—"
-    return format(x, fmt)
-
-
 def _triple(v, fmt: str) -> str:
     return " / ".join(_f(x, fmt) for x in np.asarray(v, dtype=float).ravel())
 
@@ -327,13 +312,9 @@ def _measures_table(result) -> str:
 
 
 def _parameter_unit(design, name: str) -> str:
-    element, _, key = name.rpartition(".")
-    for e in design.chain:
-        if e.name == element:
-            spec = element_param_spec(e, key)
-            if spec is not None:
-                return {"deg": "°"}.get(spec.unit, spec.unit) or "1 (dimensionless)"
-    return "as in the design file"
+    """:func:`workbench.analysis.fit.parameter_unit` in the report's words for a plain number or an unknown unit."""
+    unit = parameter_unit(design, name)
+    return {"1": "1 (dimensionless)", "": "as in the design file"}.get(unit, unit)
 
 
 def _parameters_table(result) -> str:
@@ -398,17 +379,10 @@ def _bound_costs_section(result) -> str:
     costs = getattr(result, "bound_costs", ())
     if not costs:
         return ""
-    body = "".join(
-        f'<tr><td>{_esc(c["name"])}</td><td class="num">{_esc(_f(c["value"], ".6g"))} {_esc(c["unit"])} '
-        f'({_esc(c["bound"])})</td><td>per {_esc(c["unit"])} {_esc(c["direction"])}</td>'
-        f'<td class="num">{_esc(_f(c["d_cost"], "+.3g"))}</td><td class="num">{_esc(_f(c["d_vora"], "+.3g"))}</td>'
-        f'<td class="num">{_esc(_f(c["d_mean_delta_E00"], "+.3g"))}</td></tr>' for c in costs)
     return ("<h3>What the bounds cost</h3>"
             f"<p>For each parameter at a bound, the change per unit of relaxing that bound, best first — "
             f"the specification to push first is at the top. Method: {_esc(BOUND_COSTS_METHOD)}.</p>"
-            '<table id="bound-costs"><tr><th>parameter</th><th>at</th><th>relaxing</th>'
-            "<th>Δ objective (Σr²)</th><th>Δ Vora value ν</th><th>Δ weighted mean ΔE00</th></tr>"
-            f"{body}</table>")
+            + bound_costs_table(costs))
 
 
 def _matrix_table(m) -> str:

@@ -10,11 +10,14 @@ panels share.
 from __future__ import annotations
 
 import html
+import math
 
 from workbench.report.light import report_rows, value_text
 
 __all__ = [
     "escape",
+    "number_text",
+    "bound_costs_table",
     "html_table",
     "measures_html",
     "fit_result_html",
@@ -27,6 +30,37 @@ __all__ = [
 def escape(value) -> str:
     """``str(value)`` escaped for HTML text and attribute values."""
     return html.escape(str(value), quote=True)
+
+
+def number_text(value, fmt: str) -> str:
+    """``value`` formatted by ``fmt`` ('.4g', '+.3f', …); '—' for None, text or a non-finite number."""
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        return "—"
+    if not math.isfinite(x):
+        return "—"
+    return format(x, fmt)
+
+
+def bound_costs_table(costs, *, table_id: str = "bound-costs") -> str:
+    """The ranked costs of the bounds a fit ended at (rows of :func:`workbench.analysis.fit.bound_costs`).
+
+    One row per parameter at a bound: where it stopped, which way relaxing
+    goes, and the first-order change per unit of relaxing in the objective,
+    the Vora value and the weighted mean ΔE00. Empty text for no rows.
+    """
+    if not costs:
+        return ""
+    body = "".join(
+        f'<tr><td>{escape(c["name"])}</td><td class="num">{escape(number_text(c["value"], ".6g"))} '
+        f'{escape(c["unit"])} ({escape(c["bound"])})</td><td>per {escape(c["unit"])} {escape(c["direction"])}</td>'
+        f'<td class="num">{escape(number_text(c["d_cost"], "+.3g"))}</td>'
+        f'<td class="num">{escape(number_text(c["d_vora"], "+.3g"))}</td>'
+        f'<td class="num">{escape(number_text(c["d_mean_delta_E00"], "+.3g"))}</td></tr>' for c in costs)
+    return (f'<table id="{escape(table_id)}"><tr><th>parameter</th><th>at</th><th>relaxing</th>'
+            "<th>Δ objective (Σr²)</th><th>Δ Vora value ν</th><th>Δ weighted mean ΔE00</th></tr>"
+            f"{body}</table>")
 
 
 def html_table(rows, columns, *, headers=None, cls: str = "", caption: str = "") -> str:
@@ -93,14 +127,8 @@ def _bound_costs_html(r) -> str:
     costs = getattr(r, "bound_costs", ())
     if not costs:
         return ""
-    rows = "".join(
-        f"<tr><td>{escape(c['name'])}</td><td>{c['value']:.4g} {escape(c['unit'])} ({escape(c['bound'])})</td>"
-        f"<td>per {escape(c['unit'])} {escape(c['direction'])}</td><td>{c['d_cost']:+.3g}</td>"
-        f"<td>{c['d_vora']:+.3g}</td><td>{c['d_mean_delta_E00']:+.3g}</td></tr>" for c in costs)
     return ("<p><b>What the bounds cost</b> (first-order change per unit of relaxing each bound, the other "
-            "parameters re-optimised; best first):</p>"
-            "<table><tr><th>parameter</th><th>at</th><th>relaxing</th><th>Δ objective</th><th>Δ ν</th>"
-            f"<th>Δ weighted mean ΔE00</th></tr>{rows}</table>")
+            "parameters re-optimised; best first):</p>" + bound_costs_table(costs))
 
 
 def tolerance_html(result) -> str:
