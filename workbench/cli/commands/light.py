@@ -22,6 +22,8 @@ from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.atomic import write_atomically
 from workbench.fileio.outdir import OutputFolder
 from workbench.report.light import report_rows, value_text
+import math
+from workbench.model.spectra import grid
 
 NAME = "light"
 
@@ -177,9 +179,6 @@ def _table(report) -> str:
 
 def band_average(spd, step: float):
     """The SPD on the whole-``step`` nm grid inside its range, averaged over each step (triangular band-pass)."""
-    import math
-
-    from workbench.model.spectra import grid
 
     wl = spd.wavelengths
     start, stop = math.ceil(wl[0] / step - 1e-9) * step, math.floor(wl[-1] / step + 1e-9) * step
