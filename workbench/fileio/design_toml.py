@@ -59,7 +59,7 @@ from workbench.colorimetry.samples import SAMPLE_SETS
 from workbench.colorimetry.cie import canonical_illuminant
 from workbench.colorimetry.cie import observer_key
 import tomli_w
-from workbench.fileio.limits import limits, read_limited
+from workbench.fileio.limits import how_to_raise, limits, read_limited
 
 __all__ = ["load_design", "design_from_bytes", "design_from_dict", "design_to_dict", "save_design"]
 
@@ -757,7 +757,7 @@ def design_from_dict(data: dict, *, base_dir=".", source=None) -> Design:
             if kind.at_most_one:
                 groups.setdefault(kind.group or kind.name, set()).add(kind.name)
         for group, names in groups.items():
-            same = [i for i, t in enumerate(items) if t.get("type") in names]
+            same = [i for i, t in enumerate(items) if isinstance(t.get("type"), str) and t.get("type") in names]
             for i in same[1:]:
                 c.bad(f"chain[{i}].type", f"at most one {group} in a chain", items[i].get("type"))
     target = _check_target(c, data["target"]) if "target" in data else Target()
@@ -834,6 +834,9 @@ def design_from_bytes(raw: bytes, *, source: str, base_dir=".") -> Design:
     TOML v1.0.0 (2021), *Tom's Obvious Minimal Language*, https://toml.io/en/v1.0.0
     (read with Python's ``tomllib``, PEP 680).
     """
+    if len(raw) > limits().design_bytes:  # an upload: the same limit as a file
+        raise InputFileError(f"larger than the limit of {limits().design_mb:g} MiB; "
+                             f"{how_to_raise('design_mb')}", source)
     try:
         text = bytes(raw).decode("utf-8")
     except UnicodeDecodeError as err:

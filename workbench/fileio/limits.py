@@ -301,7 +301,8 @@ def check_step(start: float, stop: float, step: float, *, what: str = "grid") ->
         raise WorkbenchError(f"{what} step must be at most the range {start:g}-{stop:g} nm, "
                              f"{span:g} nm (got {step:g} nm)")
     n = span / step
-    if n + 1 > lim.bands:
-        raise WorkbenchError(f"{what} {start:g}-{stop:g} nm at {step:g} nm holds {int(n) + 1} wavelengths, "
+    if not n + 1 <= lim.bands:
+        count = f"{int(n) + 1}" if n < 1e15 else f"{n:.3g}"
+        raise WorkbenchError(f"{what} {start:g}-{stop:g} nm at {step:g} nm holds {count} wavelengths, "
                              f"above the limit of {lim.bands}; {how_to_raise('bands')}")
     return int(round(n))
