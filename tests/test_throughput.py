@@ -47,7 +47,7 @@ class TestEvaluateFigures:
                               "--format", "json", "--figures", str(tmp_path / "figs")], cwd=ROOT,
                              capture_output=True, text=True)
         assert out.returncode == 0, out.stderr
-        assert {p.name for p in (tmp_path / "figs").glob("*.png")} == {"chain.png", "sensitivities.png"}
+        assert {p.name for p in (tmp_path / "figs").glob("*.png")} == {"chain.png", "sensitivities.png", "near-infrared.png"}
         assert (tmp_path / "figs" / "chain.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
         rows = json.loads(out.stdout)["throughput"]["rows"]
         assert [r["element"] for r in rows][-1] == "optics together"
