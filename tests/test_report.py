@@ -313,6 +313,18 @@ class TestFitReportHtml:
         for key, text in result.after.methods.items():
             assert f"<dd>{html.escape(str(text))}</dd>" in page, key
 
+    @pytest.mark.slow  # a second full report
+    def test_worst_light_objective_and_quasi_newton_search_named(self, fitted):
+        """A mean-delta-e00 fit across the worst light says so, and names L-BFGS-B as its local search."""
+        _, ev, result = fitted
+        page = fit_report_html(replace(result, objective="mean-delta-e00", across_illuminants="worst",
+                                       illuminant_weights=(("D65", 2.0),)), ev)
+        assert "minimise the worst light&#x27;s mean ΔE00" in page
+        assert "(Σ_j (ω_j m_j)^32)^(1/32)" in page
+        assert "illuminant weights D65 2" in page
+        assert "local only (bounded quasi-Newton, L-BFGS-B on Σr²" in page
+        assert "trust-region" not in page
+
     @pytest.mark.slow  # a second fit and a full report
     def test_not_converged_shown_and_escaped(self, fitted):
         """status 'budget spent': a warning block with the reason; markup in names and messages escaped."""

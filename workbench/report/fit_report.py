@@ -32,7 +32,7 @@ import numpy as np
 from workbench import __version__
 from workbench.analysis.camera import MATRIX_METHODS
 from workbench.analysis.evaluator import DesignEvaluator, noise_report
-from workbench.analysis.fit import BOUND_COSTS_METHOD, parameter_unit
+from workbench.analysis.fit import BOUND_COSTS_METHOD, WORST_P, parameter_unit
 from workbench.analysis.measures import vora_value
 from workbench.errors import InputFileError, WorkbenchError
 from workbench.fileio.atomic import write_text_atomically
@@ -482,8 +482,18 @@ def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: i
     d = result.design
     fit = result.start_design.fit
     objective = OBJECTIVE_TEXT.get(result.objective, result.objective)
-    search = "local only (bounded least squares, trust-region reflective)" if result.global_start in (
-        None, "none") else f"{result.global_start} global start (seed {result.seed}), then bounded least squares"
+    if result.objective == "mean-delta-e00" and result.across_illuminants == "worst":
+        objective = (f"minimise the worst light's mean ΔE00 after white balance and the matrix, as the smooth "
+                     f"maximum Σr² = G = (Σ_j (ω_j m_j)^{WORST_P})^(1/{WORST_P}) of each light's sample-weighted "
+                     f"mean ΔE00 m_j (illuminant weights ω_j)")
+    if any(w != 1.0 for _, w in result.illuminant_weights):
+        objective += "; illuminant weights " + ", ".join(f"{n} {w:g}" for n, w in result.illuminant_weights)
+    # the fit's local method: L-BFGS-B for the ΔE00 and robust objectives, trust-region least squares otherwise
+    local = ("bounded quasi-Newton, L-BFGS-B on Σr² with forward-difference gradients"
+             if result.objective == "mean-delta-e00" or getattr(result, "robust", None)
+             else "bounded least squares, trust-region reflective")
+    search = f"local only ({local})" if result.global_start in (
+        None, "none") else f"{result.global_start} global start (seed {result.seed}), then {local}"
     noise_w = f"; noise weight {fit.noise_weight:g} on the matrix row norms" if fit.noise_weight > 0 else ""
     grid = d.grid
     meta = (f"Design file {d.source or '(not from a file)'}; grid {grid.start_nm:g}-{grid.stop_nm:g} nm in "
