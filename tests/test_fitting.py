@@ -394,16 +394,16 @@ class TestBatch:
         b = ev.batch({"prism.blue_green_nm": bg})
         for i, v in enumerate(bg):
             m = ev.measures({"prism.blue_green_nm": float(v)})
-            assert b["vora_value"][i] == pytest.approx(m.vora_value, abs=1e-12)
+            assert b.vora_value[i] == pytest.approx(m.vora_value, abs=1e-12)
             for ill in m.illuminants:
-                assert b["delta_E00"][ill]["mean"][i] == pytest.approx(m.delta_E00[ill]["mean"], abs=1e-10)
+                assert b.delta_E00[ill].mean[i] == pytest.approx(m.delta_E00[ill]["mean"], abs=1e-10)
 
     def test_fixed_matrix(self, demo_design):
         """A fixed matrix is used as given for every unit."""
         ev = DesignEvaluator(demo_design)
         m = ev.measures()
         b = ev.batch({"prism.blue_green_nm": np.array([532.0, 540.0])}, matrices=m.matrices)
-        np.testing.assert_allclose(b["matrices"][1], m.matrices)
+        np.testing.assert_allclose(b.matrices[1], m.matrices)
 
 
 class TestLoadCamera:

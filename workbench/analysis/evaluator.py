@@ -63,6 +63,8 @@ __all__ = [
     "design_primaries",
     "DesignEvaluator",
     "Measures",
+    "BatchMeasures",
+    "DeltaE00Stats",
     "fitted_matrix",
     "luther_residual",
     "sensitivity_metamerism_index",
@@ -323,6 +325,48 @@ class Measures:
         return measures_html(self)
 
 
+@dataclass(frozen=True, eq=False)
+class DeltaE00Stats:
+    """ΔE00 (CIEDE2000) over the samples under one illuminant, unweighted: each field (B,), one per unit."""
+
+    mean: np.ndarray
+    median: np.ndarray
+    p95: np.ndarray
+    max: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
+class BatchMeasures:
+    """The headline measures of a batch of B units (:meth:`DesignEvaluator.batch`).
+
+    Axes: B units (the batch), J illuminants in :attr:`illuminants` order,
+    3 channels R, G, B.
+
+    Attributes
+    ----------
+    vora_value : (B,) Vora value ν, 0-1
+    delta_E00 : dict of illuminant name to DeltaE00Stats (each field (B,))
+    weighted_mean_delta_E00 : (B,) ΔE00 over samples × illuminants with the design's sample weights
+    gains : (B, J, 3) white-balance gains (1 / raw RGB of the perfect diffuser)
+    row_norms : (B, J, 3) row norms of the matrix (noise gain for independent channel noise)
+    condition : (B, J) 2-norm condition number of the matrix
+    matrices : (B, J, 3, 3) the matrix applied to white-balanced RGB
+    method : str
+        The matrix rule used ('fixed' when given).
+    illuminants : tuple of str
+    """
+
+    vora_value: np.ndarray
+    delta_E00: dict
+    weighted_mean_delta_E00: np.ndarray
+    gains: np.ndarray
+    row_norms: np.ndarray
+    condition: np.ndarray
+    matrices: np.ndarray
+    method: str
+    illuminants: tuple[str, ...]
+
+
 class DesignEvaluator:
     """A design read once, ready to evaluate any parameter values (one set or a batch).
 
@@ -579,16 +623,18 @@ class DesignEvaluator:
             infrared=infrared, signal=signal,
         )
 
-    def batch(self, values: dict, *, matrices=None, method=None, scope=None) -> dict:
+    def batch(self, values: dict, *, matrices=None, method=None, scope=None) -> "BatchMeasures":
         """Headline measures for a batch of parameter values (dict of (B,) arrays), as arrays.
 
-        Returns ``vora_value`` (B,), ``delta_E00`` {illuminant: {mean, median,
-        p95, max: (B,)}}, ``gains`` (B, J, 3), ``row_norms`` (B, J, 3),
-        ``condition`` (B, J), ``matrices`` (B, J, 3, 3). ``matrices`` given
-        (3, 3) / (J, 3, 3) fixes the matrix for every unit; otherwise each
-        unit gets its own (the least-squares or white-preserving rule of the
-        design; a ΔE00 matrix is not fitted per unit — least squares is used
-        and said in ``method``).
+        ``matrices`` given (3, 3) / (J, 3, 3) fixes the matrix for every
+        unit; otherwise each unit gets its own (the least-squares or
+        white-preserving rule of the design; a ΔE00 matrix is not fitted per
+        unit — least squares is used and said in ``method``).
+
+        Returns
+        -------
+        BatchMeasures
+            Arrays over the units (B) and illuminants (J).
         """
         fit = self.design.fit
         method = method or fit.matrix
@@ -601,17 +647,17 @@ class DesignEvaluator:
         res = self.bench.evaluate(S, method, scope, matrices)
         St = np.swapaxes(S, -1, -2)
         nu = vora_value(St, self.cmfs, self.rec, self.view)
-        return {
-            "vora_value": np.atleast_1d(nu),
-            "delta_E00": res.stats,
-            "weighted_mean_delta_E00": res.weighted_mean(self.bench.weights),
-            "gains": res.gains,
-            "row_norms": np.linalg.norm(res.matrices, axis=-1),
-            "condition": np.linalg.cond(res.matrices),
-            "matrices": res.matrices,
-            "method": res.method if matrices is None else "fixed",
-            "illuminants": res.illuminants,
-        }
+        return BatchMeasures(
+            vora_value=np.atleast_1d(nu),
+            delta_E00={ill: DeltaE00Stats(**d) for ill, d in res.stats.items()},
+            weighted_mean_delta_E00=res.weighted_mean(self.bench.weights),
+            gains=res.gains,
+            row_norms=np.linalg.norm(res.matrices, axis=-1),
+            condition=np.linalg.cond(res.matrices),
+            matrices=res.matrices,
+            method=res.method if matrices is None else "fixed",
+            illuminants=res.illuminants,
+        )
 
     # -- residuals for the fit ------------------------------------------------------
     def _n_matrix_params(self) -> int:

@@ -121,12 +121,11 @@ def _evaluate(ev, design: Design, values: dict, cases, fixed_matrices, n: int) -
     out: dict = {}
     for case in cases:
         r = ev.batch(values, matrices=fixed_matrices if case == "fixed" else None)
-        st = r["delta_E00"]
-        ills = r["illuminants"]
-        mean = np.stack([np.broadcast_to(st[i]["mean"], (n,)) for i in ills], axis=-1)   # (n, J)
-        mx = np.stack([np.broadcast_to(st[i]["max"], (n,)) for i in ills], axis=-1)
-        gains = np.broadcast_to(r["gains"], (n,) + r["gains"].shape[-2:])
-        M = np.broadcast_to(r["matrices"], (n,) + r["matrices"].shape[-3:])
+        st = r.delta_E00
+        mean = np.stack([np.broadcast_to(st[i].mean, (n,)) for i in r.illuminants], axis=-1)   # (n, J)
+        mx = np.stack([np.broadcast_to(st[i].max, (n,)) for i in r.illuminants], axis=-1)
+        gains = np.broadcast_to(r.gains, (n,) + r.gains.shape[-2:])
+        M = np.broadcast_to(r.matrices, (n,) + r.matrices.shape[-3:])
         noise = noise_report(M, 1.0 / gains, design.noise)
         out[case] = {
             "delta_E00_mean": mean,
@@ -134,9 +133,9 @@ def _evaluate(ev, design: Design, values: dict, cases, fixed_matrices, n: int) -
             "gains": np.asarray(gains),
             "noise_gain": np.linalg.norm(M, axis=-1),                                     # (n, J, 3)
             "grey_snr_db": np.asarray(noise["snr_db"]),                                    # (n, J, 3)
-            "matrix_method": r["method"],
+            "matrix_method": r.method,
         }
-        out["vora_value"] = np.broadcast_to(r["vora_value"], (n,)).astype(float)
+        out["vora_value"] = np.broadcast_to(r.vora_value, (n,)).astype(float)
     return out
 
 
