@@ -341,6 +341,10 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     # Layer axis first internally so that each layer's slice is contiguous.
     Nt = np.moveaxis(N, -2, 0)                                         # (L, ..., W)
     dt = np.moveaxis(d, -1, 0)                                         # (L, ...)
+    if not derivatives:
+        fast = _coherent_lossless(Nt, dt, wl, beta2, eta0, eta_s)
+        if fast is not None:
+            return fast
     N2 = Nt * Nt
     real_path = not np.any(N2.imag)
     if real_path:
@@ -453,6 +457,108 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     dT *= T
     # layer axis just before the polarisation axis
     return R, T, np.moveaxis(dR, 0, -4), np.moveaxis(dT, 0, -4)
+
+
+def _distinct_layers(Nr):
+    """Rows of the distinct materials of a (L, W) index array and each layer's row: ``(U, which)``.
+
+    An (HL)^N H stack has two materials: everything that depends on the
+    material alone (normal components, admittances, wavenumbers) is then
+    computed twice, not once per layer. Layers are compared bit for bit.
+    """
+    seen: dict = {}
+    first = []
+    which = np.empty(Nr.shape[0], dtype=np.intp)
+    for j in range(Nr.shape[0]):
+        key = Nr[j].tobytes()
+        m = seen.get(key)
+        if m is None:
+            m = seen[key] = len(first)
+            first.append(j)
+        which[j] = m
+    return Nr[first], which
+
+
+def _coherent_lossless(Nt, dt, wl, beta2, eta0, eta_s):
+    """R, T of stacks whose layers are all lossless and propagating, in real arithmetic; None otherwise.
+
+    With real ``δ`` and ``η`` the characteristic matrix is
+    ``[[a, −i s/η], [−i η s, a]]`` with real ``a = cos δ``, ``s = sin δ``.
+    Carrying ``X = (Re B, Im B, Re C, Im C)`` (s and p side by side), one
+    layer is ``X ← a X + s (E ⊙ reversed(X))`` with the material's
+    ``E = (1/η, −1/η, η, −η)``: four array operations per layer on
+    preallocated buffers, no complex arithmetic, no allocation in the loop.
+    When the layers share one index for the whole batch, everything that
+    depends on the material alone (``q``, ``η``, ``E``, ``2πq/λ``) is
+    computed once per distinct material, not per layer, and neighbouring
+    layers of one material are merged (their matrices multiply to the
+    matrix of the summed thickness: ``M(δ₁) M(δ₂) = M(δ₁ + δ₂)``).
+    """
+    if np.iscomplexobj(Nt):
+        if np.any(Nt.imag):
+            return None
+        Nt = Nt.real
+    L = Nt.shape[0]
+    mid = Nt.shape[1:-1]
+    if math.prod(mid) == 1:
+        U, which = _distinct_layers(Nt.reshape(L, Nt.shape[-1]))
+        U = U.reshape((U.shape[0],) + mid + Nt.shape[-1:])
+        starts = np.flatnonzero(np.r_[True, which[1:] != which[:-1]])
+        if starts.size < L:
+            dt = np.add.reduceat(dt, starts, axis=0)
+            which = which[starts]
+            L = starts.size
+    else:
+        U, which = Nt, np.arange(L)
+    U2 = U * U
+    arg = U2[..., None, :] - beta2                                     # (M, ..., A, W)
+    if not np.all(arg > 0):
+        return None
+    q = np.sqrt(arg)
+    E = np.empty((q.shape[0], 4) + q.shape[1:-2] + (2,) + q.shape[-2:])  # (M, 4, ..., 2, A, W)
+    E[:, 2, ..., 0, :, :] = q
+    np.divide(U2[..., None, :], q, out=E[:, 2, ..., 1, :, :])
+    np.divide(1.0, E[:, 2], out=E[:, 0])
+    np.negative(E[:, 0], out=E[:, 1])
+    np.negative(E[:, 2], out=E[:, 3])
+    k_m = (_TWO_PI / wl) * q                                           # rad/nm, (M, ..., A, W)
+    d_e = dt.reshape(dt.shape + (1, 1))
+    (delta,) = _workspace(np.broadcast_shapes((L,) + k_m.shape[1:], d_e.shape), 1, slot="phase-thickness",
+                          dtype=float)
+    if delta.shape[0] == L and delta.shape[1:] == k_m.shape[1:]:
+        np.take(k_m, which, axis=0, out=delta)
+        delta *= d_e
+    else:
+        np.multiply(k_m[which], d_e, out=delta)
+    cd, sd = _cos_sin(delta)
+    shape = np.broadcast_shapes(E.shape[2:], sd.shape[1:-2] + (1,) + sd.shape[-2:])   # (..., 2, A, W)
+    X, t = _workspace((4,) + shape, 2, slot="lossless-vector", dtype=float)
+    X[0] = 1.0
+    X[1] = 0.0
+    X[2] = eta_s.real
+    X[3] = eta_s.imag
+    Xr = X[::-1]
+    a = cd[..., None, :, :]                                            # (L, ..., 1, A, W)
+    s = sd[..., None, :, :]
+    for j in range(L - 1, -1, -1):
+        np.multiply(Xr, E[which[j]], out=t)
+        t *= s[j]
+        X *= a[j]
+        X += t
+    Br, Bi, Cr, Ci = X
+    eBr = eta0 * Br
+    eBi = eta0 * Bi
+    Yr = eBr + Cr
+    Yi = eBi + Ci
+    Y2 = Yr * Yr
+    Y2 += Yi * Yi
+    nr = eBr - Cr
+    ni = eBi - Ci
+    R = nr * nr
+    R += ni * ni
+    R /= Y2
+    T = (4.0 * eta0.real * eta_s.real) / Y2
+    return R, T, None, None
 
 
 _LOCAL = threading.local()
