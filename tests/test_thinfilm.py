@@ -77,6 +77,26 @@ class TestStackResponse:
                         assert abs(res.R[ip, ia, iw] - R_ref) <= 1e-9
                         assert abs(res.T[ip, ia, iw] - T_ref) <= 1e-9
 
+    def test_shared_and_neighbouring_materials_match_tmm_package(self):
+        """Symmetric periods (neighbouring layers of one dispersive material, batched) agree with tmm to 1e-9."""
+        rng = np.random.default_rng(41)
+        wl = np.array([420.0, 505.0, 610.0, 745.0])
+        n_h = 2.30 + 0.05 * (550.0 / wl) ** 2
+        n_l = 1.45 + 0.01 * (550.0 / wl) ** 2
+        symbols = "LHL" * 6                                   # (0.5L H 0.5L)^6: L L pairs inside
+        n = np.stack([n_h if x == "H" else n_l for x in symbols])
+        d = rng.uniform(30, 120, (2, len(symbols)))
+        angles = (0.0, 25.0, 40.0)
+        res = stack_response(n, d, wl, angles, incident=N_GLASS, substrate=N_GLASS)
+        for b in range(2):
+            for ip, pol in enumerate("sp"):
+                for ia, a in enumerate(angles):
+                    for iw, w in enumerate(wl):
+                        # tmm 0.2.0 (S. J. Byrnes, arXiv:1603.02720), coh_tmm
+                        R_ref, T_ref = tmm_reference(pol, n[:, iw], d[b], a, w, N_GLASS, N_GLASS)
+                        assert abs(res.R[b, ip, ia, iw] - R_ref) <= 1e-9
+                        assert abs(res.T[b, ip, ia, iw] - T_ref) <= 1e-9
+
     def test_quarter_wave_stack_peak_reflectance(self):
         """(HL)^N H peaks at ((1 − (nH/nL)^2N nH²/ns) / (1 + (nH/nL)^2N nH²/ns))² at λ0."""
         for N in (3, 6, 10):
