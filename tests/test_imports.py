@@ -61,7 +61,16 @@ class TestImportedModules:
                                        str(tmp_path / "out"), "--no-report", "--quiet")
         assert proc.returncode == 0, proc.stderr[-2000:]
         assert "scipy.optimize" in names
-        assert heavy(names, ("colour", "matplotlib", "pandas", "dask", "ipywidgets")) == []
+        assert heavy(names, ("colour", "matplotlib", "pandas", "dask", "ipywidgets", "scipy.stats")) == []
+
+    def test_design_panel_module(self):
+        """The design panel's module (its first figure) imports no scipy.optimize, scipy.stats, colour, pandas or dask."""
+        proc = subprocess.run([sys.executable, "-X", "importtime", "-c", "import workbench.widgets.design"],
+                              cwd=ROOT, capture_output=True, text=True, timeout=300)
+        assert proc.returncode == 0, proc.stderr[-2000:]
+        names = [line.split("|")[-1].strip() for line in proc.stderr.splitlines() if line.startswith("import time:")]
+        assert "matplotlib" in names and "ipywidgets" in names
+        assert heavy(names, ("colour", "pandas", "dask", "scipy.optimize", "scipy.stats")) == []
 
     @pytest.mark.slow  # imports the heavy libraries in a fresh interpreter
     def test_detects_heavy(self):

@@ -20,7 +20,6 @@ from enum import IntEnum
 
 import numpy as np
 from scipy.optimize import differential_evolution, least_squares
-from scipy.stats import qmc
 
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
 from workbench.analysis.measures import vora_value
@@ -758,6 +757,8 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
         starts = [np.concatenate([u_start, m0])]
         track.tag = "global"
         if gs == "multi-start":
+            from scipy.stats import qmc  # late: scipy.stats takes ~0.5 s to import; only multi-start needs it
+
             pts = qmc.LatinHypercube(d=nf, seed=seed).random(max(1, fit.starts))
             X = np.concatenate([base + pts * span, np.broadcast_to(m0, (len(pts), nm))], axis=1)
             r = track(X)

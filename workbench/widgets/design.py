@@ -48,8 +48,6 @@ from workbench.optics.kinds import element_param_spec
 from workbench.fileio.design_toml import load_design, save_design
 from workbench.errors import WorkbenchError
 from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
-from workbench.analysis.fit import (FitResult, check_fit_options, check_front, check_robust, fit_design,
-                                    fit_front, fit_robust)
 from workbench.fileio.spectra_csv import write_spectra_csv
 from workbench.model.spectra import Spectra
 from workbench.widgets.common import (
@@ -65,10 +63,21 @@ from workbench.widgets.common import (
 )
 from workbench.widgets.sensitivity_figure import SensitivityFigure
 import base64
-from workbench.report.fit_report import plot_front, robust_section_html
 from workbench.plots._canvas import svg_bytes
 
 __all__ = ["measures_html", "DesignPanel", "design_panel"]
+
+
+def _fitting():
+    """:mod:`workbench.analysis.fit`, imported when a fit is first asked for.
+
+    Late on purpose: it imports scipy.optimize and scipy.stats (about a
+    second on a busy 2-core machine), which the panel's first figure does
+    not need.
+    """
+    from workbench.analysis import fit
+
+    return fit
 
 
 def _nice_step(lo: float, hi: float, parts: int = 2000) -> float:
@@ -513,11 +522,12 @@ class DesignPanel(W.VBox):
             if not start.free_parameters():
                 raise WorkbenchError(f"{self.design.source or self.design.name}: no free parameters to fit "
                                      "(set free = true with min and max on at least one)")
-            check_fit_options(start)
+            fitting = _fitting()
+            fitting.check_fit_options(start)
             if self.mode.value == "front":
-                check_front(start)
+                fitting.check_front(start)
             elif self.mode.value == "robust":
-                check_robust(start, draws=int(self.robust_draws.value))
+                fitting.check_robust(start, draws=int(self.robust_draws.value))
         if g.failed:
             return
         self._stop = threading.Event()
@@ -583,14 +593,15 @@ class DesignPanel(W.VBox):
     def _run_fit(self, start: Design) -> None:
         try:
             with guard(self.error) as g:
-                res = fit_design(start, progress=False, stop=self._stop, evaluator=self.evaluator,
-                                 callback=self._progress)
+                fitting = _fitting()
+                res = fitting.fit_design(start, progress=False, stop=self._stop, evaluator=self.evaluator,
+                                         callback=self._progress)
                 if self.mode.value == "front" and not self._stop.is_set():
-                    front = fit_front(start, int(self.front_points.value), evaluator=self.evaluator,
+                    front = fitting.fit_front(start, int(self.front_points.value), evaluator=self.evaluator,
                                       progress=False, stop=self._stop, callback=self._progress, accuracy_fit=res)
                     res = replace(res, front=front)
                 elif self.mode.value == "robust" and not self._stop.is_set():
-                    res = fit_robust(start, draws=int(self.robust_draws.value), evaluator=self.evaluator,
+                    res = fitting.fit_robust(start, draws=int(self.robust_draws.value), evaluator=self.evaluator,
                                      progress=False, stop=self._stop, callback=self._progress, nominal=res)
             if g.failed:
                 self.fit_status.value = ('<span style="font-size:12px;color:#b00020">fit failed '
@@ -630,6 +641,8 @@ class DesignPanel(W.VBox):
     @staticmethod
     def _extra_html(res: FitResult) -> str:
         """The robust table and the front's figure (an inline SVG image) of a front or robust fit."""
+        # Late, as _fitting(): the report module imports analysis.fit (scipy.optimize, scipy.stats).
+        from workbench.report.fit_report import plot_front, robust_section_html
 
         out = robust_section_html(res)
         if res.front:
