@@ -73,12 +73,18 @@ def check_spectral_values(values, *, kind: str, source: str, wavelengths=None, n
     v = np.asarray(values, dtype=float)
     v2 = v.reshape(-1, v.shape[-1]) if v.ndim else v.reshape(1, 1)
     notes: list[str] = []
-    if not np.isfinite(v2).all():
+    if v2.size == 0:
+        return notes
+    vmin, vmax = float(v2.min()), float(v2.max())
+    if (kind in ("reflectance", "transmittance") and np.isfinite(vmin) and np.isfinite(vmax)
+            and 0 <= vmin and vmax <= 1):
+        return notes  # two passes over the values settle the common case
+    if not (np.isfinite(vmin) and np.isfinite(vmax)) and not np.isfinite(v2).all():
         bad = np.argwhere(~np.isfinite(v2))
-        raise InputFileError(f"{bad.shape[0]} values are not finite (the first {v2[tuple(bad[0])]!r} in "
+        raise InputFileError(f"{bad.shape[0]} values are not finite (the first {float(v2[tuple(bad[0])])!r} in "
                              f"{_where(v2, wavelengths, names, bad[0])}); expected finite numbers", source)
-    big = np.abs(v2) > MAGNITUDE_LIMIT
-    if big.any():
+    big = np.abs(v2) > MAGNITUDE_LIMIT if max(-vmin, vmax) > MAGNITUDE_LIMIT else None
+    if big is not None and big.any():
         idx = np.unravel_index(np.argmax(np.abs(v2)), v2.shape)
         raise InputFileError(f"{int(big.sum())} values have a magnitude above {MAGNITUDE_LIMIT:g} (the largest "
                              f"{v2[idx]:g} in {_where(v2, wavelengths, names, idx)}); expected measured "
@@ -111,6 +117,8 @@ def check_spectral_values(values, *, kind: str, source: str, wavelengths=None, n
             name = names[i] if names is not None and i < len(names) else f"spectrum {i + 1}"
             raise InputFileError(f"the spectrum {name!r} is all zero or negative (largest {peak[i]:g}); "
                                  "expected a light with positive spectral power", source)
+        if vmin >= 0:
+            return notes
         floor = -EMISSION_NEGATIVE_FRACTION * peak[:, None]
         deep = v2 < floor
         if deep.any():

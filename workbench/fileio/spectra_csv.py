@@ -199,6 +199,8 @@ def _symbol_kinds(cells) -> dict:
     rgb = {b.upper() for b in bare} >= {"R", "G", "B"}
     out = {}
     for cell, b in zip(cells, bare):
+        if len(b) > 4:  # no symbol is longer ('tint'); a wide table's names mostly are
+            continue
         rest = cell.strip()[len(b):] if cell.strip().startswith(b) else None
         if rest is None or not _SYMBOL_TAIL.fullmatch(rest):
             continue
