@@ -182,6 +182,21 @@ class TestMaterialErrors:
         np.testing.assert_allclose(batch[1], one, atol=1e-14)
 
 
+class TestCoatedDesign:
+    def test_stored_matrix_not_carried_over(self, demo_design):
+        """The idealised design's fitted matrix is dropped: the coated camera's matrix follows its [fit] rule."""
+        from dataclasses import replace
+
+        from workbench.analysis.recipe import coated_design, splitter_recipes
+        from workbench.model.design import FittedMatrix
+
+        stored = replace(demo_design, matrix=FittedMatrix("least-squares", "shared",
+                                                          ((2.0, -1.0, 0.0), (0.0, 1.0, 0.0), (0.0, 0.0, 1.0))))
+        coated = coated_design(stored, splitter_recipes(stored, periods=3, refine=False))
+        assert coated.matrix is None
+        assert [e.type for e in coated.chain].count("coating") == 2
+
+
 @pytest.mark.slow
 class TestFitWithFreeLayers:
     def test_fit_moves_free_layers(self, demo_design, tmp_path):

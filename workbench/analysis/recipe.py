@@ -520,7 +520,9 @@ def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coat
     (random per layer), each material's ``thickness_scale_<S>`` σ =
     ``material_error`` (systematic per material) and ``index_scale_<S>`` σ =
     ``index_error``. The splitter's ``loss`` is not carried over (the stacks
-    are lossless dielectrics).
+    are lossless dielectrics). A matrix stored with the design (by
+    ``workbench fit``) was fitted to the idealised faces and is not carried
+    over: the coated design's matrix follows its ``[fit]`` rule.
 
     Returns
     -------
@@ -557,6 +559,8 @@ def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coat
             el[f"index_scale_{sym}"] = {"value": 1.0, "tolerance": {"distribution": "normal", "width": index_error}}
         elements.append(el)
     chain[i:i + 1] = elements
+    # a matrix stored by a fit belongs to the idealised faces: the coated camera gets its own from its [fit] rule
+    data.pop("matrix", None)
     data["name"] = design.name + name_suffix
     return design_from_dict(data, base_dir=design.base_dir, source=f"{design.source or design.name} (coated)")
 
