@@ -66,3 +66,64 @@ class TestRecipeCommand:
         """--periods outside 1-200 is refused."""
         status, out, err = _run(capsys, ["recipe", str(demo_design_path), "--periods", "0"])
         assert status == 2 and err == "error: --periods must be 1-200 (got 0)\n"
+
+
+class TestRecipeWithUserMaterialTable:
+    def _work(self, tmp_path, demo_design_path):
+        """The demo design saved into work/, with a trim coating on a user n,k table work/nk/mix.csv."""
+        import tomllib
+
+        import tomli_w
+
+        from workbench.fileio.design_toml import load_design, save_design
+
+        work = tmp_path / "work"
+        (work / "nk").mkdir(parents=True)
+        save_design(load_design(demo_design_path), work / "design.toml")
+        raw = tomllib.loads((work / "design.toml").read_text())
+        raw["chain"].append({"name": "mix-trim", "type": "coating", "paths": ["G"], "layers": "(0.5L M 0.5L)^3",
+                             "materials": {"M": {"file": "nk/mix.csv"}, "L": "SiO2"}, "reference_nm": 380.0})
+        (work / "design.toml").write_text(tomli_w.dumps(raw))
+        (work / "nk" / "mix.csv").write_text(
+            "wavelength_nm,n,k\n" + "".join(f"{w},{2.0 + 0.02 * (550 / w) ** 2:.6f},0\n" for w in range(350, 860, 10)))
+        return work
+
+    def test_out_rewrites_the_table_path(self, capsys, demo_design_path, tmp_path):
+        """recipe --out writes the coated design with the n,k table named relative to the output folder."""
+        import tomllib
+
+        from workbench.fileio.design_toml import load_design
+
+        work = self._work(tmp_path, demo_design_path)
+        status, _, err = _run(capsys, ["recipe", str(work / "design.toml"), "--periods", "2", "--evaluations", "0",
+                                       "--tolerance-trials", "0", "--format", "json", "--out",
+                                       str(tmp_path / "rec")])
+        assert status == 0, err
+        saved = tomllib.loads((tmp_path / "rec" / "design.toml").read_text())
+        trim = [e for e in saved["chain"] if e["name"] == "mix-trim"][0]
+        assert trim["materials"] == {"M": {"file": "../work/nk/mix.csv"}, "L": "SiO2"}
+        coated = load_design(tmp_path / "rec" / "design.toml")
+        assert np.all(np.isfinite(coated.model().sensitivities()))
+
+    def test_missing_table_is_one_line(self, capsys, demo_design_path, tmp_path):
+        """A missing n,k table: one line naming design, element, key and file; exit status 2."""
+        work = self._work(tmp_path, demo_design_path)
+        (work / "nk" / "mix.csv").unlink()
+        status, _, err = _run(capsys, ["recipe", str(work / "design.toml"), "--periods", "2", "--evaluations", "0",
+                                       "--tolerance-trials", "0", "--format", "json"])
+        assert status == 2
+        assert err.strip().splitlines()[-1] == (
+            f"error: {work / 'design.toml'}: chain[9].materials.M: expected an n,k table (CSV: wavelength_nm, n, k) "
+            "relative to the design file's folder (got 'nk/mix.csv': no such file)")
+
+    def test_fit_out_rewrites_the_table_path(self, capsys, demo_design_path, tmp_path):
+        """fit --out writes the fitted design with the n,k table named relative to the output folder."""
+        import tomllib
+
+        work = self._work(tmp_path, demo_design_path)
+        status, _, err = _run(capsys, ["fit", str(work / "design.toml"), "--out", str(tmp_path / "fitted"),
+                                       "--max-evaluations", "3", "--no-report", "--quiet"])
+        assert status in (0, 3), err                     # converged, or the small budget spent
+        saved = tomllib.loads((tmp_path / "fitted" / "design.toml").read_text())
+        trim = [e for e in saved["chain"] if e["name"] == "mix-trim"][0]
+        assert trim["materials"] == {"M": {"file": "../work/nk/mix.csv"}, "L": "SiO2"}

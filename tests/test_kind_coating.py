@@ -140,7 +140,7 @@ class TestCoatingKindRejections:
 
 
 class TestDocumentedExamples:
-    def test_examples_in_design_file_doc_load(self):
+    def test_examples_in_design_file_doc_load(self, tmp_path):
         """Every TOML example of the coating section of docs/design-file.md loads and computes."""
         import re
         import tomllib
@@ -150,10 +150,12 @@ class TestDocumentedExamples:
         section = text[text.index("### Real coatings"):]
         section = section[:section.index("\n## ")]
         blocks = re.findall(r"```toml\n(.*?)```", section, flags=re.S)
-        assert len(blocks) == 2
+        assert len(blocks) == 3
+        _nk_table(tmp_path / "films" / "ta2o5-lab.csv", [f"{w},{2.08 + 0.02 * (550.0 / w) ** 2:.4f},0"
+                                                          for w in range(350, 860, 10)])
         for block in blocks:
             elements = tomllib.loads(block)["chain"]
-            model = design_from_dict(_design(*elements)).model()
+            model = design_from_dict(_design(*elements), base_dir=tmp_path).model()
             S = model.sensitivities()
             assert np.all(np.isfinite(S)) and np.all((S >= 0) & (S <= 1))
 
@@ -223,3 +225,104 @@ class TestFitWithFreeLayers:
         before, after = coated.parameters(), fitted.parameters()
         assert any(after[f"prism-blue-green.{k}"].value != before[f"prism-blue-green.{k}"].value
                    for k in ("layer_3_nm", "layer_4_nm"))
+
+
+def _nk_table(path, rows):
+    """Write an n,k CSV (wavelength_nm, n, k) with the given rows of text."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_text("wavelength_nm,n,k\n" + "".join(f"{r}\n" for r in rows), encoding="utf-8")
+
+
+def _mix_rows(lo=350, hi=850):
+    return [f"{w},{2.0 + 0.02 * (550.0 / w) ** 2:.6f},0" for w in range(lo, hi + 1, 10)]
+
+
+MIX = dict(TRIM, layers="(0.5L M 0.5L)^6", materials={"M": {"file": "nk/mix.csv"}, "L": "SiO2"})
+
+
+class TestUserMaterialTables:
+    def test_table_is_read_at_load_and_matches_the_engine(self, tmp_path):
+        """A {file = …} material is the table's n,k on the grid; the curve then equals the engine's own."""
+        _nk_table(tmp_path / "nk" / "mix.csv", _mix_rows())
+        design = design_from_dict(_design(MIX), base_dir=tmp_path, source="d.toml")
+        model = design.model()
+        wl = model.wavelengths
+        (tmp_path / "nk" / "mix.csv").unlink()            # read once at load: nothing touches disk afterwards
+        got = {c.name: c.values for c in model.element_curves()}["trim"][1]
+        from workbench.optics.materials import read_nk_csv
+
+        _nk_table(tmp_path / "again.csv", _mix_rows())
+        mix = read_nk_csv(tmp_path / "again.csv")
+        mats = {"M": mix, "L": material_named("SiO2")}
+        layers = parse_layer_formula(MIX["layers"], mats)
+        d = physical_thicknesses(layers, mats, 430.0)
+        N = np.stack([mats[x.symbol].index(wl) for x in layers])
+        angles, w = cone_rays(5.0, 2.8, 1.0, rings=4, azimuths=8)
+        res = stack_response(N, d, wl, angles, incident=1.0, substrate=material_named("crown-517").index(wl))
+        # Macleod (2010) ch. 2 through the engine ray by ray; pupil-area weights (common practice)
+        np.testing.assert_allclose(got, 0.5 * (res.T[0] + res.T[1]).T @ w, atol=1e-12)
+
+    def test_saving_elsewhere_rewrites_the_path(self, tmp_path):
+        """Saved into another folder, the table's name is rewritten relative to it and loads the same."""
+        import tomllib
+
+        _nk_table(tmp_path / "nk" / "mix.csv", _mix_rows())
+        design = design_from_dict(_design(MIX), base_dir=tmp_path, source="d.toml")
+        (tmp_path / "out").mkdir()
+        save_design(design, tmp_path / "out" / "d.toml")
+        saved = tomllib.loads((tmp_path / "out" / "d.toml").read_text())
+        assert saved["chain"][1]["materials"] == {"M": {"file": "../nk/mix.csv"}, "L": "SiO2"}
+        again = load_design(tmp_path / "out" / "d.toml")
+        np.testing.assert_array_equal(again.model().sensitivities(), design.model().sensitivities())
+        save_design(design, tmp_path / "same.toml")
+        assert tomllib.loads((tmp_path / "same.toml").read_text())["chain"][1]["materials"]["M"] == {
+            "file": "nk/mix.csv"}
+
+
+class TestUserMaterialTableRejections:
+    def _error(self, tmp_path, rows=None, name="mix.csv"):
+        if rows is not None:
+            _nk_table(tmp_path / "nk" / name, rows)
+        design = design_from_dict(_design(dict(MIX, materials={"M": {"file": f"nk/{name}"}, "L": "SiO2"})),
+                                  base_dir=tmp_path, source="cam.toml")
+        from workbench.errors import WorkbenchError
+
+        with pytest.raises(WorkbenchError) as err:
+            design.model().sensitivities()
+        return str(err.value)
+
+    def test_missing_file(self, tmp_path):
+        """A table that is not there names the design file, element, key and the file."""
+        assert self._error(tmp_path) == (
+            "cam.toml: chain[1].materials.M: expected an n,k table (CSV: wavelength_nm, n, k) relative to the "
+            "design file's folder (got 'nk/mix.csv': no such file)")
+
+    def test_negative_k(self, tmp_path):
+        """k < 0 names the file's line and column."""
+        rows = _mix_rows()
+        rows[1] = "360,2.1,-0.01"
+        assert self._error(tmp_path, rows) == (
+            "cam.toml: chain[1].materials.M: nk/mix.csv, line 3, column 'k': k must be ≥ 0 (got -0.01); "
+            "k < 0 would be gain")
+
+    def test_gap(self, tmp_path):
+        """An empty cell is a gap, not filled."""
+        rows = _mix_rows()
+        rows[2] = "370,,0"
+        assert self._error(tmp_path, rows) == (
+            "cam.toml: chain[1].materials.M: nk/mix.csv, line 4, column 'n': must hold a number "
+            "(got an empty cell: gaps are not filled)")
+
+    def test_not_covering_the_grid(self, tmp_path):
+        """A table that stops inside the design grid (400-700 nm) is refused, never extrapolated."""
+        assert self._error(tmp_path, _mix_rows(450, 650), name="short.csv") == (
+            "cam.toml: chain[1].materials.M: material 'short' must be used within 450-650 nm "
+            "(got 400-700 nm; n,k table nk/short.csv); the table must cover the design grid")
+
+    def test_bad_table_value(self):
+        """Anything but {file = "…"} as a table is refused when the design is checked."""
+        with pytest.raises(DesignError) as err:
+            design_from_dict(_design(dict(MIX, materials={"M": {"path": "nk/mix.csv"}, "L": "SiO2"})))
+        assert ("chain[1].materials: expected a table of material symbols such as {H = \"TiO2\", L = \"SiO2\"}; "
+                "a user n,k table is written {file = \"films/nk.csv\"} (got {'path': 'nk/mix.csv'} for M)") in \
+            str(err.value)

@@ -42,7 +42,7 @@ def _element_data(design: Design, e: Element, i: int) -> Element:
     kind = element_kind(e.type)
     if kind.load is not None:
         data = kind.load(LoadInput(f"chain[{i}]", e.name, dict(e.options), e.paths, design.grid.wavelengths,
-                                   design.resolve, e.option("file")))
+                                   design.resolve, e.option("file"), design.source))
         return replace(e, data=data)
     file = e.option("file")
     if kind.reads is None or file is None:

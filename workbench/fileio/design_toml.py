@@ -914,6 +914,8 @@ def design_to_dict(d: Design, rebase=None) -> dict:
                 el[k] = dict(v)
             elif option_kind == "file":
                 el[k] = f(v)
+            elif hasattr(v, "to_toml"):           # a value naming files of its own (coating materials)
+                el[k] = v.to_toml(f)
             else:
                 el[k] = v
         chain.append(el)

@@ -38,20 +38,23 @@ design grid once, when the design is loaded (``load``); the chief-ray angle
 
 from __future__ import annotations
 
+import os
 import re
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 
-from workbench.errors import WorkbenchError
+from workbench.errors import InputFileError, WorkbenchError
 from workbench.optics.kinds.registry import (
     CurveInput, ElementKind, KindProblem, LoadInput, OptionSpec, ParamSpec, register_kind,
 )
-from workbench.optics.materials import material_named
+from workbench.fileio.limits import limits, read_limited
+from workbench.optics.materials import material_named, read_nk_csv
 from workbench.optics.stacks import parse_layer_formula, resolve_materials
 from workbench.optics.stacks import cone_response
 
-__all__ = ["KIND", "MaterialTable", "parse_materials", "CoatingData"]
+__all__ = ["KIND", "MaterialTable", "MaterialFile", "parse_materials", "CoatingData"]
 
 REFLECTS = ("none", "R", "G", "B")
 POLARISATIONS = ("unpolarised", "s", "p")
@@ -60,8 +63,27 @@ _CHANNELS = ("R", "G", "B")
 _SYMBOL = re.compile(r"[A-Za-z][A-Za-z0-9_]*")
 
 
+@dataclass(frozen=True)
+class MaterialFile:
+    """A user n,k table named in a design file, ``{file = "films/nb2o5.csv"}`` (relative to the design file).
+
+    The file is read once, when the design is loaded (the kind's ``load``),
+    by :func:`workbench.optics.materials.read_nk_csv`.
+    """
+
+    file: str
+
+    def to_toml(self, rebase=None) -> dict:
+        """``{"file": name}``, the name passed through ``rebase`` (saving elsewhere)."""
+        return {"file": self.file if rebase is None else rebase(self.file)}
+
+
 class MaterialTable(dict):
-    """The ``materials`` option: symbol → material name or index, read-only and hashable (saved as a table)."""
+    """The ``materials`` option: symbol → material name, index or :class:`MaterialFile`; read-only, hashable.
+
+    Saved as a table by :meth:`to_toml`, which rewrites the file names of
+    user n,k tables through the saver's ``rebase`` (like ``file`` options).
+    """
 
     __slots__ = ()
 
@@ -73,9 +95,17 @@ class MaterialTable(dict):
 
     __setitem__ = __delitem__ = update = pop = popitem = clear = setdefault = _read_only
 
+    def to_toml(self, rebase=None) -> dict:
+        """Plain TOML data: ``{H = "TiO2", L = 1.46, M = {file = "…"}}``."""
+        return {k: v.to_toml(rebase) if isinstance(v, MaterialFile) else v for k, v in self.items()}
+
 
 def parse_materials(value) -> MaterialTable:
-    """The ``materials`` option: a table ``{H = "TiO2", L = 1.46}`` or a string ``"H=TiO2, L=1.46"``.
+    """The ``materials`` option: a table ``{H = "TiO2", L = 1.46, M = {file = "nk.csv"}}`` or ``"H=TiO2, L=1.46"``.
+
+    A value ``{file = "…"}`` names a user n,k table (CSV with ``wavelength_nm``,
+    ``n``, ``k``; :func:`workbench.optics.materials.read_nk_csv`) relative to
+    the design file's folder; it is read when the design is loaded.
 
     Raises
     ------
@@ -102,8 +132,19 @@ def parse_materials(value) -> MaterialTable:
         if not isinstance(sym, str) or not _SYMBOL.fullmatch(sym):
             raise ValueError(f"{expected}; symbols are letters, digits and _ starting with a letter "
                              f"(got {sym!r})")
+        if isinstance(spec, MaterialFile):
+            out[sym] = spec
+            continue
+        if isinstance(spec, dict):
+            name = spec.get("file")
+            if set(spec) != {"file"} or not isinstance(name, str) or not name.strip():
+                raise ValueError(f"{expected}; a user n,k table is written {{file = \"films/nk.csv\"}} "
+                                 f"(got {spec!r} for {sym})")
+            out[sym] = MaterialFile(name)
+            continue
         if isinstance(spec, bool) or not isinstance(spec, (str, int, float)):
-            raise ValueError(f"{expected}; each a material name or an index (got {spec!r} for {sym})")
+            raise ValueError(f"{expected}; each a material name, an index or {{file = \"nk.csv\"}} "
+                             f"(got {spec!r} for {sym})")
         try:
             material_named(spec if isinstance(spec, str) else float(spec))
         except WorkbenchError as err:
@@ -123,9 +164,42 @@ def _parse_medium(value):
     return value
 
 
-def _formula(options):
-    mats = resolve_materials(dict(options["materials"]), what="materials")
-    return parse_layer_formula(options["layers"], mats, what="layers"), mats
+def _formula(options, files=None):
+    """The parsed layers and ``{symbol: Material}``; user tables from ``files`` (read at load), else left out."""
+    table = dict(options["materials"])
+    plain = {k: v for k, v in table.items() if not isinstance(v, MaterialFile)}
+    resolved = resolve_materials(plain, what="materials") if plain else {}
+    mats = {k: (files or {}).get(k) if isinstance(v, MaterialFile) else resolved[k] for k, v in table.items()}
+    mats = {k: v for k, v in mats.items() if v is not None}
+    return parse_layer_formula(options["layers"], table, what="layers"), mats
+
+
+def _read_tables(x: LoadInput) -> dict:
+    """The user n,k tables of the ``materials`` option, each read once; errors name design, element and key."""
+    out = {}
+    design = f"{x.source}: " if getattr(x, "source", None) else ""
+    for sym, spec in dict(x.option("materials")).items():
+        if not isinstance(spec, MaterialFile):
+            continue
+        where = f"{design}{x.key}.materials.{sym}"
+        path = x.resolve(spec.file)
+        try:
+            text = read_limited(path, max_bytes=limits().design_bytes, limit_name="design_mb")
+        except InputFileError as err:
+            why = "no such file" if not os.path.lexists(path) else err.message
+            raise WorkbenchError(f"{where}: expected an n,k table (CSV: wavelength_nm, n, k) relative to the "
+                                 f"design file's folder (got {spec.file!r}: {why})") from None
+        try:
+            out[sym] = read_nk_csv(spec.file, name=Path(spec.file).stem, text=text.decode("utf-8-sig"))
+        except UnicodeDecodeError:
+            raise WorkbenchError(f"{where}: {spec.file}: must be UTF-8 text") from None
+        except WorkbenchError as err:
+            raise WorkbenchError(f"{where}: {err}") from None
+        try:
+            out[sym].index(x.wavelengths)
+        except WorkbenchError as err:
+            raise WorkbenchError(f"{where}: {err}; the table must cover the design grid") from None
+    return out
 
 
 def _more_params(options: dict) -> dict:
@@ -162,8 +236,9 @@ class CoatingData:
 
 
 def _load(x: LoadInput) -> CoatingData:
+    files = _read_tables(x)
     try:
-        layers, mats = _formula(x.options)
+        layers, mats = _formula(x.options, files)
     except WorkbenchError as err:
         raise WorkbenchError(f"{x.key}: {err}") from None
     wl = np.asarray(x.wavelengths, dtype=float)
@@ -309,7 +384,8 @@ KIND = register_kind(ElementKind(
         "layers": OptionSpec("str", required=True,
                              meaning="layer formula from the incidence side: `(H L)^10 H`, `0.5L`, `H[52.3]` (nm)"),
         "materials": OptionSpec(parse_materials, required=True,
-                                meaning="symbols: `{H = \"TiO2\", L = \"SiO2\"}`, built-in names or indices"),
+                                meaning="symbols: `{H = \"TiO2\", L = \"SiO2\"}`, built-in names, indices or "
+                                        "`{file = \"nk.csv\"}` (a user n,k table)"),
         "incident": OptionSpec(_parse_medium, default="air",
                                meaning="incidence medium (e.g. crown-517 inside a prism)"),
         "substrate": OptionSpec(_parse_medium, default="crown-517", meaning="substrate material or index"),

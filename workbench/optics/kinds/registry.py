@@ -218,6 +218,8 @@ class LoadInput:
         to the design file's folder) as a path.
     file : str or None
         The element's ``file`` option as written (for messages).
+    source : str or None
+        The design file (or what stands for it), for messages.
     """
 
     key: str
@@ -227,6 +229,7 @@ class LoadInput:
     wavelengths: np.ndarray
     resolve: Callable[[str], Any]
     file: str | None = None
+    source: str | None = None
 
     def option(self, key: str, default=None):
         """An option's value."""
