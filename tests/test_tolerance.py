@@ -374,6 +374,21 @@ class TestRunTolerance:
         json.dumps(s, allow_nan=False)
 
 
+class TestCaseSummary:
+    def test_typed_fields_match_the_json(self, result):
+        """A case's typed summary carries the numbers its JSON object holds (same yield, illuminants, worst)."""
+        for case in result.cases:
+            cs = result.case_summary(case)
+            assert cs.to_dict() == result.summary()["cases"][case]
+            passed = result.passed(case)
+            assert cs.units_passing == int(passed.sum())
+            assert cs.yield_fraction == passed.mean()  # the share of units passing, by its definition
+            assert set(cs.illuminants) == set(result.illuminants)
+            ill = result.illuminants[0]
+            np.testing.assert_allclose(cs.illuminants[ill].delta_E00_mean["p50"],
+                                       np.median(result.per_case[case]["delta_E00_mean"][:, 0]))
+
+
 class TestFieldShift:
     def test_angle_reaches_the_splitter_in_glass(self, tmp_path):
         """A 5° field offset on a 20° face in glass moves a 550 nm edge to 513.8 nm (Smith, Modern Optical Engineering, Ch. 11; docs/methods.md §14)."""

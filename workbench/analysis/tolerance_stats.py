@@ -34,6 +34,8 @@ from workbench.report.json_text import json_text, jsonable
 from workbench.report.methods import METHODS
 
 __all__ = [
+    "IlluminantSummary",
+    "CaseSummary",
     "PERCENTILES",
     "distribution",
     "wilson_interval",
@@ -234,6 +236,73 @@ def passes_spec(arr: dict, case: str, vora, spec: ToleranceSpec) -> np.ndarray:
 
 
 @dataclass(frozen=True, eq=False)
+class IlluminantSummary:
+    """One illuminant's statistics over the trials of one matrix case.
+
+    Each distribution is the dict of :func:`distribution` (p5, p50, p95,
+    mean, std, min, max) over the units; ``noise_gain`` and ``grey_snr_db``
+    hold one per channel R, G, B; ``nominal`` the nominal design's values.
+    """
+
+    delta_E00_mean: dict
+    delta_E00_max: dict
+    white_balance_gain_R_over_G: dict
+    white_balance_gain_B_over_G: dict
+    noise_gain: dict
+    grey_snr_db: dict
+    nominal: dict
+
+    def to_dict(self) -> dict:
+        """The JSON object of ``summary()['cases'][case]['illuminants'][illuminant]``."""
+        return {
+            "delta_E00_mean": self.delta_E00_mean,
+            "delta_E00_max": self.delta_E00_max,
+            "white_balance_gain_R_over_G": self.white_balance_gain_R_over_G,
+            "white_balance_gain_B_over_G": self.white_balance_gain_B_over_G,
+            "noise_gain": self.noise_gain,
+            "grey_snr_db": self.grey_snr_db,
+            "nominal": self.nominal,
+        }
+
+
+@dataclass(frozen=True, eq=False)
+class CaseSummary:
+    """One matrix case ('fixed' or 'recalibrated') over the trials: yield, worst mean ΔE00, per illuminant.
+
+    ``yield_fraction`` is the share of units passing the spec (None for no
+    trials) with its 95 % Wilson interval; ``illuminants`` maps each
+    illuminant to its :class:`IlluminantSummary`; ``ranking`` is
+    :meth:`ToleranceResult.ranking` of the worst-illuminant mean ΔE00.
+    """
+
+    matrix: str
+    matrix_method: str
+    yield_fraction: float | None
+    yield_interval_95: tuple
+    units_passing: int
+    nominal_passes: bool
+    nominal_worst_mean_delta_E00: float
+    worst_mean_delta_E00: dict
+    illuminants: dict
+    ranking: dict
+
+    def to_dict(self) -> dict:
+        """The JSON object of ``summary()['cases'][case]``."""
+        return {
+            "matrix": self.matrix,
+            "matrix_method": self.matrix_method,
+            "yield": self.yield_fraction,
+            "yield_interval_95": list(self.yield_interval_95),
+            "units_passing": self.units_passing,
+            "nominal_passes": self.nominal_passes,
+            "nominal_worst_mean_delta_E00": self.nominal_worst_mean_delta_E00,
+            "worst_mean_delta_E00": self.worst_mean_delta_E00,
+            "illuminants": {ill: d.to_dict() for ill, d in self.illuminants.items()},
+            "ranking": self.ranking,
+        }
+
+
+@dataclass(frozen=True, eq=False)
 class ToleranceResult:
     """The outcome of :func:`run_tolerance`: a frozen value that renders, serialises and writes CSV.
 
@@ -354,43 +423,51 @@ class ToleranceResult:
         return pick(full), float(pick(self.nominal)[0]), pick(self.one_at_a_time)
 
     # -- serialisation ----------------------------------------------------------
-    def _case_summary(self, case: str) -> dict:
+    def case_summary(self, case: str) -> "CaseSummary":
+        """The statistics of one matrix case over the trials, typed (its JSON is ``summary()['cases'][case]``)."""
         a = self.per_case[case]
         nom = self.nominal[case]
         ills = {}
         for j, ill in enumerate(self.illuminants):
             g = a["gains"][:, j, :]
-            ills[ill] = {
-                "delta_E00_mean": distribution(a["delta_E00_mean"][:, j]),
-                "delta_E00_max": distribution(a["delta_E00_max"][:, j]),
-                "white_balance_gain_R_over_G": distribution(g[:, 0] / g[:, 1]),
-                "white_balance_gain_B_over_G": distribution(g[:, 2] / g[:, 1]),
-                "noise_gain": {ch: distribution(a["noise_gain"][:, j, i]) for i, ch in enumerate(CHANNELS)},
-                "grey_snr_db": {ch: distribution(a["grey_snr_db"][:, j, i]) for i, ch in enumerate(CHANNELS)},
-                "nominal": {
+            ills[ill] = IlluminantSummary(
+                delta_E00_mean=distribution(a["delta_E00_mean"][:, j]),
+                delta_E00_max=distribution(a["delta_E00_max"][:, j]),
+                white_balance_gain_R_over_G=distribution(g[:, 0] / g[:, 1]),
+                white_balance_gain_B_over_G=distribution(g[:, 2] / g[:, 1]),
+                noise_gain={ch: distribution(a["noise_gain"][:, j, i]) for i, ch in enumerate(CHANNELS)},
+                grey_snr_db={ch: distribution(a["grey_snr_db"][:, j, i]) for i, ch in enumerate(CHANNELS)},
+                nominal={
                     "delta_E00_mean": float(nom["delta_E00_mean"][0, j]),
                     "delta_E00_max": float(nom["delta_E00_max"][0, j]),
                     "white_balance_gain_R_over_G": float(nom["gains"][0, j, 0] / nom["gains"][0, j, 1]),
                     "white_balance_gain_B_over_G": float(nom["gains"][0, j, 2] / nom["gains"][0, j, 1]),
                     "noise_gain": {ch: float(nom["noise_gain"][0, j, i]) for i, ch in enumerate(CHANNELS)},
                 },
-            }
+            )
         passed = a["passed"]
         k = int(passed.sum())
         lo, hi = wilson_interval(k, self.trials)
         nominal_pass = bool(passes_spec(self.nominal, case, self.nominal["vora_value"], self.spec)[0])
-        return {
-            "matrix": case,
-            "matrix_method": a["matrix_method"],
-            "yield": k / self.trials if self.trials else None,
-            "yield_interval_95": [lo, hi],
-            "units_passing": k,
-            "nominal_passes": nominal_pass,
-            "nominal_worst_mean_delta_E00": float(nom["delta_E00_mean"][0].max()),
-            "worst_mean_delta_E00": distribution(self.worst_mean(case)),
-            "illuminants": ills,
-            "ranking": self.ranking(case),
-        }
+        return CaseSummary(
+            matrix=case,
+            matrix_method=a["matrix_method"],
+            yield_fraction=k / self.trials if self.trials else None,
+            yield_interval_95=(lo, hi),
+            units_passing=k,
+            nominal_passes=nominal_pass,
+            nominal_worst_mean_delta_E00=float(nom["delta_E00_mean"][0].max()),
+            worst_mean_delta_E00=distribution(self.worst_mean(case)),
+            illuminants=ills,
+            ranking=self.ranking(case),
+        )
+
+    def vora_summary(self) -> dict:
+        """The Vora value over the trials (:func:`distribution`) and the nominal design's, 0-1."""
+        return {**distribution(self.vora_value), "nominal": float(self.nominal["vora_value"][0])}
+
+    def _case_summary(self, case: str) -> dict:
+        return self.case_summary(case).to_dict()
 
     def summary(self) -> dict:
         """The JSON object ``workbench tolerance --format json`` prints (no timings, so the same
@@ -424,7 +501,7 @@ class ToleranceResult:
                 "max_mean_delta_E00": self.spec.max_mean_delta_E00, "min_vora": self.spec.min_vora,
                 "rule": "mean ΔE00 ≤ max_mean_delta_E00 under every illuminant and ν ≥ min_vora",
             },
-            "vora_value": {**distribution(self.vora_value), "nominal": float(self.nominal["vora_value"][0])},
+            "vora_value": self.vora_summary(),
             "worst_mean_delta_E00": top["worst_mean_delta_E00"],
             "illuminants": top["illuminants"],
             "ranking": top["ranking"],

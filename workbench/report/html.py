@@ -133,25 +133,24 @@ def _bound_costs_html(r) -> str:
 
 def tolerance_html(result) -> str:
     """A tolerance analysis (:class:`workbench.analysis.tolerance_stats.ToleranceResult`)."""
-    s = result.summary()
+    cases = {c: result.case_summary(c) for c in result.cases}
+    top = cases[result.primary]
     rows = []
-    for c in result.cases:
-        cs = s["cases"][c]
-        for ill, d in cs["illuminants"].items():
-            m = d["delta_E00_mean"]
-            rows.append(f"<tr><td>{escape(c)}</td><td>{escape(ill)}</td><td>{d['nominal']['delta_E00_mean']:.3f}</td>"
+    for c, cs in cases.items():
+        for ill, d in cs.illuminants.items():
+            m = d.delta_E00_mean
+            rows.append(f"<tr><td>{escape(c)}</td><td>{escape(ill)}</td><td>{d.nominal['delta_E00_mean']:.3f}</td>"
                         f"<td>{m['p5']:.3f}</td><td>{m['p50']:.3f}</td><td>{m['p95']:.3f}</td>"
-                        f"<td>{d['delta_E00_max']['p95']:.3f}</td></tr>")
+                        f"<td>{d.delta_E00_max['p95']:.3f}</td></tr>")
     ys = "; ".join(
-        f"{escape(c)}: {100 * s['cases'][c]['yield']:.1f} % (95 % Wilson "
-        f"{100 * s['cases'][c]['yield_interval_95'][0]:.1f}"
-        f"–{100 * s['cases'][c]['yield_interval_95'][1]:.1f} %)" for c in result.cases)
-    rk = s["ranking"]["parameters"][:5]
+        f"{escape(c)}: {100 * cs.yield_fraction:.1f} % (95 % Wilson {100 * cs.yield_interval_95[0]:.1f}"
+        f"–{100 * cs.yield_interval_95[1]:.1f} %)" for c, cs in cases.items())
+    rk = top.ranking["parameters"][:5]
     rank = "".join(f"<tr><td>{escape(r['name'])}</td><td>{'σ' if r['distribution'] == 'normal' else '±'} "
                    f"{r['width']:g} {escape(r['unit'])}</td>"
                    f"<td>{100 * (r['variance_contribution'] or 0):.1f} %</td>"
                    f"<td>{(r['oat_minus'] or 0):+.3f} / {(r['oat_plus'] or 0):+.3f}</td></tr>" for r in rk)
-    v = s["vora_value"]
+    v = result.vora_summary()
     stop = " <b>Interrupted</b>: statistics over the finished trials." if result.interrupted else ""
     spec = result.spec
     return (
@@ -160,7 +159,7 @@ def tolerance_html(result) -> str:
         f"<p>Yield (mean ΔE00 ≤ {spec.max_mean_delta_E00:g} under every illuminant and "
         f"ν ≥ {spec.min_vora:g}): {ys}.</p>"
         f"<p>Vora value ν (0-1): nominal {v['nominal']:.4f}, p5 {v['p5']:.4f}, p50 {v['p50']:.4f}, "
-        f"p95 {v['p95']:.4f}. The nominal design {'passes' if s['nominal_passes'] else 'fails'} the spec "
+        f"p95 {v['p95']:.4f}. The nominal design {'passes' if top.nominal_passes else 'fails'} the spec "
         f"({escape(result.primary)} matrix).</p>"
         "<p>ΔE00: CIEDE2000 units, over the design's samples; percentiles over the trials (linear "
         "interpolation); p95 of max ΔE00 = 95th percentile over the units of each unit's largest ΔE00.</p>"
