@@ -326,8 +326,6 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
     -------
     (Recipe, CameraRefineReport)
     """
-    from scipy.optimize import least_squares  # late: scipy.optimize (~1 s) only for this refinement
-
     if evaluator._n_matrix_params():
         raise WorkbenchError("refining in the camera takes an objective without a fitted ΔE00 matrix "
                              "(got objective mean-delta-e00 with matrix delta-e00)")

@@ -75,7 +75,7 @@ def _fitting():
     second on a busy 2-core machine), which the panel's first figure does
     not need.
     """
-    from workbench.analysis import fit
+    from workbench.analysis import fit  # late: scipy.optimize and scipy.stats (see above)
 
     return fit
 

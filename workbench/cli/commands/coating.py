@@ -22,6 +22,7 @@ from pathlib import Path
 
 import numpy as np
 
+from workbench import plots  # its modules (and matplotlib) load on first use, when a figure is drawn
 from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
 from workbench.fileio.atomic import write_bytes_atomically
@@ -189,12 +190,10 @@ def _spectral_rows(res, wl, angles) -> list[dict]:
 
 def render_figures(res, title: str) -> dict[str, bytes]:
     """Every figure as PNG bytes, keyed by file name (drawn before anything is written)."""
-    from workbench.plots import coating as coating_plots  # late: matplotlib, only when figures are asked for
-
     names = figure_names([float(a) for a in res.angles_deg])
-    figs = {name: coating_plots.plot_stack_spectra(res, ia, title=title) for ia, name in enumerate(names[:-1])}
-    figs[names[-1]] = coating_plots.plot_half_points_vs_angle(res, title=title)
-    return {name: coating_plots.png_bytes(fig, dpi=110) for name, fig in figs.items()}
+    figs = {name: plots.coating.plot_stack_spectra(res, ia, title=title) for ia, name in enumerate(names[:-1])}
+    figs[names[-1]] = plots.coating.plot_half_points_vs_angle(res, title=title)
+    return {name: plots.coating.png_bytes(fig, dpi=110) for name, fig in figs.items()}
 
 
 def figure_names(angles) -> tuple[str, ...]:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from workbench import plots  # its modules (and matplotlib) load on first use, when a figure is drawn
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.near_infrared import DEFAULT_CUTOFF_NM, infrared_share
 from workbench.analysis.throughput import throughput
@@ -118,16 +119,15 @@ FIGURE_FILES = ("chain.png", "sensitivities.png", "near-infrared.png")
 def write_figures(design, directory, *, evaluator=None) -> list:
     """chain.png (each path's element curves and product), sensitivities.png and near-infrared.png
     (each channel's signal per nm under each illuminant, the part above 700 nm shaded) into an open OutputFolder."""
-    from workbench.plots import chain as chain_plots, near_infrared as ir_plots, spectra as spectra_plots  # late: matplotlib, for --figures
     ev = evaluator or DesignEvaluator(design)
     model = ev.model
     S = model.sensitivities()
     ills = {n: ev.bench.E[j] for j, n in enumerate(ev.bench.illuminant_names)}
     shares = infrared_share(S, ev.bench.E, ev.wavelengths, cutoff_nm=DEFAULT_CUTOFF_NM)
     out = []
-    for name, make in (("chain.png", lambda: chain_plots.plot_chain(model.wavelengths, model.element_curves())[0].figure),
-                       ("sensitivities.png", lambda: spectra_plots.plot_spectra(model.channel_sensitivities()).figure),
-                       ("near-infrared.png", lambda: ir_plots.plot_infrared(ev.wavelengths, S, ills,
+    for name, make in (("chain.png", lambda: plots.chain.plot_chain(model.wavelengths, model.element_curves())[0].figure),
+                       ("sensitivities.png", lambda: plots.spectra.plot_spectra(model.channel_sensitivities()).figure),
+                       ("near-infrared.png", lambda: plots.near_infrared.plot_infrared(ev.wavelengths, S, ills,
                                                                            cutoff_nm=DEFAULT_CUTOFF_NM, shares=shares))):
         fig = make()
         write_atomically(directory / name, lambda fh, fig=fig: fig.savefig(fh, format="png", dpi=110))

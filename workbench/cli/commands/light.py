@@ -15,6 +15,7 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
+from workbench import plots  # its modules (and matplotlib) load on first use, when a figure is drawn
 from workbench.analysis.evaluator import load_camera
 from workbench.analysis.light import DIFFER_DELTA_E00, MATCH_DELTA_E00, light_report, read_light
 from workbench.cli.commands._output import notice, to_json
@@ -99,8 +100,7 @@ def write_figures(report, directory) -> list[Path]:
     ``directory`` is an open :class:`workbench.fileio.outdir.OutputFolder`
     (the caller commits) or a path, then written as one unit here.
     """
-    from workbench.plots import light as lp  # late: matplotlib, only when figures are asked for
-
+    lp = plots.light  # imports matplotlib now: figures are being drawn
     if not isinstance(directory, OutputFolder):
         with OutputFolder(directory, option="--figures", command="light", names=FIGURE_FILES) as out:
             names = [p.name for p in write_figures(report, out)]

@@ -32,6 +32,7 @@ from pathlib import Path
 import numpy as np
 import psutil
 
+from workbench import plots  # its modules (and matplotlib) load on first use, when a figure is drawn
 from workbench.analysis.evaluator import load_camera
 from workbench.analysis.render import BatchPipeline, load_dask, load_distributed, render_dask
 from workbench.cli.commands._output import notice, to_json
@@ -277,16 +278,15 @@ def _render(args, out, cube, camera, label, E, key, ill_notes, pipeline, design_
     stats = result.stats()
     written = []
     if cube.layout == "image":
-        from workbench.plots.images import plot_delta_e_map, save_figure, save_rgb8_png  # late: matplotlib
-
-        save_rgb8_png(result.truth_sRGB8, out / "truth.png",
+        images = plots.images  # imports matplotlib now: images are being drawn
+        images.save_rgb8_png(result.truth_sRGB8, out / "truth.png",
                       description=f"truth under {label}: {IMAGE_ENCODING}")
-        save_rgb8_png(result.camera_sRGB8, out / "camera.png",
+        images.save_rgb8_png(result.camera_sRGB8, out / "camera.png",
                       description=f"{camera.name} under {label}: {IMAGE_ENCODING}")
-        ax = plot_delta_e_map(result.delta_E00, title=(
+        ax = images.plot_delta_e_map(result.delta_E00, title=(
             f"{camera.name} under {label}: ΔE00 mean {stats['mean']:.2f}, p95 {stats['p95']:.2f}, "
             f"max {stats['max']:.2f}"))
-        save_figure(ax.figure, out / "delta_e00.png")
+        images.save_figure(ax.figure, out / "delta_e00.png")
         written += ["truth.png", "camera.png", "delta_e00.png"]
     _save_npy(out / "delta_e00.npy", result.delta_E00)
     written.append("delta_e00.npy")

@@ -29,6 +29,7 @@ import math
 from dataclasses import replace
 from pathlib import Path
 
+from workbench import plots  # its modules (and matplotlib) load on first use, when a figure is drawn
 from workbench.analysis.tolerance import (
     DEFAULT_CHUNK,
     MATRIX_CHOICES,
@@ -191,14 +192,12 @@ def write_plots(result, folder) -> list[Path]:
             names = [p.name for p in write_plots(result, out)]
             out.commit()
         return [out.target / n for n in names]
-    from workbench.plots.tolerance import plot_field_shift, plot_histograms, plot_ranking  # late: matplotlib
-
     makers = []
     for case in result.cases:
-        makers.append((f"histograms-{case}.png", lambda c=case: plot_histograms(result, case=c)))
-        makers.append((f"ranking-{case}.png", lambda c=case: plot_ranking(result, case=c)))
+        makers.append((f"histograms-{case}.png", lambda c=case: plots.tolerance.plot_histograms(result, case=c)))
+        makers.append((f"ranking-{case}.png", lambda c=case: plots.tolerance.plot_ranking(result, case=c)))
     if result.field is not None:
-        makers.append(("field-shift.png", lambda: plot_field_shift(result.field)))
+        makers.append(("field-shift.png", lambda: plots.tolerance.plot_field_shift(result.field)))
     out = []
     for name, make in makers:
         fig = make()  # a pyplot-free Figure: freed with its last reference
