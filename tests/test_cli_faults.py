@@ -45,6 +45,7 @@ def test_stdout_on_a_full_device(argv):
 class TestDiskFull:
     def test_plots_on_a_full_disk(self, tmp_path, capsys, monkeypatch):
         """A full disk while writing tolerance --plots: one line, exit 2, no PNG and no staging folder left."""
+        import workbench.cli.commands.tolerance as command
         import workbench.fileio.atomic as atomic
 
         real = atomic.write_atomically
@@ -56,7 +57,7 @@ class TestDiskFull:
                 raise atomic.InputFileError(f"cannot write: {os.strerror(errno.ENOSPC)}", str(target))
             return real(target, write)
 
-        monkeypatch.setattr(atomic, "write_atomically", full)
+        monkeypatch.setattr(command, "write_atomically", full)
         plots = tmp_path / "plots"
         code = main(["tolerance", DESIGN, "--trials", "20", "--quiet", "--no-field", "--plots", str(plots)])
         err = capsys.readouterr().err
@@ -87,7 +88,7 @@ class TestNames:
 
 @pytest.mark.slow
 def test_sigterm_during_fit(tmp_path):
-    """SIGTERM during `fit --out`: status 130, 'interrupted', the folder not written and no staging left."""
+    """SIGTERM during `fit --out`: status 130, the folder absent or one complete set, no staging left."""
     out = tmp_path / "out"
     proc = subprocess.Popen([sys.executable, "-m", "workbench.cli.main", "fit", DESIGN, "--out", str(out), "--quiet"],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
@@ -97,8 +98,16 @@ def test_sigterm_during_fit(tmp_path):
         time.sleep(0.05)
     proc.send_signal(signal.SIGTERM)
     _, err = proc.communicate(timeout=120)
-    assert proc.returncode == 130 and "interrupted" in err and "Traceback" not in err
-    assert sorted(p.name for p in tmp_path.iterdir()) == [".out.lock"]
+    assert proc.returncode == 130 and "Traceback" not in err
+    # during the optimisation SIGTERM stops the fit, which keeps its best point and writes it (status 130);
+    # later it abandons the run: either way the folder is one complete set or absent, with no staging left
+    names = sorted(p.name for p in tmp_path.iterdir())
+    if names == [".out.lock"]:
+        assert "interrupted" in err
+    else:
+        from workbench.fileio.outdir import MANIFEST
+
+        assert names == [".out.lock", "out"] and (out / MANIFEST).exists()
 
 
 def test_second_run_on_a_locked_folder(tmp_path, capsys):
