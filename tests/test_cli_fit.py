@@ -109,7 +109,7 @@ class TestFitStatus:
 
     def test_stopped_by_the_user(self, tmp_path, capsys, demo_design_path, monkeypatch):
         """Ctrl-C during the search: status 3 'stopped', the best point so far written, exit 130."""
-        from workbench.analysis.fit import _Objective as Obj
+        from workbench.analysis.fit_objective import Objective as Obj
 
         calls = {"n": 0}
         residuals = Obj.__call__
@@ -127,7 +127,7 @@ class TestFitStatus:
 
     def test_infeasible(self, tmp_path, capsys, demo_design_path, monkeypatch):
         """No evaluation gives a finite residual: status 4 'infeasible', exit 5."""
-        from workbench.analysis.fit import _Objective as Obj
+        from workbench.analysis.fit_objective import Objective as Obj
 
         monkeypatch.setattr(Obj, "__call__", lambda self, x: np.full((np.atleast_2d(x).shape[0], 4), np.nan))
         rc, m, cap = self._run(tmp_path, capsys, demo_design_path)

@@ -478,7 +478,7 @@ class TestAcrossIlluminants:
 
     def test_worst_residual_sums_to_the_smooth_maximum(self, demo_de):
         """Σ r² = (Σ_j m_j^p)^(1/p) of the per-illuminant weighted means, between max and J^(1/p)·max."""
-        from workbench.analysis.fit import WORST_P, _Objective
+        from workbench.analysis.fit_objective import WORST_P, Objective as _Objective
 
         _, ev = demo_de
         obj = _Objective(ev, across="worst")
@@ -491,7 +491,7 @@ class TestAcrossIlluminants:
 
     def test_weights_scale_the_illuminant_blocks(self, demo_de):
         """With weights ω the cost is Σ_j (ω_j/Σω)·RMS_j² (sample-weighted RMS ΔE00 per illuminant)."""
-        from workbench.analysis.fit import _Objective
+        from workbench.analysis.fit_objective import Objective as _Objective
 
         _, ev = demo_de
         names = ev.bench.illuminant_names
@@ -538,7 +538,7 @@ class TestAcrossIlluminants:
 @pytest.fixture(scope="module")
 def front(tmp_path_factory):
     """A 4-point front of the recovery design made inexact (its edge blocks 0.1, the QE assumes 0.3)."""
-    from workbench.analysis.fit import fit_front
+    from workbench.analysis.fit_modes import fit_front
 
     p = _recovery_design(tmp_path_factory.mktemp("front"))
     p.write_text(p.read_text().replace("block_level = 0.3", "block_level = 0.1"))
@@ -578,7 +578,7 @@ class TestFront:
 
     def test_delta_e_matrix_refused(self, tmp_path):
         """A ΔE00 matrix has no noise-only end: refused in one line."""
-        from workbench.analysis.fit import fit_front
+        from workbench.analysis.fit_modes import fit_front
 
         p = _recovery_design(tmp_path)
         p.write_text(p.read_text().replace('objective = "vora"', 'objective = "mean-delta-e00"\nmatrix = "delta-e00"'))
@@ -596,7 +596,8 @@ class TestRobust:
         """E f(x + δ) = f(x) + tr(HΣ)/2 for f(x) = (x − a)ᵀH(x − a)/2, δ ~ N(0, Σ); the optimum stays at a."""
         # E[(x+δ−a)ᵀH(x+δ−a)]/2 = (x−a)ᵀH(x−a)/2 + E[δᵀHδ]/2 = f(x) + tr(HΣ)/2
         # (Petersen & Pedersen, The Matrix Cookbook, 2012, eq. 318)
-        from workbench.analysis.fit import _local_quasi_newton, _Tracker, tail_residuals
+        from workbench.analysis.fit import _local_quasi_newton, _Tracker
+        from workbench.analysis.fit_objective import tail_residuals
 
         rng = np.random.default_rng(5)
         A = rng.normal(size=(3, 3))
@@ -632,7 +633,7 @@ class TestRobust:
 
     def test_tail_residuals_mean_of_the_worst(self):
         """With a percentile P the cost is the mean of the worst (100 − P) % of the scores."""
-        from workbench.analysis.fit import tail_residuals
+        from workbench.analysis.fit_objective import tail_residuals
 
         u = np.array([[1.0, 5.0, 2.0, 4.0, 3.0]])
         r = tail_residuals(u, 60.0)
@@ -641,7 +642,7 @@ class TestRobust:
 
     def test_no_tolerances_refused(self, tmp_path):
         """A design with no toleranced parameter cannot be fitted robustly: one line."""
-        from workbench.analysis.fit import check_robust
+        from workbench.analysis.fit_modes import check_robust
 
         p = _recovery_design(tmp_path)
         p.write_text(p.read_text() + "[tolerance]\nmax_mean_delta_E00 = 1.0\n")
@@ -653,7 +654,7 @@ class TestRobust:
 
     def test_no_tolerance_section_refused(self, tmp_path):
         """A design without a [tolerance] specification has nothing to judge the yield against: one line."""
-        from workbench.analysis.fit import check_robust
+        from workbench.analysis.fit_modes import check_robust
 
         d = load_design(_recovery_design(tmp_path))
         with pytest.raises(WorkbenchError) as e:
@@ -665,7 +666,7 @@ class TestRobust:
     @pytest.mark.parametrize("p", [0, 100, -5, 150.0])
     def test_percentile_outside_0_100(self, demo_design, p):
         """A percentile outside (0, 100) is refused."""
-        from workbench.analysis.fit import check_robust
+        from workbench.analysis.fit_modes import check_robust
 
         with pytest.raises(WorkbenchError) as e:
             check_robust(demo_design, percentile=p)

@@ -42,9 +42,9 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from workbench.analysis import fit as fit_module  # noqa: E402
 from workbench.analysis.evaluator import DesignEvaluator  # noqa: E402
 from workbench.analysis.fit import fit_design  # noqa: E402
+from workbench.analysis.fit_objective import Objective  # noqa: E402
 from workbench.fileio.design_toml import load_design  # noqa: E402
 
 DESIGN = """\
@@ -173,7 +173,7 @@ def reference_search(design, seconds: float, seed: int = 1) -> float:
     from scipy.optimize import differential_evolution
 
     ev = DesignEvaluator(design)
-    obj = fit_module._Objective(ev)
+    obj = Objective(ev)
     lo, hi = ev.lower, ev.upper
     t0 = time.perf_counter()
     best = {"cost": np.inf, "x": None}

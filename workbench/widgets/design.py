@@ -69,15 +69,15 @@ __all__ = ["measures_html", "DesignPanel", "design_panel"]
 
 
 def _fitting():
-    """:mod:`workbench.analysis.fit`, imported when a fit is first asked for.
+    """:mod:`workbench.analysis.fit_modes` (every fit entry point), imported when a fit is first asked for.
 
     Late on purpose: it imports scipy.optimize and scipy.stats (about a
     second on a busy 2-core machine), which the panel's first figure does
     not need.
     """
-    from workbench.analysis import fit  # late: scipy.optimize and scipy.stats (see above)
+    from workbench.analysis import fit_modes  # late: scipy.optimize and scipy.stats (see above)
 
-    return fit
+    return fit_modes
 
 
 def _nice_step(lo: float, hi: float, parts: int = 2000) -> float:

@@ -43,8 +43,8 @@ import math
 from dataclasses import replace
 from pathlib import Path
 
-from workbench.analysis.fit import (FRONT_METHOD, check_fit_options, check_front, check_robust, fit_design,
-                                    fit_front, fit_robust)
+from workbench.analysis.fit import check_fit_options, fit_design
+from workbench.analysis.fit_modes import FRONT_METHOD, check_front, check_robust, fit_front, fit_robust
 from workbench.cli.commands._output import atomic_write_text, notice, render_rows, to_json
 from workbench.errors import WorkbenchError
 from workbench.fileio.design_toml import load_design
