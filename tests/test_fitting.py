@@ -14,8 +14,8 @@ from workbench.analysis.camera import (ColourBench, bradford_matrix, least_squar
 from workbench.colorimetry.cie import cmfs_on, illuminant_on
 from workbench.fileio.design_toml import load_design
 from workbench.errors import WorkbenchError
-from workbench.analysis.evaluator import (DesignEvaluator, load_camera, luther_residual, noise_report,
-                                          sensitivity_metamerism_index)
+from workbench.analysis.evaluator import DesignEvaluator, load_camera
+from workbench.analysis.measures_report import luther_residual, noise_report, sensitivity_metamerism_index
 from workbench.analysis.fit import FitStatus, fit_design
 from workbench.analysis.measures import neugebauer_q, vora_value
 from workbench.colorimetry.primaries import primaries_named

@@ -14,7 +14,8 @@ from dataclasses import replace
 
 import numpy as np
 
-from workbench.analysis.evaluator import DesignEvaluator, Measures
+from workbench.analysis.evaluator import DesignEvaluator
+from workbench.analysis.measures_report import Measures
 from workbench.analysis.fit import check_fit_options, fit_design
 from workbench.analysis.fit_objective import Objective
 from workbench.analysis.fit_result import FitResult

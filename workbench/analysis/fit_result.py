@@ -13,7 +13,7 @@ from enum import IntEnum
 
 import numpy as np
 
-from workbench.analysis.evaluator import Measures
+from workbench.analysis.measures_report import Measures
 from workbench.model.design import CHANNELS, Design
 from workbench.optics.kinds import element_param_spec
 from workbench.report.html import fit_result_html

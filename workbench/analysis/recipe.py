@@ -568,7 +568,7 @@ def measures_with_curves(evaluator, element: str, R, T, *, reflects: str = "none
 
     ``R`` and ``T`` (n,) on the evaluator's grid: the ``reflects`` path gets
     R, the other ``paths`` (default the element's own) get T. Returns the
-    full :class:`workbench.analysis.evaluator.Measures` (matrix fitted as the
+    full :class:`workbench.analysis.measures_report.Measures` (matrix fitted as the
     design's ``[fit]`` says); the caller's evaluator is not changed.
     """
     curves = evaluator.model.element_curves()

@@ -55,7 +55,8 @@ from dataclasses import replace
 
 import numpy as np
 
-from workbench.analysis.evaluator import DesignEvaluator, noise_report
+from workbench.analysis.evaluator import DesignEvaluator
+from workbench.analysis.measures_report import noise_report
 from workbench.analysis.progress import progress_bar
 from workbench.analysis.tolerance_draws import (
     check_trials_seed,

@@ -8,7 +8,7 @@ inches, not under a layout engine, and titles at a fixed height (``y=1``;
 no tick labels sit above an axes here), so no drawing pass is spent
 measuring texts.
 
-The inputs are :class:`workbench.analysis.evaluator.Measures` values (one design
+The inputs are :class:`workbench.analysis.measures_report.Measures` values (one design
 state each) and, for :func:`plot_noise_vs_accuracy`, plain mappings
 (see :func:`workbench.report.fit_report.noise_accuracy_points`).
 """

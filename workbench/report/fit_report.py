@@ -31,7 +31,8 @@ import numpy as np
 
 from workbench import __version__
 from workbench.analysis.camera import MATRIX_METHODS
-from workbench.analysis.evaluator import DesignEvaluator, noise_report
+from workbench.analysis.evaluator import DesignEvaluator
+from workbench.analysis.measures_report import noise_report
 from workbench.analysis.fit_objective import WORST_P
 from workbench.analysis.fit_result import BOUND_COSTS_METHOD, parameter_unit
 from workbench.analysis.measures import vora_value

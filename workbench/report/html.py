@@ -88,7 +88,7 @@ def html_table(rows, columns, *, headers=None, cls: str = "", caption: str = "")
 
 
 def measures_html(m) -> str:
-    """The measures of one design state (:class:`workbench.analysis.evaluator.Measures`)."""
+    """The measures of one design state (:class:`workbench.analysis.measures_report.Measures`)."""
     rows = "".join(
         f"<tr><td>{escape(ill)}</td><td>{d['mean']:.3f}</td><td>{d['median']:.3f}</td>"
         f"<td>{d['p95']:.3f}</td><td>{d['max']:.3f}</td></tr>"

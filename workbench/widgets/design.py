@@ -47,7 +47,8 @@ from workbench.model.design import CHANNELS, Design
 from workbench.optics.kinds import element_param_spec
 from workbench.fileio.design_toml import load_design, save_design
 from workbench.errors import WorkbenchError
-from workbench.analysis.evaluator import DesignEvaluator, Measures, fitted_matrix
+from workbench.analysis.evaluator import DesignEvaluator, fitted_matrix
+from workbench.analysis.measures_report import Measures
 from workbench.fileio.spectra_csv import write_spectra_csv
 from workbench.model.spectra import Spectra
 from workbench.widgets.common import (

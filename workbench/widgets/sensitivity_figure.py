@@ -49,7 +49,7 @@ class SensitivityFigure:
 
     Notes
     -----
-    The responses are :attr:`workbench.analysis.evaluator.Measures.curves`: the
+    The responses are :attr:`workbench.analysis.measures_report.Measures.curves`: the
     camera's R, G, B after white balance and matrix under the curve
     illuminant, on the scale of the targets (Σ target·E = 1 for the
     white), so response − target is the colour error per wavelength. All
