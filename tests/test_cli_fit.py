@@ -168,7 +168,8 @@ class TestFitStatus:
         (["--illuminant-weight", "moon=2"],
          "error: 'illuminant weight moon' must name one of the fit's illuminants (daylight, tungsten, "
          "stage-led) (got 'moon')"),
-        (["--front", "1"], "error: '--front' must be a whole number of points >= 2 (got 1)"),
+        (["--front", "1"], "error: '--front' must be a whole number of points 2-100 (got 1)"),
+        (["--front", "100000"], "error: '--front' must be a whole number of points 2-100 (got 100000)"),
         (["--robust", "--robust-percentile", "100"],
          "error: '--robust-percentile' must be a number in (0, 100) (got 100.0)"),
         (["--robust", "--robust-percentile", "0"], "error: '--robust-percentile' must be a number in (0, 100) (got 0.0)"),

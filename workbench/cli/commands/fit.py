@@ -76,7 +76,7 @@ def register(subparsers) -> None:
                    help="weight of one illuminant in the mean-delta-e00 objective, > 0 (repeatable; "
                         "default: the design's [fit.illuminant_weights], else 1)")
     p.add_argument("--front", type=int, default=None, metavar="N",
-                   help="also fit N >= 2 points along the trade-off between mean ΔE00 and noise gain; "
+                   help="also fit N (2-100) points along the trade-off between mean ΔE00 and noise gain; "
                         "writes front.csv and plots the front in the report (each point has the budget)")
     p.add_argument("--robust", action="store_true",
                    help="fit the design that survives its tolerances: the expected worst-light mean ΔE00 over "
@@ -184,6 +184,9 @@ def metrics(result) -> dict:
     return out
 
 
+#: The most points ``--front`` fits: each is a whole fit with the full budget (100000 ran for hours).
+FRONT_MAX_POINTS = 100
+
 FILES = ("design.toml", "sensitivities.csv", "matrix.csv", "metrics.json", "report.html", "front.csv")
 
 
@@ -239,8 +242,8 @@ def _print_summary(design, result) -> None:
 def run(args) -> int:
     if args.max_evaluations is not None and args.max_evaluations < 1:
         raise WorkbenchError(f"'--max-evaluations' must be a whole number >= 1 (got {args.max_evaluations})")
-    if args.front is not None and args.front < 2:
-        raise WorkbenchError(f"'--front' must be a whole number of points >= 2 (got {args.front})")
+    if args.front is not None and not 2 <= args.front <= FRONT_MAX_POINTS:
+        raise WorkbenchError(f"'--front' must be a whole number of points 2-{FRONT_MAX_POINTS} (got {args.front})")
     if args.time_limit is not None and not (math.isfinite(args.time_limit) and args.time_limit > 0):
         raise WorkbenchError(f"'--time-limit' must be a number of seconds > 0 (got {args.time_limit:g})")
     if args.seed is not None and not 0 <= args.seed < 2**32:
