@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 
 from workbench.optics import elements as optics
+from workbench.optics import splitter
 from workbench.errors import WorkbenchError
 
 WL = np.arange(380.0, 781.0, 1.0)
@@ -134,14 +135,14 @@ class TestEdges:
 
 
 class TestSplitter:
-    @pytest.mark.parametrize("order", optics.SPLITTER_ORDERS)
+    @pytest.mark.parametrize("order", splitter.SPLITTER_ORDERS)
     @pytest.mark.parametrize("aoi", [0.0, 10.0, 25.0, 45.0])
     @pytest.mark.parametrize("f_number", [None, 1.4, 4.0])
     @pytest.mark.parametrize("loss", [0.0, 0.03])
     def test_energy_conservation(self, order, aoi, f_number, loss):
         """The three paths plus the stated loss equal the input at every wavelength and angle."""
         # common practice: a lossless dielectric splitter conserves energy
-        paths, lost = optics.dichroic_splitter(
+        paths, lost = splitter.dichroic_splitter(
             WL, blue_green_nm=np.array([500.0, 520.0]), green_red_nm=590.0,
             blue_green_aoi_deg=aoi, green_red_aoi_deg=aoi / 2, n_eff_s=1.9, n_eff_p=1.6,
             medium_index=1.52 if aoi < 40 else 1.0, f_number=f_number, loss=loss, order=order)
@@ -156,7 +157,7 @@ class TestSplitter:
     def test_chief_ray_shift(self):
         """Without a cone the blue path is 50 % at the shifted edge λ₀√(1 − (n₀ sinθ/n_eff)²)."""
         lam = float(optics.angle_shifted_wavelength(520.0, 25.0, 1.8, 1.52))
-        paths, _ = optics.dichroic_splitter(
+        paths, _ = splitter.dichroic_splitter(
             np.array([lam - 1, lam, lam + 1]), blue_green_nm=520.0, green_red_nm=640.0,
             blue_green_aoi_deg=25.0, medium_index=1.52, n_eff_s=1.8)
         assert abs(paths[2, 1] - 0.5) < 1e-6  # B path
@@ -166,9 +167,9 @@ class TestSplitter:
         """A slow lens (f/64) gives almost the chief-ray split; a fast one moves the edge further."""
         kw = dict(blue_green_nm=520.0, green_red_nm=600.0, blue_green_aoi_deg=0.0,
                   green_red_aoi_deg=0.0, n_eff_s=1.8)
-        chief, _ = optics.dichroic_splitter(WL, **kw)
-        slow, _ = optics.dichroic_splitter(WL, **kw, f_number=64.0)
-        fast, _ = optics.dichroic_splitter(WL, **kw, f_number=1.0)
+        chief, _ = splitter.dichroic_splitter(WL, **kw)
+        slow, _ = splitter.dichroic_splitter(WL, **kw, f_number=64.0)
+        fast, _ = splitter.dichroic_splitter(WL, **kw, f_number=1.0)
         assert np.max(np.abs(slow - chief)) < 1e-3
         # at normal incidence every cone ray is tilted: the edge moves to the blue
         i = np.argmin(np.abs(WL - 520.0))
@@ -176,7 +177,7 @@ class TestSplitter:
 
     def test_quadrature(self):
         """Pupil-area weights: Σw = 1, Σw r² = 1/2, Σw r⁴ = 1/3 (uniform disc moments)."""
-        r, phi, w = optics.cone_quadrature(4, 8)
+        r, phi, w = splitter.cone_quadrature(4, 8)
         assert np.isclose(w.sum(), 1.0)
         assert np.isclose((w * r ** 2).sum(), 0.5)
         assert np.isclose((w * r ** 4).sum(), 1 / 3)
@@ -186,16 +187,16 @@ class TestSplitter:
         """n_eff_p equal to n_eff_s gives the same split as n_eff alone."""
         kw = dict(blue_green_nm=520.0, green_red_nm=600.0, blue_green_aoi_deg=20.0,
                   n_eff_s=1.7, f_number=2.0)
-        a, _ = optics.dichroic_splitter(WL, **kw)
-        b, _ = optics.dichroic_splitter(WL, **kw, n_eff_p=1.7)
+        a, _ = splitter.dichroic_splitter(WL, **kw)
+        b, _ = splitter.dichroic_splitter(WL, **kw, n_eff_p=1.7)
         np.testing.assert_allclose(a, b, rtol=1e-14)
 
     def test_order(self):
         """Blue first and red first give the same bands for sharp, separated edges at 0°."""
         kw = dict(blue_green_nm=500.0, green_red_nm=600.0, blue_green_width_nm=2.0,
                   green_red_width_nm=2.0)
-        a, _ = optics.dichroic_splitter(WL, **kw, order="blue-first")
-        b, _ = optics.dichroic_splitter(WL, **kw, order="red-first")
+        a, _ = splitter.dichroic_splitter(WL, **kw, order="blue-first")
+        b, _ = splitter.dichroic_splitter(WL, **kw, order="red-first")
         np.testing.assert_allclose(a, b, atol=1e-9)
         with pytest.raises(WorkbenchError, match="order"):
-            optics.dichroic_splitter(WL, **kw, order="green-first")
+            splitter.dichroic_splitter(WL, **kw, order="green-first")

@@ -97,7 +97,7 @@ class TestIdealisedFaceReflectance:
 
         from workbench.analysis.recipe import idealised_face_reflectance
         from workbench.model.design import Param
-        from workbench.optics.elements import dichroic_splitter
+        from workbench.optics.splitter import dichroic_splitter
 
         el = next(e for e in demo_design.chain if e.type == "dichroic-splitter")
         el = replace(el, params=tuple((k, Param(0.0) if k == "loss" else p) for k, p in el.params))

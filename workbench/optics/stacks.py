@@ -34,7 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from workbench.errors import WorkbenchError
-from workbench.optics.elements import distinct_rays, ray_angles
+from workbench.optics.splitter import distinct_rays, ray_angles
 from workbench.optics.materials import Material, material_named
 from workbench.optics.thinfilm import StackResponse, stack_response
 
@@ -211,7 +211,7 @@ def cone_rays(aoi_deg, f_number, medium_index: float, *, rings: int = 4, azimuth
         Index of the incidence medium (the cone's half-angle obeys
         ``n sin α = 1/(2N)``).
     rings, azimuths : int
-        The pupil quadrature (:func:`workbench.optics.elements.cone_quadrature`),
+        The pupil quadrature (:func:`workbench.optics.splitter.cone_quadrature`),
         rays of equal angle merged.
 
     Returns

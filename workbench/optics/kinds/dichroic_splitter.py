@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from workbench.optics import elements as optics
+from workbench.optics import splitter
 from workbench.optics.kinds.registry import (
     EDGE_WIDTH, CurveInput, ElementKind, OptionSpec, ParamSpec, register_kind,
 )
@@ -15,7 +16,7 @@ _AOI = ParamSpec(0.0, 80.0, False, False, "deg", 0.0, meaning="chief-ray angle o
 
 
 def _curve(x: CurveInput):
-    paths, _ = optics.dichroic_splitter(
+    paths, _ = splitter.dichroic_splitter(
         x.wavelengths, **x.params, order=x.option("order"), shape=x.option("shape"),
         rings=x.option("rings"), azimuths=x.option("azimuths"))
     return paths
@@ -46,7 +47,7 @@ KIND = register_kind(ElementKind(
         "loss": ParamSpec(0.0, 1.0, False, True, "", 0.0, meaning="loss per surface"),
     },
     options={
-        "order": OptionSpec(optics.SPLITTER_ORDERS, default="blue-first", meaning="which face comes first"),
+        "order": OptionSpec(splitter.SPLITTER_ORDERS, default="blue-first", meaning="which face comes first"),
         "shape": OptionSpec(optics.EDGE_SHAPES, default="logistic", meaning="edge profile"),
         "rings": OptionSpec("count", default=4, meaning="quadrature rings over the cone"),
         "azimuths": OptionSpec("count", default=8, meaning="quadrature azimuths over the cone"),
