@@ -174,7 +174,7 @@ class TestRenderCommand:
 
     def test_interrupt_exits_130_and_writes_nothing(self, tmp_path, capsys, gaussian_csv, monkeypatch, out_dir):
         """Ctrl-C during the render ends with status 130 and leaves no output files."""
-        import workbench.analysis.render as scale
+        import workbench.analysis.render_dask as scale
 
         def interrupted(pipeline, block, images):
             raise KeyboardInterrupt

@@ -18,12 +18,11 @@ from workbench.colorimetry.primaries import primaries_named
 from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
 from workbench.analysis.render import (
     BatchPipeline,
-    delta_e00_dask,
-    render_dask,
     render_in_memory,
     srgb_encode,
     to_srgb8,
 )
+from workbench.analysis.render_dask import delta_e00_dask, render_dask
 from workbench.fileio.spectral_cube import (
     MAX_AUTO_CHUNK,
     MIN_AUTO_CHUNK,
@@ -354,7 +353,7 @@ class TestRenderDask:
 
     def test_interrupt_propagates(self, tmp_path, gaussian_camera, image, monkeypatch):
         """Ctrl-C inside a chunk stops the render with KeyboardInterrupt (nothing returned)."""
-        import workbench.analysis.render as scale
+        import workbench.analysis.render_dask as scale
 
         calls = []
 

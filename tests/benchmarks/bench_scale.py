@@ -97,7 +97,7 @@ def child_memory(args) -> dict:
     t_load = time.perf_counter() - t0
     base = _rss()
     workers = os.cpu_count() or 1
-    from workbench.analysis.render import render_dask
+    from workbench.analysis.render_dask import render_dask
     from workbench.fileio.spectral_cube import auto_chunk_bytes, open_cube
 
     cube = open_cube(args.path)
@@ -121,7 +121,7 @@ def child_memory(args) -> dict:
 
 
 def child_dask(args) -> dict:
-    from workbench.analysis.render import render_dask
+    from workbench.analysis.render_dask import render_dask
     from workbench.fileio.spectral_cube import auto_chunk_bytes, open_cube
 
     p = _pipeline()

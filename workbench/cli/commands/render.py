@@ -34,7 +34,8 @@ import psutil
 
 from workbench import plots  # its modules (and matplotlib) load on first use, when a figure is drawn
 from workbench.analysis.evaluator import load_camera
-from workbench.analysis.render import BatchPipeline, load_dask, load_distributed, render_dask
+from workbench.analysis.render import BatchPipeline
+from workbench.analysis.render_dask import load_dask, load_distributed, render_dask
 from workbench.cli.commands._output import notice, to_json
 from workbench.colorimetry.cie import illuminant_on
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
