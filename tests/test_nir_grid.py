@@ -180,6 +180,20 @@ class TestEdgeSampling:
             d.model()
         assert [w.category for w in caught] == [CoarseGridWarning]
 
+    @pytest.mark.slow  # a whole fit with its report, in a process of its own
+    def test_command_line_shows_it_once(self, tmp_path):
+        """The fit's stages (fit, report) each raise the demo fit's coarse-grid warning; the command prints it once."""
+        import subprocess
+        import sys
+
+        run = subprocess.run([sys.executable, "-m", "workbench", "fit", str(DEMO), "--out", str(tmp_path / "o"),
+                              "--quiet"], capture_output=True, text=True, timeout=600)
+        assert run.returncode == 0, run.stderr[-500:]
+        warned = [line for line in run.stderr.splitlines() if line.startswith("warning:")]
+        assert warned == ["warning: CoarseGridWarning: grid.step_nm = 5 nm leaves fewer than 2 grid points across "
+                          "the narrowest edge, chain[7] 'blue-trim'.width_nm = 8 nm (10-90 %); use step_nm ≤ 4 nm "
+                          "for edges this sharp"]
+
     def test_demo_grid_is_fine(self):
         """The demo's 5 nm grid samples its narrowest edge (18 nm) with 3.6 points: no warning."""
         from workbench.optics.chain import check_edge_sampling

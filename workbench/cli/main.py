@@ -261,10 +261,14 @@ def main(argv: list[str] | None = None) -> int:
                 signal.signal(signal.SIGTERM, old_term)
             sys.stdout, sys.stderr = out, err
         if code in (0, 1):
+            shown = set()
             for w in caught:
+                line = printable(f"warning: {w.category.__name__}: {w.message}", one_line=True)
+                if line in shown:  # the same warning from several stages (loading, evaluating, fitting): once
+                    continue
+                shown.add(line)
                 try:
-                    print(printable(f"warning: {w.category.__name__}: {w.message}", one_line=True),
-                          file=err)
+                    print(line, file=err)
                 except OSError:
                     pass
     return code
