@@ -9,6 +9,13 @@ note starting ``read <file>:`` so a command line can print them on stderr.
 Anything it cannot read unambiguously is an :class:`InputFileError` naming
 the file, the 1-based line of the original file and the column.
 
+Over 600 lines for a reason: the header rules (layout, delimiter, decimal
+mark, wavelength unit, percent, kind and units) and the two ways of parsing
+the numbers (cell by cell, which names the exact line and column of every
+problem, and the bulk path for large wide tables, which hands any doubt back
+to it) share the same sniffing and cell rules; apart, each would have to
+import the other's private rules.
+
 The rules
 ---------
 Text

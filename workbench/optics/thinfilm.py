@@ -8,6 +8,12 @@ with respect to every layer thickness. It is vectorised over wavelengths ×
 angles × polarisations × any number of stacks at once (leading batch axes):
 the only Python loop runs over the layers.
 
+Over 600 lines for a reason: the general complex path, the real-arithmetic
+path for lossless stacks, the incoherent back surface and the analytic
+thickness derivatives share the per-material admittances, phase factors and
+scratch buffers; they stay together so that every path is checked against
+the same conventions.
+
 Conventions
 -----------
 * Complex index ``N = n + i k`` with ``k ≥ 0`` for absorption (time factor
