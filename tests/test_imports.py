@@ -101,3 +101,11 @@ class TestCommandListing:
         from workbench.cli.main import build_parser
 
         assert build_parser(["-h", "evaluate"]).format_help() == build_parser().format_help()
+
+    def test_limit_defaults_written_out(self):
+        """The --limit help gives each default as a plain number (16777216, not 1.67772e+07)."""
+        from workbench.cli.main import build_parser
+
+        text = " ".join(build_parser().format_help().split())
+        assert "spectra 1000000, trials 1000000, chunk_pixels 16777216" in text
+        assert "e+0" not in text

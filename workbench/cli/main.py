@@ -156,7 +156,7 @@ def build_parser(argv: list[str] | None = None) -> argparse.ArgumentParser:
     parser.add_argument(
         "--limit", metavar="NAME=VALUE", action="append", default=[],
         help="raise an input limit for this run, e.g. --limit trials=5000000 (names: "
-        + ", ".join(f"{k} {v:g}" for k, v in _limits.Limits().__dict__.items())
+        + ", ".join(f"{k} {v:.10g}" for k, v in _limits.Limits().__dict__.items())
         + "; also WORKBENCH_LIMITS)",
     )
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
