@@ -109,3 +109,16 @@ class TestCommandListing:
         text = " ".join(build_parser().format_help().split())
         assert "spectra 1000000, trials 1000000, chunk_pixels 16777216" in text
         assert "e+0" not in text
+
+    def test_no_markup_in_command_help(self):
+        """No command's --help shows reStructuredText markup (``…``) taken from a docstring."""
+        import contextlib
+        import io
+
+        from workbench.cli.main import build_parser, command_names
+
+        for name in command_names():
+            out = io.StringIO()
+            with contextlib.redirect_stdout(out), contextlib.suppress(SystemExit):
+                build_parser([name, "--help"]).parse_args([name, "--help"])
+            assert "``" not in out.getvalue(), name

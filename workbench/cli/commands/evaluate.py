@@ -32,7 +32,7 @@ def register(subparsers) -> None:
     p = subparsers.add_parser(
         NAME,
         help="channel sensitivities and Vora value of a design file",
-        description=__doc__.splitlines()[0],
+        description=__doc__.splitlines()[0].replace("``", ""),
     )
     p.add_argument("design", metavar="DESIGN.toml", help="design file (docs/design-file.md)")
     p.add_argument("--format", choices=("json", "table"), default="table",

@@ -59,7 +59,7 @@ def register(subparsers) -> None:
     p = subparsers.add_parser(
         NAME,
         help="fit a design's free parameters and colour-correction matrix; write the results",
-        description=__doc__.splitlines()[0],
+        description=__doc__.splitlines()[0].replace("``", ""),
     )
     p.add_argument("design", metavar="DESIGN.toml", help="design file (docs/design-file.md)")
     p.add_argument("--out", metavar="DIR", required=True, type=Path,

@@ -33,7 +33,7 @@ def register(subparsers) -> None:
     p = subparsers.add_parser(
         NAME,
         help="indices of a light source, its camera fidelity index, two fixtures compared",
-        description=__doc__.splitlines()[0],
+        description=__doc__.splitlines()[0].replace("``", ""),
     )
     p.add_argument("spd", metavar="SPD.csv", help="the light's spectral power distribution (CSV, one spectrum)")
     p.add_argument("--format", choices=("table", "json"), default="table",

@@ -58,7 +58,7 @@ def register(subparsers) -> None:
     p = subparsers.add_parser(
         NAME,
         help="render a spectral image or set through a camera design: images, ΔE00 map and summary",
-        description=__doc__.splitlines()[0],
+        description=__doc__.splitlines()[0].replace("``", ""),
     )
     p.add_argument("design", metavar="DESIGN.toml",
                    help="design file (docs/design-file.md) or a CSV of three sensitivities R, G, B")

@@ -51,7 +51,7 @@ def register(subparsers) -> None:
     p = subparsers.add_parser(
         NAME,
         help="Monte Carlo tolerance analysis: ΔE00, ν, yield, ranking of tolerances, shift across the field",
-        description=__doc__.splitlines()[0],
+        description=__doc__.splitlines()[0].replace("``", ""),
     )
     p.add_argument("design", metavar="DESIGN.toml", help="design file (docs/design-file.md)")
     p.add_argument("--trials", type=int, default=2000, metavar="N", help="simulated units (default 2000)")
