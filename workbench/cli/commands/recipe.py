@@ -176,7 +176,8 @@ def run(args) -> int:
                 header.append(f"# layer errors ({t['settings']['trials']} trials, 1 % random, 0.5 % systematic, "
                               f"0.5 % index): edge shift p5/p50/p95 "
                               + ("-" if shift is None else f"{shift['p5']:+.2f}/{shift['p50']:+.2f}/{shift['p95']:+.2f} nm")
-                              + f"; layers that matter most: {top}")
+                              + f"; layers that matter most (each one's first-order share of the variance of R, "
+                              f"from the analytic thickness derivatives): {top}")
             rows = [{"layer": r["layer"], "material": r["material"], "thickness_nm": r["thickness_nm"],
                      "qwot": r["qwot"]} for r in f.recipe.table()]
             blocks.append(render_rows(rows, _COLUMNS, "csv" if args.format == "csv" else "table",
