@@ -112,6 +112,22 @@ class TestHeaderKinds:
         assert s.kind == kind
         assert any("header rule: T, Ti, τ" in n for n in s.notes)
 
+    @pytest.mark.parametrize("unit", ["W/(m2 nm)", "photons/(s m2 nm)"])
+    def test_absolute_units_in_metadata_say_emission(self, tmp_path, unit):
+        """A metadata units line in spectral irradiance makes an unnamed column an emission spectrum."""
+        p = tmp_path / "lamp.csv"
+        p.write_text(f"Units,{unit}\nwavelength_nm,lamp\n400,2e14\n500,3e14\n600,4e14\n", encoding="utf-8")
+        s = read_spectra_csv(p)
+        assert s.kind == "emission" and s.values.max() == 4e14  # no percent or plausibility repair
+        assert any("kind emission taken from the metadata line 1" in n for n in s.notes)
+        assert read_light(p).kind == "emission"
+
+    def test_relative_units_in_metadata_say_nothing(self, tmp_path):
+        """'counts' in a metadata line names no kind: the unsaid rule stands."""
+        p = tmp_path / "k.csv"
+        p.write_text("Units,counts\nwavelength_nm,a\n400,0.5\n500,0.6\n600,0.7\n", encoding="utf-8")
+        assert read_spectra_csv(p).kind == "reflectance"
+
     def test_rgb_channels_are_not_reflectance(self, tmp_path):
         """R, G, B columns are channel names, not the reflectance symbol."""
         p = tmp_path / "k.csv"

@@ -20,7 +20,7 @@ from workbench.fileio.spectra_csv import KIND_UNSAID_NOTE
 
 __all__ = ["kind_said", "require_kind", "read_for"]
 
-_TAKEN_FROM = re.compile(r"kind (?P<kind>\w+) taken from (?P<by>the header '.*?'|the header \".*?\")")
+_TAKEN_FROM = re.compile(r"kind (?P<kind>\w+) taken from (?P<by>the header '.*?'|the header \".*?\"|the metadata line \d+)")
 
 
 def kind_said(s: Spectra) -> tuple[str | None, str | None]:

@@ -1113,6 +1113,10 @@ class _Reader:
             if self.directive is None:
                 self.note(f"kind {file_kind} taken from {said_by}")
                 self.note(KIND_RULE)
+        elif self._metadata_says_emission():
+            self.kind = "emission"
+            self.note(f"kind emission taken from the metadata line {self.metadata_units[1]} "
+                      f"(units {self.metadata_units[0]!r} are spectral irradiance or radiance)")
         else:
             self.kind = "reflectance"
             self.note(KIND_UNSAID_NOTE)
@@ -1120,6 +1124,15 @@ class _Reader:
         self.stated_units = None
         if self.directive is not None and self.directive[0] == self.kind:
             self.stated_units = self.directive[1]
+
+    def _metadata_says_emission(self) -> bool:
+        """True when a metadata line gives absolute spectral units (irradiance, radiance, photons)."""
+        if self.metadata_units is None:
+            return False
+        try:
+            return spectral_unit(self.metadata_units[0]).quantity != "relative"
+        except WorkbenchError:
+            return False  # an unknown unit text is refused later, where the units are decided
 
     def decide_unit(self, wl: np.ndarray) -> None:
         """Set ``unit`` ('nm' or 'um') for the wavelength column, with a note."""
