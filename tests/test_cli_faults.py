@@ -43,6 +43,7 @@ def test_stdout_on_a_full_device(argv):
 
 
 class TestDiskFull:
+    @pytest.mark.slow  # draws the tolerance figures
     def test_plots_on_a_full_disk(self, tmp_path, capsys, monkeypatch):
         """A full disk while writing tolerance --plots: one line, exit 2, no PNG and no staging folder left."""
         import workbench.cli.commands.tolerance as command

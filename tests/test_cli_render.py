@@ -99,6 +99,7 @@ class TestRenderCommand:
         assert "mean" in cap.out and "p95" in cap.out and "note: wrote" in cap.err
         assert not list(out.glob(".*.tmp"))                         # no temporary files left
 
+    @pytest.mark.slow  # renders in many small chunks
     def test_wavelengths_option_and_small_chunks(self, tmp_path, capsys, gaussian_csv, out_dir):
         """--wavelengths replaces the sidecar; --chunk-mb splits the cube; results equal memory."""
         a = _mixtures((21, 13)).astype(np.float32)

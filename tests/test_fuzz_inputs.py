@@ -35,6 +35,7 @@ class TestDesignLoader:
         except WorkbenchError:
             pass
 
+    @pytest.mark.slow  # many hypothesis examples, each loading the demo
     @settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
     @given(st.data())
     def test_demo_with_one_value_replaced(self, data):

@@ -63,6 +63,7 @@ class TestImportedModules:
         assert "scipy.optimize" in names
         assert heavy(names, ("colour", "matplotlib", "pandas", "dask", "ipywidgets", "scipy.stats")) == []
 
+    @pytest.mark.slow  # imports ipywidgets and matplotlib in a fresh interpreter
     def test_design_panel_module(self):
         """The design panel's module (its first figure) imports no scipy.optimize, scipy.stats, colour, pandas or dask."""
         proc = subprocess.run([sys.executable, "-X", "importtime", "-c", "import workbench.widgets.design"],

@@ -41,6 +41,7 @@ class TestThroughput:
 
 
 class TestEvaluateFigures:
+    @pytest.mark.slow  # draws three figures
     def test_figures_and_table(self, tmp_path):
         """evaluate --figures writes chain.png and sensitivities.png; the JSON has the throughput rows."""
         out = subprocess.run([sys.executable, "-m", "workbench", "evaluate", str(demo_dir() / "tern3_design.toml"),
