@@ -62,6 +62,45 @@ class TestRecipeCommand:
         assert status == 2 and out == ""
         assert err.startswith("error: ") and "must have a dichroic-splitter element" in err and err.count("\n") == 1
 
+    def test_free_layers_design_refits(self, capsys, demo_design_path, tmp_path):
+        """--free-layers writes every layer free within --layer-range, the rest fixed; `workbench fit` runs on it."""
+        from workbench.fileio.design_toml import load_design
+
+        out = tmp_path / "rec"
+        status, _, err = _run(capsys, ["recipe", str(demo_design_path), "--periods", "3", "--evaluations", "1",
+                                       "--tolerance-trials", "0", "--free-layers", "--layer-range", "0.1",
+                                       "--out", str(out)])
+        assert status == 0, err
+        original = load_design(demo_design_path)
+        assert original.free_parameters()                # the demo has free parameters to fix
+        coated = load_design(out / "design.toml")
+        free = coated.free_parameters()
+        layers = {k: p for k, p in coated.parameters().items() if ".layer_" in k}
+        assert len(layers) == 2 * 7 and set(free) == set(layers)   # 2N + 1 layers per face, nothing else free
+        for p in free.values():
+            assert p.min == pytest.approx(0.9 * p.value, abs=2e-4) and p.max == pytest.approx(1.1 * p.value, abs=2e-4)
+        for k, p in original.free_parameters().items():
+            if k in coated.parameters():
+                assert coated.parameters()[k].value == p.value
+        status, _, err = _run(capsys, ["fit", str(out / "design.toml"), "--out", str(tmp_path / "refit"),
+                                       "--max-evaluations", "3", "--no-report", "--quiet"])
+        assert status in (0, 3), err                     # converged, or the small budget spent
+        # --keep-free keeps the design's free parameters free beside the layers
+        out2 = tmp_path / "rec2"
+        status, _, err = _run(capsys, ["recipe", str(demo_design_path), "--periods", "3", "--evaluations", "1",
+                                       "--tolerance-trials", "0", "--free-layers", "--keep-free", "--out", str(out2)])
+        assert status == 0, err
+        kept = load_design(out2 / "design.toml").free_parameters()
+        carried = set(original.free_parameters()) & set(coated.parameters())   # those not on the splitter
+        assert carried and set(kept) == set(layers) | carried
+
+    @pytest.mark.parametrize("value", ["0", "1", "-0.2", "1.5", "nan"])
+    def test_rejects_bad_layer_range(self, capsys, demo_design_path, value):
+        """--layer-range outside (0, 1) is refused in one line."""
+        status, out, err = _run(capsys, ["recipe", str(demo_design_path), "--layer-range", value])
+        assert status == 2 and out == ""
+        assert err.startswith("error: --layer-range must be in (0, 1)") and err.count("\n") == 1
+
     def test_rejects_bad_periods(self, capsys, demo_design_path):
         """--periods outside 1-200 is refused."""
         status, out, err = _run(capsys, ["recipe", str(demo_design_path), "--periods", "0"])

@@ -507,13 +507,18 @@ def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refi
 
 
 def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coated faces)",
-                  layer_error: float = 0.01, material_error: float = 0.005, index_error: float = 0.005):
+                  layer_error: float = 0.01, material_error: float = 0.005, index_error: float = 0.005,
+                  layer_range: float = 0.2, free_layers: bool = False, keep_free: bool = True):
     """The design with its idealised splitter replaced by two ``coating`` elements made of ``faces``.
 
     Each face keeps its angle, cone and glass; its layers are written with
     physical thicknesses (``L[74.7634] H[25.2293] …``) and every layer gets
-    its own ``layer_<i>_nm`` parameter, bounded to ±20 %, so ``workbench fit``
-    can refine the layers (mark them free). Tolerances for ``workbench
+    its own ``layer_<i>_nm`` parameter, bounded to ± ``layer_range`` (a
+    fraction of its thickness; default 0.2, ±20 %), so ``workbench fit`` can
+    refine the layers: ``free_layers=True`` marks every one of them free
+    (``free = true``), and then, unless ``keep_free``, every parameter that
+    was free in ``design`` is fixed at its present (fitted) value, so a refit
+    moves the coatings only. Tolerances for ``workbench
     tolerance``: each layer normal with σ = ``layer_error`` × its thickness
     (random per layer), each material's ``thickness_scale_<S>`` σ =
     ``material_error`` (systematic per material) and ``index_scale_<S>`` σ =
@@ -526,8 +531,15 @@ def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coat
     -------
     workbench.model.design.Design
     """
+    if not 0.0 < layer_range < 1.0:
+        raise WorkbenchError(f"layer_range must be in (0, 1) (got {layer_range!r})")
     data = design_to_dict(design)
     chain = data["chain"]
+    if free_layers and not keep_free:
+        for e in chain:                       # a parameter table is the only place ``free`` appears
+            for v in e.values():
+                if isinstance(v, dict) and v.get("free") is True:
+                    del v["free"]
     i = next((k for k, e in enumerate(chain) if e["type"] == "dichroic-splitter"), None)
     if i is None:
         raise WorkbenchError(f"{design.name!r} must have a dichroic-splitter element (got none)")
@@ -547,10 +559,13 @@ def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coat
         if rec.f_number is not None:
             el["f_number"] = rec.f_number
         for j, d in enumerate(rec.thicknesses_nm):
-            el[f"layer_{j + 1}_nm"] = {"value": round(float(d), 4), "min": round(0.8 * float(d), 4),
-                                       "max": round(1.2 * float(d), 4),
+            el[f"layer_{j + 1}_nm"] = {"value": round(float(d), 4),
+                                       "min": round((1.0 - layer_range) * float(d), 4),
+                                       "max": round((1.0 + layer_range) * float(d), 4),
                                        "tolerance": {"distribution": "normal",
                                                      "width": round(layer_error * float(d), 4)}}
+            if free_layers:
+                el[f"layer_{j + 1}_nm"]["free"] = True
         for sym in rec.materials:
             el[f"thickness_scale_{sym}"] = {"value": 1.0, "tolerance": {"distribution": "normal",
                                                                         "width": material_error}}

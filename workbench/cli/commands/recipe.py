@@ -9,8 +9,11 @@ material, physical thickness, QWOT) with the face's edge and the fit; with
 ``face-green-red.csv``: columns ``material``, ``thickness_nm``, ``qwot``,
 readable by ``workbench coating``), ``recipes.json`` and ``design.toml`` (the
 design with the splitter replaced by two ``coating`` elements, each layer a
-parameter ``layer_<i>_nm`` bounded to ±20 %: mark them free and ``workbench
-fit`` refines the layers against the camera objective), as one unit. The
+parameter ``layer_<i>_nm`` bounded to ± ``--layer-range`` of its thickness,
+default ±20 %; with ``--free-layers`` every layer is written free and the
+design's other free parameters fixed at their fitted values (``--keep-free``
+keeps them free), so ``workbench fit`` on it refines the layers against the
+camera objective), as one unit. The
 camera's measures with the idealised and with the coated faces are printed
 side by side.
 """
@@ -58,6 +61,15 @@ def register(sub) -> None:
     p.add_argument("--format", choices=FORMATS, default="table", help="output format (default: table)")
     p.add_argument("--out", type=Path, metavar="DIR", default=None,
                    help="write one layer table per face and recipes.json into DIR (one unit)")
+    p.add_argument("--free-layers", action="store_true",
+                   help="write design.toml with every layer thickness free (free = true) within --layer-range, "
+                   "and the design's other free parameters fixed at their fitted values, ready for "
+                   "`workbench fit`")
+    p.add_argument("--layer-range", type=float, default=0.2, metavar="FRACTION",
+                   help="each layer's bounds in design.toml as a fraction of its thickness, in (0, 1) "
+                   "(default 0.2: ±20 %%)")
+    p.add_argument("--keep-free", action="store_true",
+                   help="with --free-layers: keep the design's other free parameters free as well")
     p.set_defaults(run=run)
 
 
@@ -118,6 +130,8 @@ def run(args) -> int:
         raise WorkbenchError(f"--tolerance-trials must be 0-100000 (got {args.tolerance_trials})")
     if not 0 <= args.evaluations <= 100000:
         raise WorkbenchError(f"--evaluations must be 0-100000 (got {args.evaluations})")
+    if not 0.0 < args.layer_range < 1.0:
+        raise WorkbenchError(f"--layer-range must be in (0, 1) (got {args.layer_range:g})")
     folder = None
     if args.out is not None:
         folder = OutputFolder(args.out, option="--out", command="recipe",
@@ -128,7 +142,8 @@ def run(args) -> int:
                              refine=args.evaluations > 0, max_evaluations=max(args.evaluations, 1))
     method = ("characteristic-matrix method; each face averaged over its cone and s, p; refined by bounded "
               "least squares to the idealised face's reflectance (workbench.analysis.recipe)")
-    coated = coated_design(design, faces)
+    coated = coated_design(design, faces, layer_range=args.layer_range, free_layers=args.free_layers,
+                           keep_free=args.keep_free)
     m_ideal, m_coated = DesignEvaluator(design).measures(), DesignEvaluator(coated).measures()
     compare = {"vora_value": {"idealised": m_ideal.vora_value, "coated": m_coated.vora_value},
                "mean_delta_E00": {ill: {"idealised": m_ideal.delta_E00[ill]["mean"],
