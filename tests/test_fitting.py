@@ -709,3 +709,23 @@ class TestOneBudget:
         assert totals == [25]
         assert r.budget == 25 and r.evaluations <= 25 and max(seen) <= 25
         assert r.status == FitStatus.BUDGET_SPENT and r.exit_status == 3
+
+
+def test_quasi_newton_abnormal_stop_reads_as_converged(monkeypatch):
+    """An L-BFGS-B line-search stop ("ABNORMAL") with a small projected gradient is reported in plain words."""
+    from scipy.optimize import OptimizeResult
+
+    import workbench.analysis.fit as fit_module
+
+    def fake_minimize(fun, x0, **kw):
+        return OptimizeResult(x=np.asarray(x0, float), fun=1.0, jac=np.zeros(len(x0)), success=False,
+                              message="ABNORMAL: ")
+
+    monkeypatch.setattr(fit_module, "minimize", fake_minimize)
+    track = fit_module._Tracker(lambda X: np.atleast_2d(X), 100, False, None)
+    ok, msg = fit_module._local_quasi_newton(track, np.zeros(2), np.full(2, -1.0), np.full(2, 1.0), 2, np.ones(2),
+                                             np.zeros(2))
+    assert ok
+    assert "ABNORMAL" not in msg
+    assert msg.startswith("L-BFGS-B line search stopped at the precision of the finite differences; "
+                          "converged by the projected-gradient test")

@@ -205,7 +205,13 @@ def _local_quasi_newton(track: _Tracker, u0, lo, hi, nf, span, base, iterations=
     small = float(np.max(np.abs(pg))) <= PROJECTED_GRADIENT_TOL * max(float(r.fun), 1e-12)
     msg = str(r.message).rstrip(".: ")
     if not r.success and small:
-        msg += f"; projected gradient ≤ {PROJECTED_GRADIENT_TOL:g} × cost"
+        test = (f"converged by the projected-gradient test (‖g‖∞ ≤ {PROJECTED_GRADIENT_TOL:g} × cost, "
+                "normalised coordinates)")
+        if "ABNORMAL" in msg.upper():
+            # SciPy's "ABNORMAL…" (line search failed): at a minimum the cost no longer falls measurably
+            msg = "L-BFGS-B line search stopped at the precision of the finite differences; " + test
+        else:
+            msg = f"L-BFGS-B stopped ({msg}); " + test
     return bool(r.success or small), msg
 
 
