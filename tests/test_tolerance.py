@@ -496,6 +496,13 @@ class TestPlots:
         top_label = left.get_yticklabels()[ticks.index(max(ticks))].get_text()
         assert top_label.startswith(result.ranking()["parameters"][0]["name"])
         assert "ΔE00 units" in g.axes[1].get_xlabel()
+        assert "omitted" not in g._suptitle.get_text()
+        # with many parameters only the largest shares are drawn and the title says how many more there are
+        n = len(result.ranking()["parameters"])
+        k = plot_ranking(result, top=1)
+        assert len(k.axes[0].get_yticks()) == 1
+        assert k.axes[0].get_yticklabels()[0].get_text().startswith(result.ranking()["parameters"][0]["name"])
+        assert f"top 1 of {n} parameters by variance share; {n - 1} more omitted" in k._suptitle.get_text()
         h = plot_field_shift(result.field)
         assert "degrees, in glass" in h.axes[0].get_xlabel()
         assert "ΔE00" in h.axes[0].get_ylabel()

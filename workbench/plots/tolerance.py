@@ -128,7 +128,12 @@ def plot_histograms(result, *, case: str | None = None, fig=None):
     return fig
 
 
-def plot_ranking(result, *, case: str | None = None, response: str = "worst_mean_delta_E00", fig=None):
+#: The most parameters the ranking figure shows (the largest variance shares); the JSON/CSV keep all.
+RANKING_TOP = 25
+
+
+def plot_ranking(result, *, case: str | None = None, response: str = "worst_mean_delta_E00", fig=None,
+                 top: int | None = RANKING_TOP):
     """Which tolerance drives the error: variance contribution and one-at-a-time change per parameter.
 
     Parameters
@@ -140,6 +145,10 @@ def plot_ranking(result, *, case: str | None = None, response: str = "worst_mean
         As :meth:`ToleranceResult.ranking` (default the worst-illuminant
         mean ΔE00).
     fig : matplotlib.figure.Figure, optional
+    top : int or None
+        Show only this many parameters, the largest variance shares
+        (default :data:`RANKING_TOP`); the title says how many more were
+        omitted. ``None``: all.
 
     Returns
     -------
@@ -151,7 +160,11 @@ def plot_ranking(result, *, case: str | None = None, response: str = "worst_mean
         (a tornado chart). Largest contribution on top.
     """
     rk = result.ranking(case, response)
-    rows = rk["parameters"]
+    rows = rk["parameters"]                       # largest variance contribution first
+    omitted = 0
+    if top is not None and len(rows) > top:
+        omitted = len(rows) - top
+        rows = rows[:top]
     n = max(1, len(rows))
     fig = _figure(12.0, 1.6 + 0.45 * n, fig)
     left, right = fig.subplots(1, 2, sharey=True)
@@ -186,8 +199,10 @@ def plot_ranking(result, *, case: str | None = None, response: str = "worst_mean
         ax.grid(axis="x", alpha=0.3)
     if not rows:
         left.text(0.5, 0.5, "no toleranced parameter", ha="center", va="center", transform=left.transAxes)
+    more = (f"\ntop {len(rows)} of {len(rows) + omitted} parameters by variance share; {omitted} more omitted "
+            "(the JSON and CSV list all)") if omitted else ""
     fig.suptitle(f"What drives the {what} — {result.design.name}, matrix {rk['case']}, "
-                 f"{result.trials} trials", fontsize="medium")
+                 f"{result.trials} trials{more}", fontsize="medium")
     return fig
 
 
