@@ -50,6 +50,21 @@ class TestRecipeCommand:
         rows = read_layer_table(out / "face-blue-green.csv")
         np.testing.assert_allclose([r.thickness_nm for r in rows], thick, atol=1e-3)
 
+    def test_non_monotone_transition_flagged(self, capsys, demo_design_path):
+        """A 20-period starting stack in glass ripples above 50 % by its edge: a note, a starred span, no single edge."""
+        status, text, err = _run(capsys, ["recipe", str(demo_design_path), "--periods", "20", "--evaluations", "0",
+                                          "--tolerance-trials", "0"])
+        assert status == 0, err
+        assert "note: the blue-green face's transition at 25° is not monotone for s, p, mean" in err
+        line = next(x for x in text.splitlines() if x.startswith("# 50 % point") and "25°" in x)
+        assert "25° 492.4–514.0* / " in line                 # first and last crossing, starred
+        assert "#   * non-monotone transition" in text and "# ripple at 25°, chief ray, s / p / mean" in text
+        status, text, err = _run(capsys, ["recipe", str(demo_design_path), "--periods", "20", "--evaluations", "0",
+                                          "--tolerance-trials", "0", "--format", "json"])
+        at = [r for r in json.loads(text)["faces"][0]["edge_vs_angle"] if r["angle_deg"] == 25.0][0]
+        assert at["s_nm"] is None and at["s"]["monotone"] is False and len(at["s"]["crossings_nm"]) > 1
+        assert at["s"]["band_edge_nm"] == at["s"]["crossings_nm"][0] and at["s"]["pass_ripple_pct"] > 10.0
+
     def test_rejects_design_without_splitter(self, capsys, tmp_path, demo_design_path):
         """A design without a dichroic-splitter is refused in one line."""
         text = demo_design_path.read_text()

@@ -32,7 +32,7 @@ from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.recipe import coated_design
 from workbench.analysis.layer_tolerance import layer_tolerance
 import numpy as np
-from workbench.optics.thinfilm import stack_response, stop_band_edges
+from workbench.analysis.transition import face_edges
 
 HELP = "turn a design's idealised splitter faces into thin-film layer recipes"
 
@@ -73,28 +73,20 @@ def register(sub) -> None:
     p.set_defaults(run=run)
 
 
-def _edges_vs_angle(f) -> list[dict]:
-    """The face's 50 % point (chief ray) for s, p and their mean at its angle and ±5°."""
-
-    rec = f.recipe
-    angles = sorted({max(0.0, rec.aoi_deg - 5.0), rec.aoi_deg, rec.aoi_deg + 5.0})
-    lo = max([m.range_nm[0] for m in rec.materials.values() if m.range_nm] + [f.edge_nm * 0.6])
-    hi = min([m.range_nm[1] for m in rec.materials.values() if m.range_nm] + [f.edge_nm * 1.5])
-    wl = np.arange(lo, hi, 0.05)
-    res = stack_response(rec.indices(wl), rec.thicknesses_nm, wl, angles, incident=rec.incident.index(wl).real,
-                         substrate=rec.substrate.index(wl))
-    side = 1 if f.reflects == "short" else 0
+def _edges_vs_angle(f, window_nm) -> list[dict]:
+    """The face's edge (chief ray) for s, p and their mean at its angle and ±5°, with its transition and ripple."""
     out = []
-    for ia, a in enumerate(angles):
+    for a, by in face_edges(f.recipe, reflects=f.reflects, window_nm=window_nm):
         row = {"angle_deg": a}
-        for name, R in (("s", res.R[0, ia]), ("p", res.R[1, ia]), ("mean", res.R_mean[ia])):
-            e = stop_band_edges(wl, R)[side]
-            row[f"{name}_nm"] = None if not np.isfinite(e) else round(float(e), 2)
+        for name, t in by.items():
+            row[f"{name}_nm"] = None if not np.isfinite(t.edge_nm) else round(float(t.edge_nm), 2)
+        for name, t in by.items():
+            row[name] = t.to_dict()
         out.append(row)
     return out
 
 
-def _face_dict(f) -> dict:
+def _face_dict(f, window_nm) -> dict:
     rec = f.recipe
     return {
         "face": f.face,
@@ -107,12 +99,47 @@ def _face_dict(f) -> dict:
         "substrate": rec.substrate.name,
         "layers": [{k: (round(v, 4) if isinstance(v, float) else v) for k, v in row.items()} for row in rec.table()],
         "total_nm": round(float(rec.thicknesses_nm.sum()), 3),
-        "edge_vs_angle": _edges_vs_angle(f),
+        "edge_vs_angle": _edges_vs_angle(f, window_nm),
         "refinement": None if f.report is None else {
             "rms_before": f.report.rms_before, "rms_after": f.report.rms_after,
             "evaluations": f.report.evaluations, "message": f.report.message,
             "layers_at_bound": [i + 1 for i in f.report.at_bound]},
     }
+
+
+def _edge_text(t: dict) -> str:
+    """One polarisation's edge for the table: the crossing, or the span of several, starred when not monotone."""
+    if t["problem"]:
+        return "-"
+    c = t["crossings_nm"]
+    text = f"{c[0]:.1f}" if len(c) == 1 else f"{c[0]:.1f}–{c[-1]:.1f}"
+    return text if t["monotone"] else text + "*"
+
+
+def _edge_lines(f, d) -> list[str]:
+    """The table's lines on a face's edges, its transition and its pass band."""
+    lines = ["# 50 % point, chief ray, s / p / mean (the single 50 % crossing of the transition from the reflection "
+             "band to the pass band, docs/methods.md §15): " + "; ".join(
+                 f"{r['angle_deg']:g}° {_edge_text(r['s'])} / {_edge_text(r['p'])} / {_edge_text(r['mean'])} nm"
+                 for r in d["edge_vs_angle"])]
+    rows = d["edge_vs_angle"]
+    if any(not r[pol]["monotone"] for r in rows for pol in ("s", "p", "mean")):
+        lines.append("#   * non-monotone transition (R rises again by more than 1 % between R 90 % and 10 %); "
+                     "a–b: several 50 % crossings, first and last, no single edge")
+    at = next(r for r in rows if r["angle_deg"] == f.recipe.aoi_deg)
+
+    def pct(v):
+        return "-" if v is None else f"{v:.1f} %"
+
+    def band(t):
+        a, b = t["pass_band_nm"]
+        return "-" if a is None else f"{a:.0f}-{b:.0f} nm"
+
+    lines.append(f"# ripple at {f.recipe.aoi_deg:g}°, chief ray, s / p / mean: in the transition (largest rise of R "
+                 "against its fall, R 90 % → 10 %) " + " / ".join(pct(at[p]["reversal_pct"]) for p in ("s", "p", "mean"))
+                 + "; in the pass band (max − min of R, peak-to-peak) " + " / ".join(
+                     f"{pct(at[p]['pass_ripple_pct'])} over {band(at[p])}" for p in ("s", "p", "mean")))
+    return lines
 
 
 def _layer_csv(f) -> str:
@@ -162,14 +189,22 @@ def run(args) -> int:
                 "edge_shift_nm": lt.edge_shift_percentiles(),
                 "ranking": lt.ranking,
             }
-    data = {"design": str(args.design), "method": method, "faces": [_face_dict(f) for f in faces],
+    grid = design.model().wavelengths
+    window = (float(grid[0]), float(grid[-1]))
+    face_dicts = [_face_dict(f, window) for f in faces]
+    for f, d in zip(faces, face_dicts):
+        at = next(r for r in d["edge_vs_angle"] if r["angle_deg"] == f.recipe.aoi_deg)
+        bad = [pol for pol in ("s", "p", "mean") if not at[pol]["monotone"]]
+        if bad:
+            notice(f"the {f.face} face's transition at {f.recipe.aoi_deg:g}° is not monotone for "
+                   f"{', '.join(bad)} (see its 50 % point line); a crossing of 50 % on a ripple is not its edge")
+    data = {"design": str(args.design), "method": method, "faces": face_dicts,
             "measures": compare, "layer_tolerance": tolerances}
     if args.format == "json":
         text = to_json(data)
     else:
         blocks = []
-        for f in faces:
-            d = _face_dict(f)
+        for f, d in zip(faces, face_dicts):
             header = [f"# {f.face} face: reflects the {f.reflects} side; 50 % point {f.edge_nm:.2f} nm at "
                       f"{f.recipe.aoi_deg:g}° in index {f.recipe.incident.name}"
                       + (f", f/{f.recipe.f_number:g} cone" if f.recipe.f_number else "")
@@ -177,12 +212,7 @@ def run(args) -> int:
             if f.report is not None:
                 header.append(f"# refined: rms R − idealised {f.report.rms_before:.4f} → {f.report.rms_after:.4f} "
                               f"in {f.report.evaluations} evaluations ({f.report.message})")
-            def nm(v):
-                return "-" if v is None else f"{v:.1f}"
-
-            header.append("# 50 % point, chief ray, s / p / mean: " + "; ".join(
-                f"{r['angle_deg']:g}° {nm(r['s_nm'])} / {nm(r['p_nm'])} / {nm(r['mean_nm'])} nm"
-                for r in d["edge_vs_angle"]))
+            header += _edge_lines(f, d)
             t = tolerances.get(f.face)
             if t is not None:
                 side = "long_wave" if f.reflects == "short" else "short_wave"
