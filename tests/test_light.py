@@ -509,15 +509,19 @@ class TestLightReport:
 class TestLightPanel:
     @pytest.mark.slow  # builds the light panel on the demo and draws every figure
     def test_opens_on_demo_data(self):
-        """The panel evaluates the demo LED on a camera with the halogen as light B and shows every figure."""
+        """The panel evaluates the demo LED on a camera with the halogen as light B; each tab draws its figures when shown."""
         from workbench.widgets.common import output_png
         from workbench.widgets.light import LightPanel
 
         p = LightPanel(camera=gaussian_camera())
         assert p.status.text.startswith("evaluated luminaire_led_export on gaussian") and not p.status.is_error
         assert "IEC 62471" in p.caution.value and "Ohno 2013" in p.indices.value
-        for out in (p.spd_plot, p.special_plot, p.delta_e_plot, p.shift_plot, p.compare_plot):
-            assert output_png(out)[:8] == b"\x89PNG\r\n\x1a\n"
+        assert output_png(p.spd_plot)[:8] == output_png(p.special_plot)[:8] == b"\x89PNG\r\n\x1a\n"
+        assert output_png(p.delta_e_plot) is None and output_png(p.compare_plot) is None  # drawn when shown
+        p.tabs.selected_index = 1
+        assert output_png(p.delta_e_plot)[:8] == output_png(p.shift_plot)[:8] == b"\x89PNG\r\n\x1a\n"
+        p.tabs.selected_index = 2
+        assert output_png(p.compare_plot)[:8] == b"\x89PNG\r\n\x1a\n"
         assert "Camera fidelity index" in p.camera_table.value and "verdict" in p.compare_table.value
 
     def test_errors_are_one_line(self, tmp_path):

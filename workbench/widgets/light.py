@@ -48,6 +48,12 @@ class LightPanel(W.VBox):
     evaluate : bool
         Evaluate once when built (default True).
 
+    Notes
+    -----
+    Every table is filled at once; the figures of a tab are drawn when the
+    tab is first shown (the Indices tab at once), as drawing all five takes
+    about a second. :meth:`draw_all` draws them all now.
+
     Attributes
     ----------
     report : LightReport or None
@@ -92,6 +98,9 @@ class LightPanel(W.VBox):
         ])
         self.tabs.titles = ("Indices", "On camera", "Two fixtures")
         self.report: LightReport | None = None
+        # a tab's figures are drawn when it is first shown (drawing all five costs about a second)
+        self._undrawn: set[int] = set()
+        self.tabs.observe(lambda _c: self._draw_tab(), names="selected_index")
         self.button.on_click(lambda _b: self.evaluate())
         self.light_upload.observe(lambda _c: self.evaluate(), names="value")
         self.compare_upload.observe(lambda _c: self.evaluate(), names="value")
@@ -151,12 +160,14 @@ class LightPanel(W.VBox):
                 cam = self._camera()
                 r = light_report(a, camera=cam, compare=b, ssi_reference=self._ssi())
                 self._show_indices(r)
-                show_png(self.spd_plot, figure_png(lp.plot_light_spd(r.indices), dpi=90), alt="SPD")
-                show_png(self.special_plot, figure_png(lp.plot_special_indices(r.indices), dpi=90),
-                         alt="special indices")
                 self._show_camera(r)
                 self._show_comparison(r)
                 self.report = r
+                for out in (self.spd_plot, self.special_plot, self.delta_e_plot, self.shift_plot,
+                            self.compare_plot):
+                    out.outputs = ()
+                self._undrawn = {0, 1 if r.camera else None, 2 if r.comparison else None} - {None}
+                self._draw_tab()
             if not g.failed:
                 self.status.ok(f"evaluated {r.indices.name}"
                                + (f" on {r.camera.camera}" if r.camera else "")
@@ -164,6 +175,33 @@ class LightPanel(W.VBox):
         finally:
             self.button.disabled = False
         return self.report
+
+    def _draw_tab(self) -> None:
+        """Draw the figures of the tab shown, if not drawn yet for the current report."""
+        i = self.tabs.selected_index or 0
+        if self.report is None or i not in self._undrawn:
+            return
+        self._undrawn.discard(i)
+        r = self.report
+        with guard(self.status, clear=False):
+            if i == 0:
+                show_png(self.spd_plot, figure_png(lp.plot_light_spd(r.indices), dpi=90), alt="SPD")
+                show_png(self.special_plot, figure_png(lp.plot_special_indices(r.indices), dpi=90),
+                         alt="special indices")
+            elif i == 1:
+                show_png(self.delta_e_plot, figure_png(lp.plot_camera_delta_e(r.camera), dpi=80),
+                         alt="ΔE00 per sample")
+                show_png(self.shift_plot, figure_png(lp.plot_camera_shifts(r.camera), dpi=80), alt="u′v′ shifts")
+            else:
+                show_png(self.compare_plot, figure_png(lp.plot_comparison(r.comparison), dpi=80),
+                         alt="two fixtures")
+
+    def draw_all(self) -> None:
+        """Draw the figures of every tab now (otherwise each tab is drawn when first shown)."""
+        selected = self.tabs.selected_index
+        for i in sorted(self._undrawn):
+            self.tabs.selected_index = i
+        self.tabs.selected_index = selected
 
     def _show_indices(self, r: LightReport) -> None:
         rows = [{**row, "value": value_text(row["value"])} for row in report_rows(r) if r.camera is None
@@ -183,8 +221,6 @@ class LightPanel(W.VBox):
         if r.camera is None:
             self.camera_table.value = compact("<p>No camera given: name a design file or a sensitivity CSV "
                                               "in the camera box.</p>")
-            self.delta_e_plot.outputs = ()
-            self.shift_plot.outputs = ()
             return
         c = r.camera
         rows = [{"set": s, "index": f"{v['camera_fidelity_index']:.1f}", "ΔE_a": f"{v['delta_E_a']:.2f}",
@@ -199,13 +235,10 @@ class LightPanel(W.VBox):
             f"{html.escape(c.reference)} on {html.escape(c.camera)} (0-100; 100 = renders as the reference)</p>"
             + html_table(rows, ["set", "index", "ΔE_a", "mean ΔE00", "max ΔE00", "samples"])
             + f"<p style='font-size:11px;margin:2px 0'>{html.escape(c.method)}</p>")
-        show_png(self.delta_e_plot, figure_png(lp.plot_camera_delta_e(c), dpi=80), alt="ΔE00 per sample")
-        show_png(self.shift_plot, figure_png(lp.plot_camera_shifts(c), dpi=80), alt="u′v′ shifts")
 
     def _show_comparison(self, r: LightReport) -> None:
         if r.comparison is None:
             self.compare_table.value = compact("<p>No second light: give light B to compare two fixtures.</p>")
-            self.compare_plot.outputs = ()
             return
         k = r.comparison
         rows = [{"mode": mode, "eye mean ΔE00": f"{m.eye_mean:.2f}",
@@ -219,7 +252,6 @@ class LightPanel(W.VBox):
             + html_table(rows, ["mode", "eye mean ΔE00", "camera mean ΔE00", "verdict"])
             + f"<p style='font-size:11px;margin:2px 0'>match ≤ {k.match:g}, differ ≥ {k.differ:g} mean ΔE00 "
               f"(common practice)</p><ul style='font-size:11px'>{defs}</ul>")
-        show_png(self.compare_plot, figure_png(lp.plot_comparison(k), dpi=80), alt="two fixtures")
 
 
 def light_panel(light=None, **kw) -> LightPanel:
