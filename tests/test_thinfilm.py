@@ -215,6 +215,41 @@ class TestStackResponse:
             np.testing.assert_allclose(batch.R[i], one.R, atol=1e-15)
             np.testing.assert_allclose(batch.dT_dd[i], one.dT_dd, atol=1e-15)
 
+    def test_periodic_stack_by_blocks_matches_tmm_package(self):
+        """(0.5L H 0.5L)^9 M (0.5L H 0.5L)^4 (repeated blocks raised to powers) agrees with tmm to 1e-12."""
+        wl = np.array([420.0, 505.0, 560.0, 610.0, 745.0])
+        n_h = 2.30 + 0.05 * (550.0 / wl) ** 2
+        n_l = 1.45 + 0.01 * (550.0 / wl) ** 2
+        n_m = np.full(wl.size, 1.63)
+        symbols = "LHL" * 9 + "M" + "LHL" * 4
+        n = np.stack([{"H": n_h, "L": n_l, "M": n_m}[x] for x in symbols])[None]      # a batch axis of one
+        d = np.array([{"H": 55.0, "L": 42.5, "M": 81.0}[x] for x in symbols])
+        angles = (0.0, 25.0, 40.0)
+        res = stack_response(n, d, wl, angles, incident=N_GLASS, substrate=N_GLASS)
+        assert res.R.shape == (1, 2, 3, wl.size)
+        for ip, pol in enumerate("sp"):
+            for ia, a in enumerate(angles):
+                for iw, w in enumerate(wl):
+                    # tmm 0.2.0 (S. J. Byrnes, arXiv:1603.02720), coh_tmm
+                    R_ref, T_ref = tmm_reference(pol, n[0, :, iw], d, a, w, N_GLASS, N_GLASS)
+                    assert abs(res.R[0, ip, ia, iw] - R_ref) <= 1e-12
+                    assert abs(res.T[0, ip, ia, iw] - T_ref) <= 1e-12
+
+    def test_periodic_stack_alone_equals_it_in_a_batch(self):
+        """A 41-layer periodic edge filter alone (by blocks) and in a batch (layer by layer) agree to 1e-12."""
+        wl = np.linspace(380.0, 780.0, 9)                          # small enough for one chunk of two stacks
+        n_h = 2.30 + 0.05 * (550.0 / wl) ** 2
+        n_l = 1.45 + 0.01 * (550.0 / wl) ** 2
+        symbols = "LHL" * 20
+        n = np.stack([n_h if x == "H" else n_l for x in symbols])
+        d = np.array([58.0 if x == "H" else 38.0 for x in symbols])
+        angles = np.linspace(5.0, 35.0, 3)
+        alone = stack_response(n, d, wl, angles, incident=N_GLASS, substrate=N_GLASS)
+        batch = stack_response(n, np.stack([d, d * 1.01]), wl, angles, incident=N_GLASS, substrate=N_GLASS)
+        assert alone.R.max() > 0.99                               # the stop band is in the grid
+        np.testing.assert_allclose(batch.R[0], alone.R, atol=1e-12, rtol=0)
+        np.testing.assert_allclose(batch.T[0], alone.T, atol=1e-12, rtol=0)
+
     def test_batch_of_thicknesses_over_one_set_of_indices(self):
         """Thicknesses batched over one set of layer indices broadcast like the stacks alone."""
         n = np.array([[2.35], [1.46], [2.35]])

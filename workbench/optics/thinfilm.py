@@ -8,11 +8,11 @@ with respect to every layer thickness. It is vectorised over wavelengths ×
 angles × polarisations × any number of stacks at once (leading batch axes):
 the only Python loop runs over the layers.
 
-Over 600 lines for a reason: the general complex path, the real-arithmetic
-path for lossless stacks, the incoherent back surface and the analytic
-thickness derivatives share the per-material admittances, phase factors and
-scratch buffers; they stay together so that every path is checked against
-the same conventions.
+The general complex path, the incoherent back surface and the analytic
+thickness derivatives are here; lossless stacks without derivatives go to
+the real-arithmetic path of :mod:`workbench.optics.lossless_stack` (same
+conventions, checked against the same references), which also holds the
+scratch buffers and phase factors both share.
 
 Conventions
 -----------
@@ -65,12 +65,12 @@ S. J. Byrnes, *Multilayer optical calculations*, arXiv:1603.02720 (2016)
 from __future__ import annotations
 
 import math
-import threading
 from dataclasses import dataclass
 
 import numpy as np
 
 from workbench.errors import WorkbenchError
+from workbench.optics.lossless_stack import cos_sin, lossless_response, scratch_arrays
 
 __all__ = [
     "StackResponse",
@@ -348,7 +348,7 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     Nt = np.moveaxis(N, -2, 0)                                         # (L, ..., W)
     dt = np.moveaxis(d, -1, 0)                                         # (L, ...)
     if not derivatives:
-        fast = _coherent_lossless(Nt, dt, wl, beta2, eta0, eta_s)
+        fast = lossless_response(Nt, dt, wl, beta2, eta0, eta_s)
         if fast is not None:
             return fast
     N2 = Nt * Nt
@@ -356,7 +356,7 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     if real_path:
         # lossless and propagating everywhere: real arithmetic in reused buffers
         arg_shape = np.broadcast_shapes(N2.shape[:-1] + (1, N2.shape[-1]), beta2.shape)
-        (arg,) = _workspace(arg_shape, 1, slot="normal", dtype=float)   # (L, ..., A, W)
+        (arg,) = scratch_arrays(arg_shape, 1, slot="normal", dtype=float)   # (L, ..., A, W)
         np.subtract(N2.real[..., None, :], beta2, out=arg)
         real_path = bool(np.all(arg > 0))
     if real_path:
@@ -367,25 +367,25 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     qe = q[..., None, :, :]                                            # (L, ..., 1, A, W)
     eta_shape = qe.shape[:-3] + (2,) + qe.shape[-2:]
     if real_path:
-        (eta,) = _workspace(eta_shape, 1, slot="admittance", dtype=float)
+        (eta,) = scratch_arrays(eta_shape, 1, slot="admittance", dtype=float)
     else:
         eta = np.empty(eta_shape, dtype=complex)
     eta[..., 0, :, :] = q
     np.divide(N2[..., None, :], q, out=eta[..., 1, :, :])
     if real_path:
-        (k,) = _workspace(qe.shape, 1, slot="wavenumber", dtype=float)
+        (k,) = scratch_arrays(qe.shape, 1, slot="wavenumber", dtype=float)
         np.multiply(_TWO_PI / wl, qe, out=k)                           # rad/nm
         d_e = dt.reshape(dt.shape + (1, 1, 1))
-        (delta,) = _workspace(np.broadcast_shapes(k.shape, d_e.shape), 1, slot="phase-thickness", dtype=float)
+        (delta,) = scratch_arrays(np.broadcast_shapes(k.shape, d_e.shape), 1, slot="phase-thickness", dtype=float)
         np.multiply(k, d_e, out=delta)
     else:
         k = (_TWO_PI / wl) * qe                                        # rad/nm
         delta = k * dt.reshape(dt.shape + (1, 1, 1))
-    cd, sd = _cos_sin(delta)
+    cd, sd = cos_sin(delta)
     L = dt.shape[0]
     batch = np.broadcast_shapes(eta.shape[1:-3], delta.shape[1:-3])
     shape = (L,) + batch + eta.shape[-3:]
-    a, b, c = _workspace(shape, 3)
+    a, b, c = scratch_arrays(shape, 3)
     a[...] = cd
     if real_path:
         # b = −i sin δ / η, c = −i η sin δ are purely imaginary: fill the
@@ -403,7 +403,7 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     C = np.empty(shape[1:], dtype=complex)
     C[...] = eta_s
     if derivatives:
-        VB, VC = _workspace(shape, 2, slot="adjoint")
+        VB, VC = scratch_arrays(shape, 2, slot="adjoint")
     for j in range(L - 1, -1, -1):
         if derivatives:
             VB[j] = B
@@ -425,7 +425,7 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     w0 = np.empty_like(B)
     w0[...] = eta0
     w1 = np.ones_like(B)
-    x0, x1, etac, sdc = _workspace(shape, 4, slot="derivative")
+    x0, x1, etac, sdc = scratch_arrays(shape, 4, slot="derivative")
     etac[...] = eta
     sdc[...] = sd
     # x0 = −i cos δ V_C / η − sin δ V_B ;  x1 = −i η cos δ V_B − sin δ V_C
@@ -463,155 +463,6 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     dT *= T
     # layer axis just before the polarisation axis
     return R, T, np.moveaxis(dR, 0, -4), np.moveaxis(dT, 0, -4)
-
-
-def _distinct_layers(Nr):
-    """Rows of the distinct materials of a (L, W) index array and each layer's row: ``(U, which)``.
-
-    An (HL)^N H stack has two materials: everything that depends on the
-    material alone (normal components, admittances, wavenumbers) is then
-    computed twice, not once per layer. Layers are compared bit for bit.
-    """
-    seen: dict = {}
-    first = []
-    which = np.empty(Nr.shape[0], dtype=np.intp)
-    for j in range(Nr.shape[0]):
-        key = Nr[j].tobytes()
-        m = seen.get(key)
-        if m is None:
-            m = seen[key] = len(first)
-            first.append(j)
-        which[j] = m
-    return Nr[first], which
-
-
-def _coherent_lossless(Nt, dt, wl, beta2, eta0, eta_s):
-    """R, T of stacks whose layers are all lossless and propagating, in real arithmetic; None otherwise.
-
-    With real ``δ`` and ``η`` the characteristic matrix is
-    ``[[a, −i s/η], [−i η s, a]]`` with real ``a = cos δ``, ``s = sin δ``.
-    Carrying ``X = (Re B, Im B, Re C, Im C)`` (s and p side by side), one
-    layer is ``X ← a X + s (E ⊙ reversed(X))`` with the material's
-    ``E = (1/η, −1/η, η, −η)``: four array operations per layer on
-    preallocated buffers, no complex arithmetic, no allocation in the loop.
-    When the layers share one index for the whole batch, everything that
-    depends on the material alone (``q``, ``η``, ``E``, ``2πq/λ``) is
-    computed once per distinct material, not per layer, and neighbouring
-    layers of one material are merged (their matrices multiply to the
-    matrix of the summed thickness: ``M(δ₁) M(δ₂) = M(δ₁ + δ₂)``).
-    """
-    if np.iscomplexobj(Nt):
-        if np.any(Nt.imag):
-            return None
-        Nt = Nt.real
-    L = Nt.shape[0]
-    mid = Nt.shape[1:-1]
-    if math.prod(mid) == 1:
-        U, which = _distinct_layers(Nt.reshape(L, Nt.shape[-1]))
-        U = U.reshape((U.shape[0],) + mid + Nt.shape[-1:])
-        starts = np.flatnonzero(np.r_[True, which[1:] != which[:-1]])
-        if starts.size < L:
-            dt = np.add.reduceat(dt, starts, axis=0)
-            which = which[starts]
-            L = starts.size
-    else:
-        U, which = Nt, np.arange(L)
-    U2 = U * U
-    arg = U2[..., None, :] - beta2                                     # (M, ..., A, W)
-    if not np.all(arg > 0):
-        return None
-    q = np.sqrt(arg)
-    E = np.empty((q.shape[0], 4) + q.shape[1:-2] + (2,) + q.shape[-2:])  # (M, 4, ..., 2, A, W)
-    E[:, 2, ..., 0, :, :] = q
-    np.divide(U2[..., None, :], q, out=E[:, 2, ..., 1, :, :])
-    np.divide(1.0, E[:, 2], out=E[:, 0])
-    np.negative(E[:, 0], out=E[:, 1])
-    np.negative(E[:, 2], out=E[:, 3])
-    k_m = (_TWO_PI / wl) * q                                           # rad/nm, (M, ..., A, W)
-    d_e = dt.reshape(dt.shape + (1, 1))
-    (delta,) = _workspace(np.broadcast_shapes((L,) + k_m.shape[1:], d_e.shape), 1, slot="phase-thickness",
-                          dtype=float)
-    if delta.shape[0] == L and delta.shape[1:] == k_m.shape[1:]:
-        np.take(k_m, which, axis=0, out=delta)
-        delta *= d_e
-    else:
-        np.multiply(k_m[which], d_e, out=delta)
-    cd, sd = _cos_sin(delta)
-    shape = np.broadcast_shapes(E.shape[2:], sd.shape[1:-2] + (1,) + sd.shape[-2:])   # (..., 2, A, W)
-    X, t = _workspace((4,) + shape, 2, slot="lossless-vector", dtype=float)
-    X[0] = 1.0
-    X[1] = 0.0
-    X[2] = eta_s.real
-    X[3] = eta_s.imag
-    Xr = X[::-1]
-    a = cd[..., None, :, :]                                            # (L, ..., 1, A, W)
-    s = sd[..., None, :, :]
-    for j in range(L - 1, -1, -1):
-        np.multiply(Xr, E[which[j]], out=t)
-        t *= s[j]
-        X *= a[j]
-        X += t
-    Br, Bi, Cr, Ci = X
-    eBr = eta0 * Br
-    eBi = eta0 * Bi
-    Yr = eBr + Cr
-    Yi = eBi + Ci
-    Y2 = Yr * Yr
-    Y2 += Yi * Yi
-    nr = eBr - Cr
-    ni = eBi - Ci
-    R = nr * nr
-    R += ni * ni
-    R /= Y2
-    T = (4.0 * eta0.real * eta_s.real) / Y2
-    return R, T, None, None
-
-
-_LOCAL = threading.local()
-
-
-def _workspace(shape, count, slot="stack", dtype=complex):
-    """``count`` complex scratch arrays of ``shape``, kept per thread and reused.
-
-    The large per-layer arrays are otherwise fresh allocations on every call;
-    above glibc's mmap threshold each costs a page fault per 4 kB page, which
-    was more than half the time of a 40-layer evaluation. Each thread keeps
-    its own buffers (the tolerance analysis evaluates on two threads), only
-    for the last shape asked for in each slot.
-    """
-    cache = getattr(_LOCAL, "buffers", None)
-    if cache is None:
-        cache = _LOCAL.buffers = {}
-    held = cache.get(slot)
-    if held is None or held[0] != shape or len(held[1]) < count:
-        held = (shape, [np.empty(shape, dtype=dtype) for _ in range(count)])
-        cache[slot] = held
-    return held[1][:count]
-
-
-def _cos_sin(delta):
-    """``cos δ`` and ``sin δ`` through ``tan(δ/2)`` (numpy's float64 tan is vectorised, cos and sin are not).
-
-    For complex ``δ = x + iy``: ``cos δ = cos x cosh y − i sin x sinh y`` and
-    ``sin δ = sin x cosh y + i cos x sinh y``. Accurate to a few ulp.
-    """
-    if np.iscomplexobj(delta):
-        cx, sx = _cos_sin(delta.real)
-        y = delta.imag
-        ch = np.cosh(y)
-        sh = np.sinh(y)
-        return cx * ch - 1j * (sx * sh), sx * ch + 1j * (cx * sh)
-    t, inv, cd, sd = _workspace(delta.shape, 4, slot="phase", dtype=float)
-    np.multiply(delta, 0.5, out=t)
-    np.tan(t, out=t)
-    np.multiply(t, t, out=cd)
-    np.add(cd, 1.0, out=inv)
-    np.divide(1.0, inv, out=inv)
-    np.subtract(1.0, cd, out=cd)
-    cd *= inv
-    np.multiply(t, 2.0, out=sd)
-    sd *= inv
-    return cd, sd
 
 
 def half_points(wavelengths_nm, values, level: float = 0.5) -> list[tuple[float, str]]:

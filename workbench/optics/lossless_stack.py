@@ -1,0 +1,279 @@
+"""Lossless thin-film stacks as ordered products of real 2 × 2 matrices, each distinct product computed once.
+
+The fast path of :func:`workbench.optics.thinfilm.stack_response` when every
+layer is lossless and the wave propagates in every layer (no derivatives
+asked for), and the scratch buffers and phase factors the engine shares.
+
+With real phase thickness ``δ`` and tilted admittance ``η`` a layer's
+characteristic matrix is ``[[cos δ, −i sin δ / η], [−i η sin δ, cos δ]]``.
+Matrices of the form ``[[m₁₁, i m₁₂], [i m₂₁, m₂₂]]`` (m real) are closed
+under products, and writing them as the real matrix
+``G = [[m₁₁, m₁₂], [−m₂₁, m₂₂]]`` turns their product into the plain real
+product ``G_P G_Q``; a layer is ``G = [[cos δ, −sin δ / η], [η sin δ, cos δ]]``.
+The stack's product ``G₁ G₂ … G_L`` is formed pairwise, level by level (all
+pairs of a level in one array operation over a leading node axis, so the
+Python loop runs over about ``log₂ L`` levels, not over the layers), and a
+block of layers repeated in a row is multiplied once and raised to its power
+by squaring: a periodic design such as ``(0.5L H 0.5L)^20`` has three
+distinct layers and costs about ten 2 × 2 products. Layers are the same when their material row and their
+thickness agree bit for bit; then their ``cos δ`` and ``sin δ`` are computed
+once as well. Finally ``[B, C]ᵀ = M [1, η_sub]ᵀ``.
+
+References
+----------
+H. A. Macleod, *Thin-Film Optical Filters*, 4th ed., CRC Press, 2010,
+chapter 2 (characteristic matrix, tilted admittances).
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+
+import numpy as np
+
+__all__ = ["lossless_response", "scratch_arrays", "cos_sin"]
+
+_TWO_PI = 2.0 * np.pi
+_LOCAL = threading.local()
+
+
+def scratch_arrays(shape, count, slot="stack", dtype=complex) -> list[np.ndarray]:
+    """``count`` scratch arrays of ``shape``, kept per thread and reused.
+
+    The large per-layer arrays are otherwise fresh allocations on every call;
+    above glibc's mmap threshold each costs a page fault per 4 kB page, which
+    was more than half the time of a 40-layer evaluation. Each thread keeps
+    its own buffers (the tolerance analysis evaluates on two threads), only
+    for the last shape asked for in each slot.
+    """
+    cache = getattr(_LOCAL, "buffers", None)
+    if cache is None:
+        cache = _LOCAL.buffers = {}
+    held = cache.get(slot)
+    if held is None or held[0] != shape or held[1][0].dtype != np.dtype(dtype) or len(held[1]) < count:
+        held = (shape, [np.empty(shape, dtype=dtype) for _ in range(count)])
+        cache[slot] = held
+    return held[1][:count]
+
+
+def cos_sin(delta):
+    """``cos δ`` and ``sin δ`` through ``tan(δ/2)`` (numpy's float64 tan is vectorised, cos and sin are not).
+
+    For complex ``δ = x + iy``: ``cos δ = cos x cosh y − i sin x sinh y`` and
+    ``sin δ = sin x cosh y + i cos x sinh y``. Accurate to a few ulp. Real
+    results are scratch buffers (valid until the next call with this shape).
+    """
+    if np.iscomplexobj(delta):
+        cx, sx = cos_sin(delta.real)
+        y = delta.imag
+        ch = np.cosh(y)
+        sh = np.sinh(y)
+        return cx * ch - 1j * (sx * sh), sx * ch + 1j * (cx * sh)
+    t, inv, cd, sd = scratch_arrays(delta.shape, 4, slot="phase", dtype=float)
+    np.multiply(delta, 0.5, out=t)
+    np.tan(t, out=t)
+    np.multiply(t, t, out=cd)
+    np.add(cd, 1.0, out=inv)
+    np.divide(1.0, inv, out=inv)
+    np.subtract(1.0, cd, out=cd)
+    cd *= inv
+    np.multiply(t, 2.0, out=sd)
+    sd *= inv
+    return cd, sd
+
+
+def _distinct_rows(rows) -> tuple[list[int], np.ndarray]:
+    """First index of each distinct row (compared bit for bit) and each row's distinct number."""
+    seen: dict = {}
+    first: list[int] = []
+    which = np.empty(len(rows), dtype=np.intp)
+    for j, row in enumerate(rows):
+        key = row.tobytes()
+        m = seen.get(key)
+        if m is None:
+            m = seen[key] = len(first)
+            first.append(j)
+        which[j] = m
+    return first, which
+
+
+def _runs(seq: list, longest: int = 8) -> list[tuple[tuple, int]]:
+    """The sequence as ``(block, repeats)`` pieces, greedily from the start: ``a b c b c b a`` → a, (b c)², b, a.
+
+    At each place the block of at most ``longest`` entries whose repeats
+    cover the most entries is taken (two repeats at least); else one entry.
+    """
+    out, i, n = [], 0, len(seq)
+    while i < n:
+        best, best_p, best_r = 1, 1, 1
+        for p in range(1, min(longest, (n - i) // 2) + 1):
+            block = seq[i:i + p]
+            r = 1
+            while seq[i + r * p:i + (r + 1) * p] == block:
+                r += 1
+            if r >= 2 and p * r > best:
+                best, best_p, best_r = p * r, p, r
+        out.append((tuple(seq[i:i + best_p]), best_r))
+        i += best
+    return out
+
+
+def _mul(P, Q):
+    """``P Q`` for real 2 × 2 matrices on the two leading axes, into a new array."""
+    out = P[:, 0:1] * Q[0:1]
+    out += P[:, 1:2] * Q[1:2]
+    return out
+
+
+def _power(M, r: int):
+    """``M^r`` (r ≥ 1) by repeated squaring."""
+    result = None
+    while True:
+        if r & 1:
+            result = M if result is None else _mul(result, M)
+        r >>= 1
+        if not r:
+            return result
+        M = _mul(M, M)
+
+
+def _apply(M, X):
+    """``X ← M X`` for the real form ``M`` (2, 2, ...) of a characteristic matrix and ``X = (Re B, Im B, Re C, Im C)``."""
+    Br, Bi, Cr, Ci = X
+    g00, g01, g10, g11 = M[0, 0], M[0, 1], M[1, 0], M[1, 1]
+    # B ← g00 B + i g01 C,  C ← −i g10 B + g11 C
+    return np.stack([g00 * Br - g01 * Ci, g00 * Bi + g01 * Cr, g11 * Cr + g10 * Bi, g11 * Ci - g10 * Br])
+
+
+def _by_blocks(eta_t, k_t, d_t, seq, X):
+    """``X ← M₁ M₂ … X`` over the layer sequence ``seq`` of distinct layers (tokens), repeated blocks by powers."""
+    delta = k_t * d_t.reshape(d_t.shape + (1,) * (k_t.ndim - 1))      # (T, ..., A, W)
+    cd, sd = cos_sin(delta)
+    G = np.empty((2, 2) + eta_t.shape)                                 # (2, 2, T, 2, A, W)
+    c_e = cd[..., None, :, :]
+    s_e = sd[..., None, :, :]
+    G[0, 0] = c_e
+    G[1, 1] = c_e
+    np.divide(s_e, eta_t, out=G[0, 1])
+    np.negative(G[0, 1], out=G[0, 1])
+    np.multiply(s_e, eta_t, out=G[1, 0])
+    for block, r in reversed(_runs(seq.tolist())):
+        M = G[:, :, block[0]]
+        for t in block[1:]:
+            M = _mul(M, G[:, :, t])
+        X = _apply(M if r == 1 else _power(M, r), X)
+    return X
+
+
+def _layer_by_layer(eta_m, k_m, which, dt, X):
+    """``X ← M₁ M₂ … M_L X`` one layer at a time (four array operations per layer, no allocation in the loop).
+
+    With the material's ``E = (1/η, −1/η, η, −η)`` one layer is
+    ``X ← cos δ X + sin δ (E ⊙ reversed(X))``.
+    """
+    E = np.empty((eta_m.shape[0], 4) + eta_m.shape[1:])                # (M, 4, ..., 2, A, W)
+    E[:, 2] = eta_m
+    np.divide(1.0, eta_m, out=E[:, 0])
+    np.negative(E[:, 0], out=E[:, 1])
+    np.negative(E[:, 2], out=E[:, 3])
+    L = which.size
+    d_e = dt.reshape(dt.shape + (1, 1))
+    (delta,) = scratch_arrays(np.broadcast_shapes((L,) + k_m.shape[1:], d_e.shape), 1, slot="phase-thickness",
+                              dtype=float)
+    if delta.shape[0] == L and delta.shape[1:] == k_m.shape[1:]:
+        np.take(k_m, which, axis=0, out=delta)
+        delta *= d_e
+    else:
+        np.multiply(k_m[which], d_e, out=delta)
+    cd, sd = cos_sin(delta)
+    shape = np.broadcast_shapes(E.shape[2:], sd.shape[1:-2] + (1,) + sd.shape[-2:])   # (..., 2, A, W)
+    Xw, t = scratch_arrays((4,) + shape, 2, slot="lossless-vector", dtype=float)
+    Xw[...] = X
+    Xr = Xw[::-1]
+    a = cd[..., None, :, :]                                            # (L, ..., 1, A, W)
+    s = sd[..., None, :, :]
+    for j in range(L - 1, -1, -1):
+        np.multiply(Xr, E[which[j]], out=t)
+        t *= s[j]
+        Xw *= a[j]
+        Xw += t
+    return Xw
+
+
+def lossless_response(Nt, dt, wl, beta2, eta0, eta_s):
+    """R, T of stacks whose layers are all lossless and propagating, in real arithmetic; None otherwise.
+
+    Parameters
+    ----------
+    Nt : (L, ..., n_λ) ndarray
+        Layer indices, layer axis first.
+    dt : (L, ...) ndarray, nm
+        Thicknesses, layer axis first.
+    wl : (n_λ,) ndarray, nm
+    beta2 : (n_a, n_λ) ndarray
+        ``(n₀ sin θ₀)²``.
+    eta0 : (2, n_a, n_λ) ndarray
+        Real admittances of the incidence medium (s, p).
+    eta_s : (2, n_a, n_λ) complex ndarray
+        Admittances of the substrate.
+
+    Returns
+    -------
+    (R, T, None, None) with R, T shaped (..., 2, n_a, n_λ), or None when a
+    layer absorbs or carries an evanescent wave (the general path applies).
+    """
+    if np.iscomplexobj(Nt):
+        if np.any(Nt.imag):
+            return None
+        Nt = Nt.real
+    L = Nt.shape[0]
+    mid = Nt.shape[1:-1]
+    one_stack = math.prod(dt.shape[1:]) == 1
+    if math.prod(mid) == 1:
+        first, which = _distinct_rows(Nt.reshape(L, Nt.shape[-1]))
+        U = Nt[first]
+        # neighbours of one material are one layer: M(δ₁) M(δ₂) = M(δ₁ + δ₂)
+        starts = np.flatnonzero(np.r_[True, which[1:] != which[:-1]])
+        if starts.size < L:
+            dt = np.add.reduceat(dt, starts, axis=0)
+            which = which[starts]
+            L = starts.size
+    else:
+        U, which = Nt, np.arange(L)
+    U2 = U * U
+    arg = U2[..., None, :] - beta2                                     # (M, ..., A, W)
+    if not np.all(arg > 0):
+        return None
+    q = np.sqrt(arg)
+    eta = np.empty(q.shape[:-2] + (2,) + q.shape[-2:])                 # (M, ..., 2, A, W)
+    eta[..., 0, :, :] = q
+    np.divide(U2[..., None, :], q, out=eta[..., 1, :, :])
+    k_m = (_TWO_PI / wl) * q                                           # rad/nm, (M, ..., A, W)
+    X = np.empty((4,) + eta.shape[1:])
+    X[0] = 1.0
+    X[1] = 0.0
+    X[2] = eta_s.real
+    X[3] = eta_s.imag
+    seq = None
+    if one_stack and math.prod(mid) == 1:
+        # distinct layers (one material, one thickness): a periodic stack has few
+        first, seq = _distinct_rows(np.stack([which.astype(float), dt.reshape(L)], axis=1))
+    if seq is not None and len(first) <= L // 2:
+        which_t = which[first]
+        Br, Bi, Cr, Ci = _by_blocks(eta[which_t], k_m[which_t], dt.reshape(L)[first], seq, X)
+    else:
+        Br, Bi, Cr, Ci = _layer_by_layer(eta, k_m, which, dt, X)
+    eBr = eta0 * Br
+    eBi = eta0 * Bi
+    Yr = eBr + Cr
+    Yi = eBi + Ci
+    Y2 = Yr * Yr
+    Y2 += Yi * Yi
+    nr = eBr - Cr
+    ni = eBi - Ci
+    R = nr * nr
+    R += ni * ni
+    R /= Y2
+    T = (4.0 * eta0.real * eta_s.real) / Y2
+    return R, T, None, None
