@@ -138,19 +138,16 @@ def _power(M, r: int):
         M = _mul(M, M)
 
 
-def _apply(M, X):
-    """``X ← M X`` for the real form ``M`` (2, 2, ...) of a characteristic matrix and ``X = (Re B, Im B, Re C, Im C)``."""
-    Br, Bi, Cr, Ci = X
-    g00, g01, g10, g11 = M[0, 0], M[0, 1], M[1, 0], M[1, 1]
-    # B ← g00 B + i g01 C,  C ← −i g10 B + g11 C
-    return np.stack([g00 * Br - g01 * Ci, g00 * Bi + g01 * Cr, g11 * Cr + g10 * Bi, g11 * Ci - g10 * Br])
+def _by_blocks(eta_t, k_t, d_t, seq):
+    """The real form (2, 2, ..., 2, A, W) of ``M₁ M₂ …`` over the layer sequence ``seq`` of distinct layers.
 
-
-def _by_blocks(eta_t, k_t, d_t, seq, X):
-    """``X ← M₁ M₂ … X`` over the layer sequence ``seq`` of distinct layers (tokens), repeated blocks by powers."""
+    Distinct layers (tokens) have admittances ``eta_t`` (T, ..., 2, A, W),
+    wavenumbers ``k_t`` (T, ..., A, W) and thicknesses ``d_t`` (T,); a block
+    repeated in a row is raised to its power by squaring.
+    """
     delta = k_t * d_t.reshape(d_t.shape + (1,) * (k_t.ndim - 1))      # (T, ..., A, W)
     cd, sd = cos_sin(delta)
-    G = np.empty((2, 2) + eta_t.shape)                                 # (2, 2, T, 2, A, W)
+    G = np.empty((2, 2) + eta_t.shape)                                 # (2, 2, T, ..., 2, A, W)
     c_e = cd[..., None, :, :]
     s_e = sd[..., None, :, :]
     G[0, 0] = c_e
@@ -158,18 +155,22 @@ def _by_blocks(eta_t, k_t, d_t, seq, X):
     np.divide(s_e, eta_t, out=G[0, 1])
     np.negative(G[0, 1], out=G[0, 1])
     np.multiply(s_e, eta_t, out=G[1, 0])
-    for block, r in reversed(_runs(seq.tolist())):
+    out = None
+    for block, r in _runs(seq.tolist()):
         M = G[:, :, block[0]]
         for t in block[1:]:
             M = _mul(M, G[:, :, t])
-        X = _apply(M if r == 1 else _power(M, r), X)
-    return X
+        if r > 1:
+            M = _power(M, r)
+        out = M if out is None else _mul(out, M)
+    return out
 
 
-def _layer_by_layer(eta_m, k_m, which, dt, X):
-    """``X ← M₁ M₂ … M_L X`` one layer at a time (four array operations per layer, no allocation in the loop).
+def _layer_by_layer(eta_m, k_m, which, dt, eta_s):
+    """``X = M₁ M₂ … M_L [1, η_sub]`` as ``(Re B, Im B, Re C, Im C)``, one layer at a time from the substrate.
 
-    With the material's ``E = (1/η, −1/η, η, −η)`` one layer is
+    Four array operations per layer, no allocation in the loop: with the
+    material's ``E = (1/η, −1/η, η, −η)`` one layer is
     ``X ← cos δ X + sin δ (E ⊙ reversed(X))``.
     """
     E = np.empty((eta_m.shape[0], 4) + eta_m.shape[1:])                # (M, 4, ..., 2, A, W)
@@ -189,7 +190,10 @@ def _layer_by_layer(eta_m, k_m, which, dt, X):
     cd, sd = cos_sin(delta)
     shape = np.broadcast_shapes(E.shape[2:], sd.shape[1:-2] + (1,) + sd.shape[-2:])   # (..., 2, A, W)
     Xw, t = scratch_arrays((4,) + shape, 2, slot="lossless-vector", dtype=float)
-    Xw[...] = X
+    Xw[0] = 1.0
+    Xw[1] = 0.0
+    Xw[2] = eta_s.real
+    Xw[3] = eta_s.imag
     Xr = Xw[::-1]
     a = cd[..., None, :, :]                                            # (L, ..., 1, A, W)
     s = sd[..., None, :, :]
@@ -250,20 +254,21 @@ def lossless_response(Nt, dt, wl, beta2, eta0, eta_s):
     eta[..., 0, :, :] = q
     np.divide(U2[..., None, :], q, out=eta[..., 1, :, :])
     k_m = (_TWO_PI / wl) * q                                           # rad/nm, (M, ..., A, W)
-    X = np.empty((4,) + eta.shape[1:])
-    X[0] = 1.0
-    X[1] = 0.0
-    X[2] = eta_s.real
-    X[3] = eta_s.imag
     seq = None
     if one_stack and math.prod(mid) == 1:
         # distinct layers (one material, one thickness): a periodic stack has few
         first, seq = _distinct_rows(np.stack([which.astype(float), dt.reshape(L)], axis=1))
     if seq is not None and len(first) <= L // 2:
         which_t = which[first]
-        Br, Bi, Cr, Ci = _by_blocks(eta[which_t], k_m[which_t], dt.reshape(L)[first], seq, X)
+        P = _by_blocks(eta[which_t], k_m[which_t], dt.reshape(L)[first], seq)
+        # [B, C] = M [1, η_sub]:  B = g00 + i g01 η_sub,  C = −i g10 + g11 η_sub
+        er, ei = eta_s.real, eta_s.imag
+        Br = P[0, 0] - P[0, 1] * ei
+        Bi = P[0, 1] * er
+        Cr = P[1, 1] * er
+        Ci = P[1, 1] * ei - P[1, 0]
     else:
-        Br, Bi, Cr, Ci = _layer_by_layer(eta, k_m, which, dt, X)
+        Br, Bi, Cr, Ci = _layer_by_layer(eta, k_m, which, dt, eta_s)
     eBr = eta0 * Br
     eBi = eta0 * Bi
     Yr = eBr + Cr

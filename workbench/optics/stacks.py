@@ -30,6 +30,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
@@ -221,10 +222,20 @@ def cone_rays(aoi_deg, f_number, medium_index: float, *, rings: int = 4, azimuth
     """
     if f_number is None:
         return np.array([float(aoi_deg)]), np.ones(1)
-    r, phi, w = distinct_rays(int(rings), int(azimuths))
-    angles = ray_angles(np.asarray(float(aoi_deg)), np.asarray(float(f_number)),
-                         np.asarray(float(medium_index)), r, phi)
-    return np.asarray(angles, dtype=float).reshape(-1), np.asarray(w, dtype=float)
+    angles, w = _cone_rays(float(aoi_deg), float(f_number), float(medium_index), int(rings), int(azimuths))
+    return angles.copy(), w.copy()
+
+
+@lru_cache(maxsize=256)
+def _cone_rays(aoi_deg: float, f_number: float, medium_index: float, rings: int, azimuths: int):
+    """:func:`cone_rays` for one geometry, kept (a fit or a slider moves the layers far more often than the cone)."""
+    r, phi, w = distinct_rays(rings, azimuths)
+    angles = ray_angles(np.asarray(aoi_deg), np.asarray(f_number), np.asarray(medium_index), r, phi)
+    angles = np.asarray(angles, dtype=float).reshape(-1)
+    w = np.array(w, dtype=float)
+    angles.setflags(write=False)
+    w.setflags(write=False)
+    return angles, w
 
 
 def cone_response(layer_indices, thicknesses_nm, wavelengths_nm, *, aoi_deg=0.0, f_number=None,

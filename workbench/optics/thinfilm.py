@@ -217,10 +217,7 @@ def stack_response(
     if not np.all(np.isfinite(theta)) or np.any(theta < 0) or np.any(theta >= 90):
         bad = theta[~(np.isfinite(theta) & (theta >= 0) & (theta < 90))][0]
         raise WorkbenchError(f"'angles_deg' must be 0 ≤ angle < 90 degrees (got {bad:g})")
-    n0 = _as_medium(incident, W, "incident")
-    if np.any(n0.imag != 0):
-        raise WorkbenchError("'incident' must be lossless (k = 0) (got an absorbing medium)")
-    ns = _as_medium(substrate, W, "substrate")
+    media = _media(wl, theta, incident, substrate, back_surface, exit_medium)
     d = np.asarray(thicknesses_nm, dtype=float)
     if d.ndim == 0:
         raise WorkbenchError("'thicknesses_nm' must have a layer axis (got a scalar)")
@@ -233,17 +230,8 @@ def stack_response(
     if not np.all(np.isfinite(d)) or np.any(d <= 0):
         raise WorkbenchError("'thicknesses_nm' must be finite and > 0 nm (got "
                              f"{d[~(np.isfinite(d) & (d > 0))].reshape(-1)[0]:g})")
-    if not np.all(np.isfinite(N)) or np.any(N.real <= 0) or np.any(N.imag < 0):
+    if N.size and not (N.real.min() > 0 and N.imag.min() >= 0 and max(N.real.max(), N.imag.max()) < np.inf):
         raise WorkbenchError("'layer_indices' must be finite with n > 0 and k ≥ 0")
-
-    if back_surface and np.any(ns.imag != 0):
-        raise WorkbenchError("'substrate' must be lossless (k = 0) with back_surface (got an absorbing medium)")
-    ne = _as_medium(exit_medium, W, "exit_medium") if back_surface else None
-
-    n0r = n0.real
-    beta2 = (n0r[None, :] * np.sin(np.radians(theta))[:, None]) ** 2  # (A, W)
-    q0 = n0r[None, :] * np.cos(np.radians(theta))[:, None]             # (A, W) real
-    media = _Media(beta2, q0, n0r, ns, ne)
 
     batch = np.broadcast_shapes(N.shape[:-2], d.shape[:-1])
     L = d.shape[-1]
@@ -284,26 +272,58 @@ _CHUNK_ELEMENTS = 16384
 
 @dataclass(frozen=True)
 class _Media:
-    """The incidence medium, substrate and exit medium on the (angle, wavelength) grid."""
+    """The incidence medium, substrate and exit medium on the (angle, wavelength) grid (read-only arrays)."""
 
     beta2: np.ndarray
     q0: np.ndarray
     n0r: np.ndarray
     ns: np.ndarray
     ne: np.ndarray | None
+    eta0: np.ndarray         # (2, A, W) real
+    qs: np.ndarray           # (A, W)
+    eta_s: np.ndarray        # (2, A, W)
 
-    @property
-    def eta0(self):
-        return np.stack([self.q0, self.n0r[None, :] ** 2 / self.q0])          # (2, A, W) real
 
-    @property
-    def qs(self):
-        return normal_component(self.ns[None, :] ** 2 - self.beta2)          # (A, W)
+#: Media already checked and computed, by the bytes of what they depend on (a fit asks for the same ones
+#: again and again); cleared when full.
+_MEDIA: dict = {}
+_MEDIA_KEPT = 64
 
-    @property
-    def eta_s(self):
-        qs = self.qs
-        return np.stack([qs, self.ns[None, :] ** 2 / qs])                   # (2, A, W)
+
+def _media(wl, theta, incident, substrate, back_surface, exit_medium) -> _Media:
+    """The checked media on the (angle, wavelength) grid; kept by the bytes of the inputs."""
+    parts = [wl.tobytes(), theta.tobytes(), bool(back_surface)]
+    for value in (incident, substrate) + ((exit_medium,) if back_surface else ()):
+        a = np.asarray(value, dtype=complex)
+        parts += [a.shape, a.tobytes()]
+    key = tuple(parts)
+    media = _MEDIA.get(key)
+    if media is not None:
+        return media
+    W = wl.size
+    n0 = _as_medium(incident, W, "incident")
+    if np.any(n0.imag != 0):
+        raise WorkbenchError("'incident' must be lossless (k = 0) (got an absorbing medium)")
+    ns = _as_medium(substrate, W, "substrate")
+    if back_surface and np.any(ns.imag != 0):
+        raise WorkbenchError("'substrate' must be lossless (k = 0) with back_surface (got an absorbing medium)")
+    ne = _as_medium(exit_medium, W, "exit_medium") if back_surface else None
+    n0r = n0.real.copy()
+    beta2 = (n0r[None, :] * np.sin(np.radians(theta))[:, None]) ** 2  # (A, W)
+    q0 = n0r[None, :] * np.cos(np.radians(theta))[:, None]             # (A, W) real
+    eta0 = np.stack([q0, n0r[None, :] ** 2 / q0])
+    qs = normal_component(ns[None, :] ** 2 - beta2)
+    eta_s = np.stack([qs, ns[None, :] ** 2 / qs])
+    ns = ns.copy()
+    ne = None if ne is None else ne.copy()
+    for a in (beta2, q0, n0r, ns, ne, eta0, qs, eta_s):
+        if a is not None:
+            a.setflags(write=False)
+    media = _Media(beta2, q0, n0r, ns, ne, eta0, qs, eta_s)
+    if len(_MEDIA) >= _MEDIA_KEPT:
+        _MEDIA.clear()
+    _MEDIA[key] = media
+    return media
 
 
 def _stack(N, d, wl, media, derivatives):

@@ -40,7 +40,8 @@ from __future__ import annotations
 
 import os
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from functools import cached_property
 from pathlib import Path
 
 import numpy as np
@@ -225,7 +226,13 @@ def _more_params(options: dict) -> dict:
 
 @dataclass(frozen=True, eq=False)
 class CoatingData:
-    """What a coating needs on the design grid, made once at load."""
+    """What a coating needs on the design grid, made once at load.
+
+    ``reference_indices`` keeps, for each reference wavelength met, every
+    material's index there (what the QWOT thicknesses need), so that a fit
+    or a slider that moves other parameters does not evaluate the
+    dispersion formulas again.
+    """
 
     layers: tuple
     materials: dict
@@ -233,6 +240,28 @@ class CoatingData:
     n_incident: np.ndarray   # (n,) real
     n_substrate: np.ndarray  # (n,) complex
     notes: tuple = ()
+    reference_indices: dict = field(default_factory=dict, repr=False)
+
+    @cached_property
+    def layer_tables(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Per layer: QWOT multiple (NaN if physical), physical nm (NaN if QWOT), material number (order of ``materials``)."""
+        symbols = list(self.materials)
+        qwot = np.array([np.nan if x.qwot is None else x.qwot for x in self.layers])
+        phys = np.array([np.nan if x.physical_nm is None else x.physical_nm for x in self.layers])
+        which = np.array([symbols.index(x.symbol) for x in self.layers], dtype=np.intp)
+        for a in (qwot, phys, which):
+            a.setflags(write=False)
+        return qwot, phys, which
+
+    def indices_at(self, reference_nm: float) -> np.ndarray:
+        """Real index of every material (order of ``materials``) at one reference wavelength, kept once met."""
+        n = self.reference_indices.get(reference_nm)
+        if n is None:
+            n = np.array([m.index([reference_nm])[0].real for m in self.materials.values()])
+            if len(self.reference_indices) >= 256:
+                self.reference_indices.clear()
+            self.reference_indices[reference_nm] = n
+        return n
 
 
 def _load(x: LoadInput) -> CoatingData:
@@ -267,25 +296,24 @@ def _load(x: LoadInput) -> CoatingData:
 
 def _thicknesses(data: CoatingData, params: dict) -> np.ndarray:
     """Physical thicknesses ``(..., L)`` for batched parameters."""
-    layers, mats = data.layers, data.materials
-    L = len(layers)
+    qwot, phys, which = data.layer_tables
+    L = qwot.size
     ref = np.asarray(params.get("reference_nm", np.nan), dtype=float)
     scale = np.asarray(params["thickness_scale"], dtype=float)
     own = {i: np.asarray(params[f"layer_{i + 1}_nm"], dtype=float) for i in range(L)
            if f"layer_{i + 1}_nm" in params}
     shape = np.broadcast_shapes(ref.shape, scale.shape, *(v.shape for v in own.values()))
-    qwot = np.array([np.nan if x.qwot is None else x.qwot for x in layers])
-    phys = np.array([np.nan if x.physical_nm is None else x.physical_nm for x in layers])
     d = np.broadcast_to(phys, shape + (L,)).copy()
     need = np.isfinite(qwot)
     need[list(own)] = False
     if need.any():
-        symbols = list(mats)
-        ref_b = np.broadcast_to(ref, shape).reshape(-1)
-        n_at = np.stack([mats[s].index(ref_b).real for s in symbols])          # (M, B)
-        which = np.array([symbols.index(x.symbol) for x in layers])[need]
-        q = qwot[need][:, None] * ref_b[None, :] / (4.0 * n_at[which])           # (L_q, B)
-        d[..., need] = q.T.reshape(shape + (int(need.sum()),))
+        if ref.ndim == 0:
+            d[..., need] = qwot[need] * float(ref) / (4.0 * data.indices_at(float(ref))[which[need]])
+        else:
+            ref_b = np.broadcast_to(ref, shape).reshape(-1)
+            n_at = np.stack([m.index(ref_b).real for m in data.materials.values()])     # (M, B)
+            q = qwot[need][:, None] * ref_b[None, :] / (4.0 * n_at[which[need]])      # (L_q, B)
+            d[..., need] = q.T.reshape(shape + (int(need.sum()),))
     for i, v in own.items():
         d[..., i] = v
     return d * scale[..., None]
@@ -296,7 +324,7 @@ def _curve(x: CurveInput):
     wl = np.asarray(x.wavelengths, dtype=float)
     d = _thicknesses(data, x.params)
     symbols = list(data.materials)
-    which = np.array([symbols.index(layer.symbol) for layer in data.layers])
+    which = data.layer_tables[2]
     t_scales = [np.asarray(x.params[f"thickness_scale_{s}"], dtype=float) for s in symbols
                 if f"thickness_scale_{s}" in x.params]
     if t_scales:
@@ -322,9 +350,12 @@ def _curve(x: CurveInput):
     T = np.empty_like(R)
     # one engine call per distinct geometry (a fit step or a tolerance draw moves few of them)
     geo = np.stack([aoi_b, np.zeros_like(aoi_b) if fno_b is None else fno_b], axis=1)
-    keys, inverse = np.unique(geo, axis=0, return_inverse=True)
+    if geo.shape[0] == 1:
+        keys, inverse = geo, np.zeros(1, dtype=np.intp)
+    else:
+        keys, inverse = np.unique(geo, axis=0, return_inverse=True)
     for k, (a, f) in enumerate(keys):
-        rows = np.nonzero(inverse.reshape(-1) == k)[0]
+        rows = np.nonzero(inverse.reshape(-1) == k)[0] if len(keys) > 1 else slice(None)
         r, t, _, _ = cone_response(N if N_flat is None else N_flat[rows], d_flat[rows], wl, aoi_deg=float(a),
                                    f_number=None if fno_b is None else float(f),
                                    incident=data.n_incident, substrate=data.n_substrate,
