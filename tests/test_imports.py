@@ -54,7 +54,6 @@ class TestImportedModules:
         assert "numpy" not in names
 
     @pytest.mark.slow  # a whole fit in a fresh interpreter
-    @pytest.mark.slow
     def test_fit_without_report(self, tmp_path):
         """``fit --no-report`` uses scipy.optimize but draws nothing: no matplotlib, pandas, colour, dask."""
         names, proc = imported_modules("fit", str(ROOT / "spectra-demo/tern3_design.toml"), "--out",
@@ -62,6 +61,18 @@ class TestImportedModules:
         assert proc.returncode == 0, proc.stderr[-2000:]
         assert "scipy.optimize" in names
         assert heavy(names, ("colour", "matplotlib", "pandas", "dask", "ipywidgets", "scipy.stats")) == []
+
+    @pytest.mark.slow  # a whole fit and its report in a fresh interpreter
+    def test_fit_with_report(self, tmp_path):
+        """``fit`` writing its HTML report draws the figures as SVG of its own: no matplotlib, pandas, colour, dask."""
+        out = tmp_path / "out"
+        names, proc = imported_modules("fit", str(ROOT / "spectra-demo/tern3_design.toml"), "--out", str(out),
+                                       "--quiet")
+        assert proc.returncode == 0, proc.stderr[-2000:]
+        assert "workbench.plots.vector" in names
+        page = (out / "report.html").read_text(encoding="utf-8")
+        assert page.count("data:image/svg+xml;base64,") == 5
+        assert heavy(names, ("colour", "matplotlib", "pandas", "dask", "ipywidgets")) == []
 
     @pytest.mark.slow  # imports ipywidgets and matplotlib in a fresh interpreter
     def test_design_panel_module(self):

@@ -1,5 +1,9 @@
 """Tests of workbench.report.fit_report and workbench.plots.fit: the fit report and its five figures.
 
+The report embeds the vector figures of workbench.plots.fit_vector (tested
+in tests/test_vector_figures.py); the matplotlib figures of
+workbench.plots.fit (notebooks, ``evaluate --figures``) are tested here.
+
 One small design (a two-edge splitter and a short-pass edge on a 10 nm
 grid, CIE 13.3 and CIE 224 samples under D65 and A) is fitted once per
 module; the figures and the HTML page are checked against the numbers of
@@ -10,9 +14,9 @@ from __future__ import annotations
 
 import base64
 import re
-import struct
 from dataclasses import replace
 from html.parser import HTMLParser
+from xml.etree import ElementTree
 
 import colour
 import numpy as np
@@ -78,9 +82,6 @@ recording_illuminant = "daylight"
 viewing_illuminant = "daylight"
 """
 
-PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG (ISO/IEC 15948:2004) § 5.2
-
-
 @pytest.fixture(scope="module")
 def fitted(tmp_path_factory):
     path = tmp_path_factory.mktemp("design") / "small.toml"
@@ -105,8 +106,13 @@ def points(fitted):
 
 @pytest.fixture(scope="module")
 def figures(fitted, points):
-    _, ev, result = fitted
-    return fit_report_figures(result, ev, points=points)
+    """The matplotlib versions of the report's figures (notebooks and ``evaluate --figures`` draw these)."""
+    _, _, result = fitted
+    a = result.after
+    return {"sensitivities": plot_sensitivities_vs_targets(a, before=result.before),
+            "delta_e_bars": plot_delta_e_bars(a),
+            "chromaticity": plot_chromaticity_shifts(a, observer=result.design.observer),
+            "noise_accuracy": plot_noise_vs_accuracy(points)}
 
 
 class _Tables(HTMLParser):
@@ -158,12 +164,6 @@ def parse(page: str) -> _Tables:
     return p
 
 
-def png_size(data: bytes) -> tuple[int, int]:
-    # PNG (ISO/IEC 15948:2004) § 11.2.2: IHDR first, width and height as 4-byte big-endian integers
-    assert data[12:16] == b"IHDR"
-    return struct.unpack(">II", data[16:24])
-
-
 def cie_d65_and_cmfs(wl):
     """D65 and CIE 1931 2° from colour-science at whole-nm points (no interpolation at 10 nm)."""
     d65 = colour.SDS_ILLUMINANTS["D65"]
@@ -180,7 +180,7 @@ def cie_d65_and_cmfs(wl):
 
 class TestFitReportHtml:
     def test_five_embedded_svg_figures(self, page):
-        """Each of the five figures is an <img> with a base64 SVG of the figure's size, texts kept as text."""
+        """Each of the five figures is an <img> with a base64 SVG that parses as XML, texts kept as text."""
         srcs = re.findall(r'<img src="([^"]*)"', page)
         assert len(srcs) == 5
         for fig_id in ("sensitivities", "delta_e_bars", "chromaticity", "noise_accuracy", "chain"):
@@ -189,11 +189,20 @@ class TestFitReportHtml:
         for s in srcs:
             assert s.startswith("data:image/svg+xml;base64,")
             svg = base64.b64decode(s.split(",", 1)[1], validate=True).decode("utf-8")
-            sizes.append(re.search(r'<svg [^>]*width="([\d.]+)pt" height="([\d.]+)pt"', svg).groups())
-            assert "<text" in svg  # svg.fonttype 'none': text, not glyph outlines
-        # figure size in inches × 72 pt
-        assert sizes[0] == ("648", "504")
-        assert sizes[3] == ("540", "374.4")
+            root = ElementTree.fromstring(svg)  # well-formed XML, one <svg> root
+            assert root.tag == "{http://www.w3.org/2000/svg}svg"
+            sizes.append((root.get("width"), root.get("height")))
+            assert "<text" in svg and not re.search(r"\bnan\b", svg, flags=re.IGNORECASE)
+        # the figures' sizes in px (workbench.plots.fit_vector)
+        assert sizes[0] == ("920", "660")
+        assert sizes[3] == ("780", "540")
+
+    def test_figures_are_the_vector_figures(self, fitted, points, page):
+        """The embedded pictures are fit_report_figures' vector figures, byte for byte, in order."""
+        _, ev, result = fitted
+        figs = fit_report_figures(result, ev, points=points)
+        assert list(figs) == ["sensitivities", "delta_e_bars", "chromaticity", "noise_accuracy", "chain"]
+        assert re.findall(r'<img src="([^"]*)"', page) == [f.data_uri() for f in figs.values()]
 
     def test_throughput_table(self, page):
         """The report has the throughput table: every element of the fitted chain, then the optics together."""
@@ -201,23 +210,9 @@ class TestFitReportHtml:
         names = re.findall(r"<tr><td>([^<]*)</td>", rows)
         assert len(names) >= 2 and names[-1] == "optics together" and "optics together" not in names[:-1]
 
-    @pytest.mark.slow  # draws the report's figures again as PNG
-    def test_png_on_request(self, fitted):
-        """image_format='png' embeds PNGs of the figure's size at the dpi asked for; other formats are refused."""
-        _, ev, result = fitted
-        page = fit_report_html(result, ev, image_format="png", dpi=50)
-        srcs = re.findall(r'<img src="([^"]*)"', page)
-        assert len(srcs) == 5 and all(s.startswith("data:image/png;base64,") for s in srcs)
-        data = base64.b64decode(srcs[0].split(",", 1)[1], validate=True)
-        assert data[:8] == PNG_SIGNATURE
-        assert png_size(data) == (450, 350)  # 9 × 7 in at 50 dpi
-        with pytest.raises(WorkbenchError) as e:
-            fit_report_html(result, ev, image_format="gif")
-        assert str(e.value) == "image_format must be svg or png (got 'gif')"
-
-    @pytest.mark.slow  # draws the whole report a second time
+    @pytest.mark.slow  # computes the whole report a second time
     def test_same_bytes_twice(self, fitted, page):
-        """The page is the same when written twice (no date, fixed SVG ids)."""
+        """The page is the same when written twice (no date, numbered SVG ids)."""
         _, ev, result = fitted
         assert fit_report_html(result, ev) == page
 

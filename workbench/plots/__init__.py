@@ -1,16 +1,20 @@
-"""Figures, one module per subject. This package's ``__init__`` imports no matplotlib; its modules do.
+"""Figures, one module per subject. This package's ``__init__`` imports no matplotlib; its modules do,
+except ``vector`` and ``fit_vector``.
 
 Every plot function takes ``ax=None`` (or ``fig=None``), returns the axes or
 figure, never calls ``show()``, and labels each axis with its quantity, unit
 and method. Figures are :class:`matplotlib.figure.Figure` on the Agg canvas,
 never pyplot (:mod:`workbench.plots._canvas`); a notebook shows one with
-``display(fig)``.
+``display(fig)``. The fit report's figures are drawn without matplotlib by
+:mod:`workbench.plots.vector` (a small SVG plotter) in
+:mod:`workbench.plots.fit_vector`.
 """
 
 import importlib
 
-#: The plot modules; each is imported (with matplotlib) on first use as ``workbench.plots.NAME``.
-MODULES = ("chain", "chromaticity", "coating", "fit", "images", "light", "near_infrared", "spectra", "tolerance")
+#: The plot modules; each is imported on first use as ``workbench.plots.NAME``.
+MODULES = ("chain", "chromaticity", "coating", "fit", "fit_vector", "images", "light", "near_infrared", "spectra",
+           "tolerance", "vector")
 
 
 def __getattr__(name: str):

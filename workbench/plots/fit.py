@@ -27,6 +27,8 @@ from workbench.colorimetry.cie import observer_key
 from workbench.errors import WorkbenchError
 from workbench.plots._canvas import new_figure, place_axes
 from workbench.plots.chromaticity import AXIS_LABELS, draw_spectral_locus
+# the rules shared with the report's vector figures live there (no matplotlib)
+from workbench.plots.fit_vector import ARROW_SCALES, NOISE_KEY, NOISE_LABEL, arrow_scale, label_levels, set_runs, uv_region
 
 __all__ = [
     "plot_sensitivities_vs_targets",
@@ -44,8 +46,6 @@ _COLOURS = ("tab:red", "tab:green", "tab:blue")
 _WL_LABEL = "wavelength λ (nm)"
 _DE_LABEL = "ΔE00 (CIEDE2000)"
 
-#: Factors the u′v′ arrows may be lengthened by (the first that makes them visible).
-ARROW_SCALES = (1, 2, 5, 10, 20, 50, 100, 200, 500, 1000)
 #: A right arrow as a marker polygon, for legends (a mathtext arrow costs half a second on first use).
 ARROW_MARKER = [(-1.0, -0.12), (0.3, -0.12), (0.3, -0.42), (1.0, 0.0), (0.3, 0.42), (0.3, 0.12), (-1.0, 0.12)]
 
@@ -129,29 +129,6 @@ def plot_sensitivities_vs_targets(measures, before=None, *, fig=None):
 # --------------------------------------------------------------------------
 
 
-def _set_runs(sets: Sequence[str]) -> list[tuple[str, int, int]]:
-    """(name, first index, end index) of each run of equal set names, in order."""
-    runs = []
-    start = 0
-    for k in range(1, len(sets) + 1):
-        if k == len(sets) or sets[k] != sets[start]:
-            runs.append((sets[start], start, k))
-            start = k
-    return runs
-
-
-def _levels(positions, near: float) -> list[int]:
-    """Stacking level of each label (positions sorted) so labels closer than ``near`` do not collide."""
-    levels = []
-    for i, x in enumerate(positions):
-        taken = {levels[m] for m in range(i) if abs(positions[m] - x) < near}
-        level = 0
-        while level in taken:
-            level += 1
-        levels.append(level)
-    return levels
-
-
 def bar_collection(ax, x, heights, colours, width: float = 0.8) -> PolyCollection:
     """Bars of ``heights`` at ``x`` as one collection (one artist, not one patch per bar)."""
     h = np.nan_to_num(np.asarray(heights, dtype=float), nan=0.0)
@@ -190,7 +167,7 @@ def plot_delta_e_bars(measures, *, label_worst: int = 3, fig=None):
     d = np.atleast_2d(np.asarray(measures.per_sample, dtype=float))
     J, K = d.shape
     names = tuple(measures.sample_names)
-    runs = _set_runs(tuple(measures.sample_sets))
+    runs = set_runs(tuple(measures.sample_sets))
     fig = new_figure(10.0, 1.0 + 2.3 * J, fig)
     place_axes(fig, left=0.75, right=0.3, top=0.55, bottom=0.85, hspace=0.45, rows=J)
     axes = np.atleast_1d(fig.subplots(J, 1, sharex=True, sharey=True, squeeze=False)[:, 0])
@@ -208,7 +185,7 @@ def plot_delta_e_bars(measures, *, label_worst: int = 3, fig=None):
         for _, a, _b in runs[1:]:
             ax.axvline(a - 0.5, color="0.4", lw=0.8, ls=":")
         worst = np.argsort(-np.nan_to_num(d[j], nan=-1))[:max(0, label_worst)]
-        for k, level in zip(sorted(worst), _levels(sorted(worst), 5)):
+        for k, level in zip(sorted(worst), label_levels(sorted(worst), 5)):
             ax.annotate(names[k], (k, d[j, k]), xytext=(0, 2 + 9 * level), textcoords="offset points",
                         ha="center", va="bottom", fontsize=6.5)
         ax.set_ylabel(_DE_LABEL)
@@ -229,17 +206,6 @@ def plot_delta_e_bars(measures, *, label_worst: int = 3, fig=None):
 # --------------------------------------------------------------------------
 # u′v′ shifts
 # --------------------------------------------------------------------------
-
-
-def arrow_scale(lengths: np.ndarray, extent: float) -> int:
-    """The first of ARROW_SCALES making the median arrow at least 3 % of the view."""
-    med = float(np.median(lengths)) if lengths.size else 0.0
-    if med <= 0 or extent <= 0:
-        return 1
-    for k in ARROW_SCALES:
-        if med * k >= 0.03 * extent:
-            return k
-    return ARROW_SCALES[-1]
 
 
 def draw_shift_arrows(fig, ax, start, delta, de, names, *, k, corner, side, label_worst=3,
@@ -319,17 +285,9 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
     names = [n for n, keep in zip(measures.sample_names, ok) if keep]
     dv = c - t
 
-    def region(points):
-        """A square around the points with a margin: (lower-left corner, side)."""
-        if not len(points):
-            return np.array([0.15, 0.4]), 0.1
-        lo, hi = points.min(axis=0), points.max(axis=0)
-        side = max(float(np.max(hi - lo)), 0.01) * 1.08
-        return (lo + hi) / 2 - side / 2, side
-
-    _, side = region(np.vstack([t, c]) if len(t) else t)
+    _, side = uv_region(np.vstack([t, c]) if len(t) else t)
     k = arrow_scale(np.linalg.norm(dv, axis=1), side)
-    corner, side = region(np.vstack([t, t + k * dv]) if len(t) else t)
+    corner, side = uv_region(np.vstack([t, t + k * dv]) if len(t) else t)
 
     fig = new_figure(12.0, 5.8, fig)
     place_axes(fig, left=0.75, right=0.2, top=0.55, bottom=1.15, wspace=0.9, cols=2)
@@ -368,13 +326,6 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
 # Noise against accuracy
 # --------------------------------------------------------------------------
 
-_NOISE_LABEL = {
-    "row-norm": "noise gain: largest row norm ‖mᵢ‖ of the matrix (identity = 1)",
-    "sigma-out": "output noise σ_out of the grey patch, display RGB (white = 1)",
-}
-_NOISE_KEY = {"row-norm": "noise_gain", "sigma-out": "sigma_out"}
-
-
 def plot_noise_vs_accuracy(points: Sequence[Mapping], *, noise: str = "row-norm", fig=None):
     """Scatter of noise against mean ΔE00 for labelled design states.
 
@@ -396,9 +347,9 @@ def plot_noise_vs_accuracy(points: Sequence[Mapping], *, noise: str = "row-norm"
     -------
     matplotlib.figure.Figure
     """
-    if noise not in _NOISE_KEY:
-        raise WorkbenchError(f"noise must be one of {', '.join(_NOISE_KEY)} (got {noise!r})")
-    key = _NOISE_KEY[noise]
+    if noise not in NOISE_KEY:
+        raise WorkbenchError(f"noise must be one of {', '.join(NOISE_KEY)} (got {noise!r})")
+    key = NOISE_KEY[noise]
     fig = new_figure(7.5, 5.2, fig)
     place_axes(fig, left=0.75, right=0.2, top=0.4, bottom=0.55)
     ax = fig.subplots()
@@ -417,7 +368,7 @@ def plot_noise_vs_accuracy(points: Sequence[Mapping], *, noise: str = "row-norm"
         for a in range(len(group) - 1):
             ax.annotate("", (xs[a + 1], ys[a + 1]), (xs[a], ys[a]),
                         arrowprops={"arrowstyle": "->", "color": col, "lw": 1.0, "alpha": 0.7})
-    ax.set_xlabel(_NOISE_LABEL[noise])
+    ax.set_xlabel(NOISE_LABEL[noise])
     ax.set_ylabel("mean ΔE00 (CIEDE2000) over samples × illuminants")
     ax.grid(alpha=0.3)
     ax.margins(0.15)

@@ -1,8 +1,10 @@
 """The report of a camera fit: one self-contained HTML file.
 
 :func:`fit_report_html` turns a :class:`workbench.analysis.fit.FitResult` into a
-single HTML page — inline CSS, every figure embedded as a base64 SVG (or
-PNG), no link to anything outside the file — that shows, in order:
+single HTML page — inline CSS, every figure embedded as a base64 SVG drawn
+by :mod:`workbench.plots.fit_vector` (no matplotlib: its import alone
+would cost more than the whole report), no link to anything outside the
+file — that shows, in order:
 
 1. the fit's status (its code and reason from
    :data:`workbench.analysis.fit.FIT_STATUS_TABLE`, with the local solver's
@@ -12,9 +14,10 @@ PNG), no link to anything outside the file — that shows, in order:
 3. the headline measures at the start and after the fit (Vora value ν,
    Neugebauer q, Luther residual, ΔE00 mean / median / p95 / max per
    illuminant, the ISO 17321-1-style SMI, the noise of the matrix);
-4. four figures (:mod:`workbench.plots.fit`): sensitivities against the
-   targets with their residual, per-sample ΔE00 bars, u′v′ shifts, and
-   noise against accuracy for the three matrix rules before and after;
+4. five figures: sensitivities against the targets with their residual,
+   per-sample ΔE00 bars, u′v′ shifts, noise against accuracy for the
+   three matrix rules before and after, the chain element by element
+   (and the accuracy-noise front of ``--front``);
 5. the fitted parameters with start, value, bounds and an at-bound flag,
    the fitted matrix and the notes of the evaluation.
 
@@ -24,7 +27,6 @@ saves the page atomically.
 
 from __future__ import annotations
 
-import base64
 from pathlib import Path
 
 import numpy as np
@@ -36,14 +38,11 @@ from workbench.analysis.measures_report import noise_report
 from workbench.analysis.fit_objective import WORST_P
 from workbench.analysis.fit_result import BOUND_COSTS_METHOD, parameter_unit
 from workbench.analysis.measures import vora_value
-from workbench.errors import InputFileError, WorkbenchError
+from workbench.errors import InputFileError
 from workbench.fileio.atomic import write_text_atomically
 from workbench.report.html import bound_costs_table, escape as _esc, number_text as _f
-from workbench.plots._canvas import png_bytes, svg_bytes
-from workbench.plots.fit import (plot_chromaticity_shifts, plot_delta_e_bars, plot_noise_vs_accuracy,
-                                 plot_sensitivities_vs_targets)
-from workbench.plots.chain import plot_chain
-from workbench.plots._canvas import new_figure, place_axes
+from workbench.plots.fit_vector import (chain_figure, chromaticity_figure, delta_e_bars_figure, front_figure,
+                                        noise_accuracy_figure, sensitivities_figure)
 from workbench.analysis.throughput import throughput
 
 __all__ = [
@@ -142,29 +141,31 @@ def noise_accuracy_points(result, evaluator=None, *, methods=MATRIX_METHODS) -> 
 
 
 def fit_report_figures(result, evaluator=None, *, points=None) -> dict:
-    """The report's figures as matplotlib Figures, by name.
+    """The report's figures as vector figures (:class:`workbench.plots.vector.Figure`), by name.
 
     Names: ``sensitivities``, ``delta_e_bars``, ``chromaticity``,
     ``noise_accuracy``, ``chain`` (each path's element curves and their
-    product for the fitted design). ``points`` default to
-    :func:`noise_accuracy_points`.
+    product for the fitted design), and ``front`` when the fit ran one.
+    ``points`` default to :func:`noise_accuracy_points`. The content is
+    that of the matplotlib figures of :mod:`workbench.plots.fit` and
+    :mod:`workbench.plots.chain`; nothing here imports matplotlib.
     """
     if points is None:
         points = noise_accuracy_points(result, evaluator)
     a = result.after
     figs = {
-        "sensitivities": plot_sensitivities_vs_targets(a, before=result.before),
-        "delta_e_bars": plot_delta_e_bars(a),
-        "chromaticity": plot_chromaticity_shifts(a, observer=result.design.observer),
-        "noise_accuracy": plot_noise_vs_accuracy(points),
-        "chain": plot_chain(a.wavelengths, result.design.element_curves())[0].figure,
+        "sensitivities": sensitivities_figure(a, before=result.before),
+        "delta_e_bars": delta_e_bars_figure(a),
+        "chromaticity": chromaticity_figure(a, observer=result.design.observer),
+        "noise_accuracy": noise_accuracy_figure(points),
+        "chain": chain_figure(a.wavelengths, result.design.element_curves()),
     }
     if getattr(result, "front", ()):
         figs["front"] = plot_front(result.front)
     return figs
 
 
-def plot_front(front, *, chosen: int = 0, fig=None):
+def plot_front(front, *, chosen: int = 0):
     """The accuracy-noise front: mean ΔE00 against noise gain, the chosen point (the written fit) marked.
 
     Parameters
@@ -176,29 +177,15 @@ def plot_front(front, *, chosen: int = 0, fig=None):
 
     Returns
     -------
-    matplotlib.figure.Figure
+    workbench.plots.vector.Figure
+        ``.svg()`` the picture, ``.data_uri()`` for an ``<img>``.
     """
-    fig = new_figure(7.5, 5.0, fig)
-    place_axes(fig, left=0.75, right=0.2, top=0.4, bottom=0.55)
-    ax = fig.subplots()
-    x = np.array([p["noise_gain_rms"] for p in front])
-    y = np.array([p["mean_delta_E00"] for p in front])
-    ax.plot(x, y, "-o", color="C0", ms=6, label="non-dominated fits")
-    for p, xi, yi in zip(front, x, y):
-        ax.annotate(f"t = {p['t']:.2g}", (xi, yi), textcoords="offset points", xytext=(6, 4), fontsize=8)
-    ax.plot(x[chosen], y[chosen], "*", ms=16, color="C3", label="the written fit")
-    ax.set_xlabel("noise gain: RMS row norm of the matrix (1 = no gain)")
-    ax.set_ylabel("mean ΔE00 (CIEDE2000), samples × illuminants")
-    ax.set_title("Accuracy against noise")
-    ax.grid(True, alpha=0.3)
-    ax.legend(loc="upper right", fontsize=8)
-    return fig
+    return front_figure(front, chosen=chosen)
 
 
-def _data_uri(fig, image_format: str = "svg", dpi: int = 100) -> str:
-    if image_format == "png":
-        return "data:image/png;base64," + base64.b64encode(png_bytes(fig, dpi=dpi)).decode("ascii")
-    return "data:image/svg+xml;base64," + base64.b64encode(svg_bytes(fig)).decode("ascii")
+def _data_uri(fig) -> str:
+    """The figure as a base64 SVG data URI."""
+    return fig.data_uri()
 
 
 # --------------------------------------------------------------------------
@@ -451,8 +438,8 @@ def _throughput_table(design) -> str:
             f"<th>B (%)</th></tr>{body}</table>")
 
 
-def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: int = 100) -> str:
-    """One self-contained HTML page reporting a fit (inline CSS, figures as base64 SVG or PNG, no links).
+def fit_report_html(result, evaluator=None) -> str:
+    """One self-contained HTML page reporting a fit (inline CSS, figures as base64 SVG, no links).
 
     Parameters
     ----------
@@ -460,11 +447,6 @@ def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: i
     evaluator : DesignEvaluator, optional
         Of ``result.start_design``, for the noise-against-accuracy points
         (built when None).
-    image_format : {'svg', 'png'}
-        How the figures are embedded: SVG (default; vector, texts as text,
-        smaller and about twice as fast to write as PNG) or PNG.
-    dpi : int
-        Resolution of PNG figures.
 
     Returns
     -------
@@ -472,14 +454,9 @@ def fit_report_html(result, evaluator=None, *, image_format: str = "svg", dpi: i
         The HTML document. The status block (``id="status"``) says
         Converged, or NOT CONVERGED with the reason from the status table.
     """
-    if image_format not in ("svg", "png"):
-        raise WorkbenchError(f"image_format must be svg or png (got {image_format!r})")
     points = noise_accuracy_points(result, evaluator)
     figs = fit_report_figures(result, evaluator, points=points)
-    images = {}
-    for name, fig in figs.items():
-        images[name] = _data_uri(fig, image_format, dpi)
-        fig.clear()
+    images = {name: _data_uri(fig) for name, fig in figs.items()}
     a = result.after
     d = result.design
     fit = result.start_design.fit

@@ -18,7 +18,6 @@ import ipywidgets as W
 
 from workbench.errors import WorkbenchError
 from workbench.model.design import Design
-from workbench.plots._canvas import svg_bytes
 from workbench.widgets.common import compact, guard
 
 __all__ = ["FitControls"]
@@ -217,9 +216,7 @@ class FitControls:
 
         out = robust_section_html(res)
         if res.front:
-            fig = plot_front(res.front)
-            data = base64.b64encode(svg_bytes(fig)).decode("ascii")
-            fig.clear()
+            data = base64.b64encode(plot_front(res.front).svg_bytes()).decode("ascii")  # a vector figure
             rows = "".join(
                 f"<tr><td>{p['t']:.2g}</td><td>{p['mean_delta_E00']:.3f}</td>"
                 f"<td>{p['worst_illuminant_mean_delta_E00']:.3f}</td><td>{p['noise_gain_rms']:.3f}</td>"
