@@ -44,7 +44,8 @@ def texts(root) -> list[str]:
 
 def numbers(svg: str) -> list[float]:
     """Every number in the picture's path data and coordinates."""
-    return [float(v) for v in re.findall(r"-?\d+(?:\.\d+)?", " ".join(re.findall(r'(?:d|x|y|width|height)="([^"]*)"', svg)))]
+    attrs = " ".join(re.findall(r'(?:d|x|y|width|height)="([^"]*)"', svg))
+    return [float(v) for v in re.findall(r"-?\d+(?:\.\d+)?", attrs)]
 
 
 @pytest.fixture(scope="module")
@@ -461,3 +462,24 @@ class TestDeterministic:
         parse(front_figure([{"noise_gain_rms": 1.0, "mean_delta_E00": 1.0, "t": 0.0}]))
         curve = SimpleNamespace(name="only", type="glass", paths=("R", "G", "B"), values=np.ones((3, 5)))
         parse(chain_figure(np.linspace(400, 700, 5), [curve]))
+
+
+class TestLongTitles:
+    def test_wrap_text(self):
+        """Lines break between words to fit the width; explicit line breaks are kept."""
+        from workbench.plots.vector import wrap_text
+
+        lines = wrap_text("alpha beta gamma delta\nepsilon", 12, text_width("alpha beta gamma", 12) + 1)
+        assert lines == ["alpha beta gamma", "delta", "epsilon"]
+
+    def test_long_target_name_wrapped_and_panels_moved(self, fitted):
+        """A target name too long for one line is wrapped; the panels move down and the figure grows."""
+        result, _ = fitted
+        a = result.after
+        long = replace(a, methods={**a.methods, "target": "a display with a very long name " * 4})
+        short_fig, long_fig = sensitivities_figure(a), sensitivities_figure(long)
+        assert long_fig.height > short_fig.height
+        assert long_fig.axes[0].box[1] - short_fig.axes[0].box[1] == long_fig.height - short_fig.height
+        title = [t for t in texts(parse(long_fig)) if t.startswith("Camera after")][0]
+        assert title.count("\n") >= 2
+        assert all(text_width(line, 15.1) <= long_fig.width - 40 for line in title.split("\n"))

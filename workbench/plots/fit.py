@@ -28,7 +28,8 @@ from workbench.errors import WorkbenchError
 from workbench.plots._canvas import new_figure, place_axes
 from workbench.plots.chromaticity import AXIS_LABELS, draw_spectral_locus
 # the rules shared with the report's vector figures live there (no matplotlib)
-from workbench.plots.fit_vector import ARROW_SCALES, NOISE_KEY, NOISE_LABEL, arrow_scale, label_levels, set_runs, uv_region
+from workbench.plots.fit_vector import (ARROW_SCALES, NOISE_KEY, NOISE_LABEL, arrow_scale, label_levels, set_runs,
+                                        uv_region)
 
 __all__ = [
     "plot_sensitivities_vs_targets",

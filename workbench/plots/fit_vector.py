@@ -139,8 +139,8 @@ def sensitivities_figure(measures, before=None) -> Figure:
     B = None if before is None else np.asarray(before.curves, dtype=float)
     fig = Figure(920, 660, name="sensitivities", alt="sensitivities against targets with residual panel")
     target = measures.methods.get("target", "the display primaries")
-    fig.title(f"Camera after white balance and the {_matrix_text(measures)} matrix under "
-              f"{measures.curve_illuminant}\nagainst the target colour-matching functions of {target}")
+    title_lines = fig.title(f"Camera after white balance and the {_matrix_text(measures)} matrix under "
+                            f"{measures.curve_illuminant}\nagainst the target colour-matching functions of {target}")
     top_box, bottom_box = stack(96, 84, 620, 660 - 84 - 62, ratios=(2.2, 1.0), gap=44)
     xlim = (float(wl[0]), float(wl[-1])) if wl.size else (0.0, 1.0)
     top = fig.add_axes(top_box, xlim=xlim)
@@ -164,6 +164,7 @@ def sensitivities_figure(measures, before=None) -> Figure:
     bottom.set(ylabel="camera − target\n(same scale)", xlabel=WL_LABEL, title="residual per wavelength")
     top.legend("right")
     bottom.legend("right")
+    fig.grow(18 * (title_lines - 2))  # a long name wrapped: the panels move down
     return fig
 
 
@@ -193,7 +194,8 @@ def delta_e_bars_figure(measures, *, label_worst: int = 3) -> Figure:
     panel_h, gap = 190.0, 58.0
     height = 58 + J * panel_h + (J - 1) * gap + 84
     fig = Figure(920, height, name="delta-e-bars", alt="per-sample ΔE00 bars per illuminant")
-    fig.title(f"Per-sample ΔE00 after white balance and the {_matrix_text(measures)} matrix, each illuminant")
+    title_lines = fig.title(f"Per-sample ΔE00 after white balance and the {_matrix_text(measures)} matrix, "
+                            "each illuminant")
     boxes = stack(72, 76, 660, J * panel_h + (J - 1) * gap, ratios=(1.0,) * J, gap=gap)
     x = np.arange(K, dtype=float)
     first = None
@@ -217,6 +219,7 @@ def delta_e_bars_figure(measures, *, label_worst: int = 3) -> Figure:
         ax.legend("right")
     first.xticks([(a + b - 1) / 2 for _, a, b in runs], [f"{n}\n({b - a} samples)" for n, a, b in runs])
     fig.axes[-1].set(xlabel="sample, in the design's set order (sets separated by dotted lines)")
+    fig.grow(18 * (title_lines - 1))
     return fig
 
 
@@ -226,7 +229,7 @@ def delta_e_bars_figure(measures, *, label_worst: int = 3) -> Figure:
 
 
 def chromaticity_figure(measures, illuminant: str | None = None, *, observer="2", label_worst: int = 3) -> Figure:
-    """CIE 1976 u′v′: the whole diagram with the samples, and a zoom with an arrow from each true colour to the camera's.
+    """CIE 1976 u′v′: the diagram with the samples, and a zoom with an arrow from each true colour to the camera's.
 
     As :func:`workbench.plots.fit.plot_chromaticity_shifts`: arrows
     coloured by ΔE00 (colour bar), lengthened by a factor from
@@ -253,7 +256,7 @@ def chromaticity_figure(measures, illuminant: str | None = None, *, observer="2"
     wl, locus = _spectral_locus_uv(key)
     closed = np.vstack([locus, locus[:1]])
     fig = Figure(1040, 600, name="chromaticity", alt="u′v′ diagram with arrows from true to camera colour")
-    fig.title(f"Colour shifts under {ill}: white balance and the {_matrix_text(measures)} matrix")
+    title_lines = fig.title(f"Colour shifts under {ill}: white balance and the {_matrix_text(measures)} matrix")
     full = fig.add_axes((78, 72, 390, 390), xlim=(0, 0.65), ylim=(0, 0.65), equal=True)
     full.line(closed[:, 0], closed[:, 1], colour="#333333", width=1.2,
               label=f"spectral locus 380-700 nm ({observer_label(key)})")
@@ -275,7 +278,7 @@ def chromaticity_figure(measures, illuminant: str | None = None, *, observer="2"
     zoom.markers(t[:, 0], t[:, 1], size=5, fill="#ffffff", edge="#333333", edge_width=0.9,
                  label="true colour (adapted to the display white)")
     zoom.arrows(t[:, 0], t[:, 1], k * dv[:, 0], k * dv[:, 1], colours=colour_map(de, 0.0, de_hi), width=1.2,
-                head=6.5, label=what)
+                head=6.5, label=what, legend_colour=colour_map([0.5], 0.0, 1.0)[0])
     worst = sorted(np.argsort(-np.nan_to_num(de, nan=-1))[:max(0, label_worst)], key=lambda i: t[i, 1])
     placed: list = []
     for i in worst:
@@ -285,6 +288,7 @@ def chromaticity_figure(measures, illuminant: str | None = None, *, observer="2"
     zoom.colorbar(0.0, de_hi, label=DE_LABEL)
     zoom.set(xlabel=UV_LABELS[0], ylabel=UV_LABELS[1], title=f"{what}; colour = ΔE00")
     zoom.legend("below")
+    fig.grow(18 * (title_lines - 1))
     return fig
 
 
@@ -339,9 +343,12 @@ def chain_figure(wavelengths, curves) -> Figure:
     labels = [f"{c.name} ({c.type})" for c in curves] + ["cumulative R"]
     legend_w = max(text_width(s, 10.5) for s in labels) + 50
     width = max(760.0, 90 + 560 + legend_w + 16)
-    fig = Figure(width, 820, name="chain", alt="element curves and their product along each channel's path")
+    entries = max((sum(1 for c in curves if ch in c.paths) + 1 for ch in _CHANNELS), default=1)
+    panel_h = max(200.0, 15.75 * entries + 20)  # each panel as tall as its legend at least
+    height = 66 + 3 * panel_h + 2 * 48 + 62
+    fig = Figure(width, height, name="chain", alt="element curves and their product along each channel's path")
     fig.title("The fitted chain element by element")
-    boxes = stack(90, 66, width - 90 - legend_w - 16, 820 - 66 - 62, ratios=(1, 1, 1), gap=48)
+    boxes = stack(90, 66, width - 90 - legend_w - 16, 3 * panel_h + 2 * 48, ratios=(1, 1, 1), gap=48)
     xlim = (float(wl[0]), float(wl[-1])) if wl.size else (0.0, 1.0)
     axes = []
     total = np.ones((3, wl.size))
@@ -372,10 +379,11 @@ def chain_figure(wavelengths, curves) -> Figure:
 
 
 def front_figure(front, *, chosen: int = 0) -> Figure:
-    """The accuracy-noise front: mean ΔE00 against noise gain (RMS row norm), each point's t, the chosen one starred."""
+    """The accuracy-noise front: mean ΔE00 against noise gain (RMS row norm), each point's t, the chosen starred."""
     x = np.array([float(p["noise_gain_rms"]) for p in front])
     y = np.array([float(p["mean_delta_E00"]) for p in front])
-    fig = Figure(780, 520, name="front", alt="the accuracy-noise front: mean ΔE00 against noise gain, the written fit starred")
+    fig = Figure(780, 520, name="front",
+                 alt="the accuracy-noise front: mean ΔE00 against noise gain, the written fit starred")
     fig.title("Accuracy against noise")
     ax = fig.add_axes((84, 48, 670, 520 - 48 - 62), margin=(0.08, 0.1))
     ax.line(x, y, colour=PALETTE[0], width=1.6)

@@ -46,6 +46,7 @@ __all__ = [
     "nice_limits",
     "tick_labels",
     "text_width",
+    "wrap_text",
     "xml_escape",
     "colour_map",
     "MARKERS",
@@ -76,7 +77,11 @@ _INVALID_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff\ud800-\udfff]
 
 
 def xml_escape(text) -> str:
-    """``text`` as XML character data or attribute value: ``& < > " '`` escaped, characters XML 1.0 forbids as U+FFFD."""
+    """``text`` as XML character data or attribute value.
+
+    ``& < > " '`` are escaped; characters XML 1.0 forbids (C0 controls but
+    tab and newlines, surrogates, U+FFFE, U+FFFF) become U+FFFD.
+    """
     s = _INVALID_XML.sub("\ufffd", str(text))
     return (s.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;").replace('"', "&quot;")
             .replace("'", "&#39;"))
@@ -94,6 +99,22 @@ for _chars, _w in (("il.,:;'|!ı", 0.29), ("jI", 0.30), (" ", 0.32), ("ft()[]{}/
         _WIDTHS[_c] = _w
 # combining marks (the bar of r̄) take no width
 _ZERO_WIDTH = {"\u0304", "\u0305", "\u0302", "\u0303", "\u200b"}
+
+
+def wrap_text(text, size: float, width: float) -> list[str]:
+    """``text`` in lines at most ``width`` px wide at ``size`` px (broken at '\\n', then between words)."""
+    out = []
+    for line in str(text).split("\n"):
+        words = line.split(" ")
+        current = words[0]
+        for w in words[1:]:
+            if text_width(current + " " + w, size) <= width:
+                current += " " + w
+            else:
+                out.append(current)
+                current = w
+        out.append(current)
+    return out
 
 
 def text_width(text: str, size: float) -> float:
@@ -226,10 +247,19 @@ def _style(*, stroke=None, width=None, fill="none", dash=None, opacity=None, cap
     return " ".join(parts)
 
 
+def _path(d: str, **style) -> str:
+    """A <path> with data ``d`` and the :func:`_style` of ``style``."""
+    return f'<path d="{d}" {_style(**style)}/>'
+
+
 def _text_svg(x: float, y: float, text, *, size: float = 12, anchor: str = "start", va: str = "baseline",
               colour: str = _TEXT, weight: str | None = None, rotate: float = 0.0, halo: bool = False,
               italic: bool = False) -> str:
-    """A <text> at (x, y) px; lines split at '\\n'; ``va`` 'baseline', 'middle', 'top' or 'bottom' (of the last line)."""
+    """A <text> at (x, y) px; lines split at '\\n'.
+
+    ``va``: the first line's baseline at y ('baseline'), the block's middle
+    ('middle'), its top ('top') or the last line's bottom ('bottom').
+    """
     lines = str(text).split("\n")
     n = len(lines)
     lead = 1.2 * size
@@ -347,7 +377,10 @@ class Axes:
 
     def line(self, x, y, *, colour: str = PALETTE[0], width: float = 1.5, dash: str | None = None,
              opacity: float = 1.0, label: str | None = None) -> "Axes":
-        """A polyline through (x, y); non-finite points break it. ``dash`` 'dashed', 'dotted', 'dashdot' or a dash array."""
+        """A polyline through (x, y); non-finite points break it.
+
+        ``dash``: 'dashed', 'dotted', 'dashdot' or an SVG dash array ('4 2').
+        """
         x, y = np.broadcast_arrays(np.asarray(x, dtype=float).ravel(), np.asarray(y, dtype=float).ravel())
         self.items.append(("line", x, y, {"colour": colour, "width": width, "dash": dash, "opacity": opacity}))
         self._entry(label, "line", {"colour": colour, "width": width, "dash": dash, "opacity": opacity})
@@ -408,14 +441,14 @@ class Axes:
         return self
 
     def arrows(self, x, y, dx, dy, *, colours, width: float = 1.2, head: float = 7.0, shrink: float = 0.0,
-               label: str | None = None) -> "Axes":
+               label: str | None = None, legend_colour: str | None = None) -> "Axes":
         """Arrows from (x, y) by (dx, dy) in data units, both ends pulled in by ``shrink`` px (to clear markers);
         ``colours`` one or one per arrow (one path per colour)."""
         x, y, dx, dy = (np.asarray(v, dtype=float).ravel() for v in (x, y, dx, dy))
         cols = [colours] * x.size if isinstance(colours, str) else list(colours)
         self.items.append(("arrows", np.concatenate([x, x + dx]), np.concatenate([y, y + dy]),
                            {"colours": cols, "width": width, "head": head, "n": x.size, "shrink": shrink}))
-        self._entry(label, "arrow", {"colour": cols[0] if cols else PALETTE[0]})
+        self._entry(label, "arrow", {"colour": legend_colour or (cols[0] if cols else PALETTE[0])})
         return self
 
     def annotate(self, text, x: float, y: float, *, dx: float = 0.0, dy: float = 0.0, size: float = 10.0,
@@ -599,7 +632,8 @@ class Axes:
                     d.append("M" + pts[0] + ("L" + " ".join(pts[1:]) if len(pts) > 1 else ""))
             if not d:
                 return []
-            return [f'<path d="{"".join(d)}" {_style(stroke=st["colour"], width=st["width"], dash=st["dash"], opacity=st["opacity"], join="round", cap="round" if not st["dash"] else None)}/>']
+            return [_path("".join(d), stroke=st["colour"], width=st["width"], dash=st["dash"], opacity=st["opacity"],
+                          join="round", cap=None if st["dash"] else "round")]
         if kind in ("hline", "vline"):
             if kind == "hline":
                 p = float(self.py(y[0]))
@@ -609,7 +643,7 @@ class Axes:
                 d = f"M{_n(p)},{_n(top)}V{_n(top + h)}"
             if not math.isfinite(p):
                 return []
-            return [f'<path d="{d}" {_style(stroke=st["colour"], width=st["width"], dash=st["dash"], opacity=st["opacity"])}/>']
+            return [_path(d, stroke=st["colour"], width=st["width"], dash=st["dash"], opacity=st["opacity"])]
         if kind == "markers":
             px, py = self.px(x), self.py(y)
             ok = np.isfinite(px) & np.isfinite(py)
@@ -618,7 +652,8 @@ class Axes:
                 np.clip(px[ok], -_FAR, _FAR).tolist(), np.clip(py[ok], -_FAR, _FAR).tolist()))
             if not d:
                 return []
-            return [f'<path d="{d}" {_style(fill=st["fill"] or "none", stroke=st["edge"], width=st["edge_width"], opacity=st["opacity"])}/>']
+            return [_path(d, fill=st["fill"] or "none", stroke=st["edge"], width=st["edge_width"],
+                          opacity=st["opacity"])]
         if kind == "bars":
             x0, x1 = self.px(x - st["width"] / 2), self.px(x + st["width"] / 2)
             yb, yt = self.py(np.full_like(y, st["base"])), self.py(y)
@@ -638,7 +673,8 @@ class Axes:
             if len(pts) < 2:
                 return []
             d = "M" + pts[0] + "L" + " ".join(pts[1:]) + "z"
-            return [f'<path d="{d}" {_style(fill=st["fill"] or "none", stroke=st["edge"], width=st["width"], opacity=st["opacity"], dash=st["dash"], join="round")}/>']
+            return [_path(d, fill=st["fill"] or "none", stroke=st["edge"], width=st["width"], opacity=st["opacity"],
+                          dash=st["dash"], join="round")]
         if kind == "arrows":
             n = st["n"]
             px, py = self.px(x), self.py(y)
@@ -745,14 +781,14 @@ class Axes:
             return (f'<path d="M{_n(x)},{_n(y)}h{_n(length)}" '
                     f'{_style(stroke=st["colour"], width=st["width"], dash=st["dash"], opacity=st["opacity"])}/>')
         if kind == "marker":
-            return (f'<path d="{_marker_path(st["shape"], x + length / 2, y, st["size"] / 2)}" '
-                    f'{_style(fill=st["fill"] or "none", stroke=st["edge"], width=st["edge_width"], opacity=st["opacity"])}/>')
+            return _path(_marker_path(st["shape"], x + length / 2, y, st["size"] / 2), fill=st["fill"] or "none",
+                         stroke=st["edge"], width=st["edge_width"], opacity=st["opacity"])
         if kind == "arrow":
             s, t = _arrow_path(x + 2, y, x + length - 1, y, 7.0)
             return (f'<path d="{s}" {_style(stroke=st["colour"], width=1.4)}/>'
                     f'<path d="{t}" fill="{st["colour"]}"/>')
-        return (f'<rect x="{_n(x + 4)}" y="{_n(y - 5)}" width="{_n(length - 8)}" height="10" '
-                f'{_style(fill=st["fill"] or "none", stroke=st["edge"] or None, width=st["width"], opacity=st["opacity"])}/>')
+        style = _style(fill=st["fill"] or "none", stroke=st["edge"], width=st["width"], opacity=st["opacity"])
+        return f'<rect x="{_n(x + 4)}" y="{_n(y - 5)}" width="{_n(length - 8)}" height="10" {style}/>'
 
     def _best_corner(self, bw: float, bh: float) -> str:
         """The inside corner whose legend box covers the fewest drawn points (and bar tops)."""
@@ -836,9 +872,22 @@ class Figure:
                                     rotate=rotate))
         return self
 
-    def title(self, text, *, size: float = 14.5, y: float = 10.0) -> "Figure":
-        """The figure's title, centred at the top (lines split at '\\n')."""
-        return self.text(self.width / 2, y, text, size=size, anchor="middle", va="top", weight="600")
+    def title(self, text, *, size: float = 14.5, y: float = 10.0) -> int:
+        """The figure's title, centred at the top, wrapped to the figure's width; returns its number of lines.
+
+        Lines break at '\\n' and, where a line is wider than the figure, between words.
+        """
+        lines = wrap_text(text, size * 1.04, self.width - 40)  # bold is a little wider
+        self.text(self.width / 2, y, "\n".join(lines), size=size, anchor="middle", va="top", weight="600")
+        return len(lines)
+
+    def grow(self, dy: float) -> None:
+        """Move every axes down by ``dy`` px and make the figure that much taller (room for a longer title)."""
+        if dy:
+            self.height += dy
+            for ax in self.axes:
+                left, top, w, h = ax.box
+                ax.box = (left, top + dy, w, h)
 
     def svg(self) -> str:
         """The standalone SVG document (UTF-8 text, no XML declaration needed)."""
