@@ -28,6 +28,7 @@ from workbench.analysis.evaluator import DesignEvaluator, fitted_matrix
 from workbench.analysis.fit_objective import Objective, RobustObjective, bound_costs
 from workbench.analysis.fit_result import FIT_STATUS_TABLE, FitResult, FitStatus, FitStopped, parameter_unit
 from workbench.analysis.progress import progress_bar
+from workbench.analysis.threads import one_blas_thread
 from workbench.errors import WorkbenchError
 from workbench.model.design import ACROSS_ILLUMINANTS, Design
 
@@ -239,6 +240,7 @@ def check_fit_options(design: Design, *, illuminant_weights=None, across_illumin
     return weights, across
 
 
+@one_blas_thread()
 def fit_design(design: Design, *, progress: bool = True, stop: threading.Event | None = None,
                evaluator: DesignEvaluator | None = None, global_start: str | None = None,
                seed: int | None = None, max_evaluations: int | None = None,
@@ -296,6 +298,11 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
     McKay, M. D., Beckman, R. J. & Conover, W. J. (1979). *Technometrics* 21(2),
     239-245 (Latin hypercube starts).
     docs/methods.md §13.
+
+    Notes
+    -----
+    Runs with one BLAS thread (:func:`workbench.analysis.threads.one_blas_thread`):
+    on its small arrays idle BLAS workers cost more than they give.
     """
     if evaluator is None:
         ev = DesignEvaluator(design)
