@@ -33,6 +33,8 @@ __all__ = [
     "Lab_to_XYZ",
     "Lab_to_LCh",
     "delta_E_CIE2000",
+    "delta_E_CIE2000_gradient",
+    "XYZ_to_Lab_jacobian",
     "delta_uv_prime",
 ]
 
@@ -183,6 +185,36 @@ def XYZ_to_Lab(XYZ, white) -> np.ndarray:
     return np.stack([L, a, b], axis=-1)
 
 
+def XYZ_to_Lab_jacobian(XYZ, white) -> tuple[np.ndarray, np.ndarray]:
+    """CIELAB (..., 3) of ``XYZ`` and its Jacobian ∂(L*, a*, b*)/∂(X, Y, Z), (..., 3, 3).
+
+    The same L*a*b* as :func:`XYZ_to_Lab`; f′(t) = f(t)/(3t) on the cube-root
+    part and κ/116 on the linear part near black (CIE 15:2004 § 8.2.1), so
+    row L* = (0, 116 f′_Y/Y_n, 0), a* = 500 (f′_X/X_n, −f′_Y/Y_n, 0),
+    b* = 200 (0, f′_Y/Y_n, −f′_Z/Z_n).
+
+    References
+    ----------
+    CIE 15:2004, *Colorimetry*, 3rd ed., § 8.2.1.
+    docs/methods.md §4.
+    """
+    XYZ = _last3(XYZ, "XYZ")
+    white = _last3(white, "white")
+    t = XYZ / white
+    cube = t > _EPS
+    f = np.where(cube, np.cbrt(t), (_KAPPA * t + 16) / 116)
+    # f'(t)/white: the cube-root slope f/(3t) where it applies (t > ε > 0), else κ/116
+    df = np.where(cube, f / (3 * np.where(cube, t, 1.0)), _KAPPA / 116) / white
+    Lab = np.stack([116 * f[..., 1] - 16, 500 * (f[..., 0] - f[..., 1]), 200 * (f[..., 1] - f[..., 2])], axis=-1)
+    zero = np.zeros_like(df[..., 0])
+    jac = np.stack([
+        np.stack([zero, 116 * df[..., 1], zero], axis=-1),
+        np.stack([500 * df[..., 0], -500 * df[..., 1], zero], axis=-1),
+        np.stack([zero, 200 * df[..., 1], -200 * df[..., 2]], axis=-1),
+    ], axis=-2)
+    return Lab, jac
+
+
 def Lab_to_XYZ(Lab, white) -> np.ndarray:
     """Inverse of :func:`XYZ_to_Lab`.
 
@@ -284,3 +316,113 @@ def delta_E_CIE2000(Lab_1, Lab_2, *, k_L: float = 1.0, k_C: float = 1.0, k_H: fl
     tC = (C2p - C1p) / (k_C * S_C)
     tH = dHp / (k_H * S_H)
     return np.sqrt(tL * tL + tC * tC + tH * tH + R_T * tC * tH)
+
+
+def _root_ratio(c):
+    """√(c⁷/(c⁷ + 25⁷)) and its derivative 3.5 c^2.5 25⁷/(c⁷ + 25⁷)^1.5 (finite at c = 0)."""
+    c7 = c ** 7
+    s = c7 + _P25_7
+    return np.sqrt(c7 / s), 3.5 * np.sqrt(c ** 5) * _P25_7 / (s * np.sqrt(s))
+
+
+def delta_E_CIE2000_gradient(Lab_1, Lab_2) -> tuple[np.ndarray, np.ndarray]:
+    """ΔE00 (...) and its gradient with respect to ``Lab_1`` (..., 3), ``Lab_2`` held fixed.
+
+    The value is :func:`delta_E_CIE2000`'s (k_L = k_C = k_H = 1), computed
+    by the same operations; the gradient ∂ΔE00/∂(L*₁, a*₁, b*₁) follows the
+    formula term by term (forward-mode differentiation: every intermediate
+    carries its three partial derivatives). The branch choices (hue
+    wrapping, the mean hue's ±180°) are constants of a neighbourhood. Where
+    ΔE00 is not differentiable the gradient is a one-sided or zero value:
+    at ΔE00 = 0 it is 0; where a chroma is 0 (the hue undefined) the hue
+    terms count as constant.
+
+    Used by the ΔE00-minimising matrix (:class:`workbench.analysis.camera.ColourBench`),
+    whose Newton steps need the gradient of Σ w ΔE00² with respect to the
+    nine matrix entries.
+
+    References
+    ----------
+    CIE 142-2001; Sharma, G., Wu, W. & Dalal, E. N. (2005). *Color Res. Appl.* 30(1), 21-30.
+    docs/methods.md §4.
+    """
+    x1 = _last3(Lab_1, "Lab_1")
+    x2 = _last3(Lab_2, "Lab_2")
+    L1, a1, b1 = x1[..., 0], x1[..., 1], x1[..., 2]
+    L2, a2, b2 = x2[..., 0], x2[..., 1], x2[..., 2]
+    shape = np.broadcast_shapes(L1.shape, L2.shape)
+    # unit partials of (L1, a1, b1), as (..., 3) derivative vectors
+    eL, ea, eb = (np.broadcast_to(np.eye(3)[i], shape + (3,)) for i in range(3))
+
+    def ratio(num, den):
+        """num/den, 0 where den is 0 (a derivative through an undefined hue or chroma)."""
+        return np.where(den == 0, 0.0, num / np.where(den == 0, 1.0, den))
+
+    C1ab = np.hypot(a1, b1)
+    Cm = (C1ab + np.hypot(a2, b2)) * 0.5
+    dCm = 0.5 * ratio(a1[..., None] * ea + b1[..., None] * eb, C1ab[..., None])
+    rt, drt = _root_ratio(Cm)
+    G1 = 1.5 - 0.5 * rt                                    # 1 + G
+    dG1 = -0.5 * drt[..., None] * dCm
+    a1p = G1 * a1
+    a2p = G1 * a2
+    da1p = dG1 * a1[..., None] + G1[..., None] * ea
+    da2p = dG1 * a2[..., None]
+    C1p = np.hypot(a1p, b1)
+    C2p = np.hypot(a2p, b2)
+    dC1p = ratio(a1p[..., None] * da1p + b1[..., None] * eb, C1p[..., None])
+    dC2p = ratio(a2p[..., None] * da2p, C2p[..., None])
+    h1p = np.arctan2(b1, a1p) % _TAU
+    h2p = np.arctan2(b2, a2p) % _TAU
+    dh1p = ratio(a1p[..., None] * eb - b1[..., None] * da1p, (C1p * C1p)[..., None])
+    dh2p = ratio(-b2[..., None] * da2p, (C2p * C2p)[..., None])
+    zero = (C1p * C2p) == 0
+    dh = h2p - h1p
+    dh = np.where(dh > np.pi, dh - _TAU, np.where(dh < -np.pi, dh + _TAU, dh))
+    dh = np.where(zero, 0.0, dh)
+    ddh = np.where(zero[..., None], 0.0, dh2p - dh1p)
+    CC = C1p * C2p
+    rCC = np.sqrt(CC)
+    sin_h = np.sin(dh * 0.5)
+    dHp = 2 * rCC * sin_h
+    dCC = dC1p * C2p[..., None] + C1p[..., None] * dC2p
+    ddHp = (ratio(dCC, rCC[..., None]) * sin_h[..., None]
+            + rCC[..., None] * np.cos(dh * 0.5)[..., None] * ddh)
+    Cpm = (C1p + C2p) * 0.5
+    dCpm = 0.5 * (dC1p + dC2p)
+    hsum = h1p + h2p
+    hpm = np.where(np.abs(h1p - h2p) <= np.pi, hsum * 0.5,
+                   np.where(hsum < _TAU, hsum * 0.5 + np.pi, hsum * 0.5 - np.pi))
+    hpm = np.where(zero, hsum, hpm)
+    dhpm = np.where(zero[..., None], dh1p + dh2p, 0.5 * (dh1p + dh2p))
+    T = (1 - 0.17 * np.cos(hpm - _R30) + 0.24 * np.cos(2 * hpm)
+         + 0.32 * np.cos(3 * hpm + _R6) - 0.20 * np.cos(4 * hpm - _R63))
+    dT = (0.17 * np.sin(hpm - _R30) - 0.48 * np.sin(2 * hpm)
+          - 0.96 * np.sin(3 * hpm + _R6) + 0.80 * np.sin(4 * hpm - _R63))[..., None] * dhpm
+    dtheta = _R30 * np.exp(-(((hpm - _R275) / _R25) ** 2))
+    ddtheta = (dtheta * (-2.0 * (hpm - _R275) / (_R25 * _R25)))[..., None] * dhpm
+    rc, drc = _root_ratio(Cpm)
+    R_C = 2 * rc
+    dR_C = 2 * drc[..., None] * dCpm
+    Lm = (L1 + L2) * 0.5 - 50
+    Lm50 = Lm ** 2
+    root = np.sqrt(20 + Lm50)
+    S_L = 1 + 0.015 * Lm50 / root
+    dS_L = (0.015 * (20 + 0.5 * Lm50) / (root ** 3) * Lm)[..., None] * eL     # dLm50/dL1 = Lm
+    S_C = 1 + 0.045 * Cpm
+    dS_C = 0.045 * dCpm
+    S_H = 1 + 0.015 * Cpm * T
+    dS_H = 0.015 * (dCpm * T[..., None] + Cpm[..., None] * dT)
+    sin2 = np.sin(2 * dtheta)
+    R_T = -sin2 * R_C
+    dR_T = -(2 * np.cos(2 * dtheta)[..., None] * ddtheta * R_C[..., None] + sin2[..., None] * dR_C)
+    tL = (L2 - L1) / S_L
+    tC = (C2p - C1p) / S_C
+    tH = dHp / S_H
+    dtL = (-eL - tL[..., None] * dS_L) / S_L[..., None]
+    dtC = ((dC2p - dC1p) - tC[..., None] * dS_C) / S_C[..., None]
+    dtH = (ddHp - tH[..., None] * dS_H) / S_H[..., None]
+    E = np.sqrt(tL * tL + tC * tC + tH * tH + R_T * tC * tH)
+    dQ = (2 * tL[..., None] * dtL + 2 * tC[..., None] * dtC + 2 * tH[..., None] * dtH
+          + dR_T * (tC * tH)[..., None] + R_T[..., None] * (dtC * tH[..., None] + tC[..., None] * dtH))
+    return E, ratio(dQ, 2 * E[..., None])
