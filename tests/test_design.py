@@ -391,6 +391,22 @@ class TestChainModel:
         with pytest.raises(WorkbenchError, match="unknown parameter"):
             m.sensitivities({"prism.centre": 1.0})
 
+    def test_forward_difference_batch_equals_rows_alone(self):
+        """A batch whose rows repeat the first row's values but for one parameter each gives every row's own curves (to 2 ulp)."""
+        d = load_design(DEMO)
+        m = d.model()
+        free = [k for k, p in d.parameters().items() if p.free]
+        base = np.array([d.parameters()[k].value for k in free])
+        X = np.repeat(base[None], len(free) + 1, axis=0)
+        X[1 + np.arange(len(free)), np.arange(len(free))] += 0.37
+        batch = m.element_curves({k: X[:, i] for i, k in enumerate(free)})
+        for r in (0, 1, 5, len(free)):
+            alone = d.model().element_curves({k: X[r, i] for i, k in enumerate(free)})
+            for b, a in zip(batch, alone):
+                rows = np.broadcast_to(b.values, (len(X),) + a.values.shape)      # fixed elements: one curve
+                # numpy's power may round an array exponent differently from a scalar one by an ulp
+                np.testing.assert_array_max_ulp(rows[r], a.values, maxulp=2)
+
     def test_missing_column_in_file(self, tmp_path):
         """A column the file does not hold is named in the error."""
         text = DEMO.read_text().replace('column = "qe"', 'column = "quantum"')

@@ -123,6 +123,37 @@ class ChainModel:
                        tuple(e.data.names) if tabulated else ())
         return kind.curve(x)
 
+    def _curve_distinct(self, e: Element, p) -> np.ndarray:
+        """The element's curve for a batch, the rows that repeat the first row's values computed once.
+
+        A fit's batch of forward differences moves one parameter per row, so
+        an element sees the base values (row 0) in every row but the few
+        that move its own parameters; a tolerance batch may not move an
+        element at all. For a 1-D batch of 3 or more, the curve is computed
+        for row 0 and the rows unlike it and spread back (each row's curve
+        is the one the kind computes for it alone); anything else goes to
+        the kind as it is.
+        """
+        names = [f"{e.name}.{k}" for k, _ in e.params]
+        arrays = [p[n] for n in names]
+        shape = np.broadcast_shapes(*(a.shape for a in arrays)) if arrays else ()
+        if len(shape) != 1 or shape[0] < 3:
+            return np.asarray(self._curve(e, p))
+        rows = np.stack([np.broadcast_to(a, shape) for a in arrays], axis=-1)     # (B, P)
+        moved = np.flatnonzero(np.any(rows != rows[0], axis=-1))               # rows unlike the first
+        if len(moved) + 1 == shape[0]:
+            return np.asarray(self._curve(e, p))
+        keep = np.concatenate([[0], moved])
+        inverse = np.zeros(shape[0], dtype=int)
+        inverse[moved] = np.arange(1, len(keep))
+        q = dict(p)
+        for i, n in enumerate(names):
+            q[n] = rows[keep, i]
+        c = np.asarray(self._curve(e, q))
+        if c.ndim != (3 if self._kinds[e.name].per_path else 2) or c.shape[0] != len(keep):
+            return np.asarray(self._curve(e, p))    # a curve that does not follow its parameters' batch
+        return c[inverse]
+
     def element_curves(self, values=None) -> tuple[ElementCurve, ...]:
         """Each element's curve on the R, G, B paths, ``(..., 3, n)`` (1 off its paths).
 
@@ -142,7 +173,7 @@ class ChainModel:
             if hit is not None and hit[0] == key:
                 out.append(hit[1])
                 continue
-            c = np.asarray(self._curve(e, p))
+            c = self._curve_distinct(e, p)
             if self._kinds[e.name].per_path:
                 full = c
             else:
