@@ -11,6 +11,8 @@ import numpy as np
 import pytest
 from colour.colorimetry.datasets.illuminants import SDS_BASIS_FUNCTIONS_CIE_ILLUMINANT_D_SERIES
 from colour.quality.cfi2017 import load_TCS_CIE2017
+from colour.temperature.ohno2013 import planckian_table
+from colour.temperature.robertson1968 import DATA_ISOTEMPERATURE_LINES_ROBERTSON1968
 
 from workbench.colorimetry import cie
 from workbench.colorimetry.samples import ces_cie_224, tcs_cie_13_3
@@ -75,6 +77,38 @@ class TestDaylightBasis:
         for i, key in enumerate(("S0", "S1", "S2")):
             np.testing.assert_array_equal(wl, B[key].wavelengths)
             np.testing.assert_array_equal(S[i], B[key].values)
+
+
+class TestInterpolatedTables:
+    SHAPE_1NM = colour.SpectralShape(360, 830, 1)
+
+    def test_tcs_1nm_equal_to_colour(self):
+        """TCS01-TCS14 at 1 nm equal colour-science's reshape of its 5 nm set (CIE 13.3-1995; Sprague 1880)."""
+        ref = colour.quality.SDS_TCS["CIE 1995"]
+        want = np.stack([colour.colorimetry.reshape_sd(ref[n], self.SHAPE_1NM, copy=True).values for n in ref])
+        np.testing.assert_array_equal(cie.table("tcs_1nm"), want)
+
+    def test_daylight_1nm_equal_to_colour(self):
+        """S0, S1, S2 at 1 nm equal colour-science's Sprague reshape (CIE 15:2004, Table T.2)."""
+        B = SDS_BASIS_FUNCTIONS_CIE_ILLUMINANT_D_SERIES
+        want = np.stack([colour.colorimetry.reshape_sd(B[k], self.SHAPE_1NM, copy=True).values
+                         for k in ("S0", "S1", "S2")])
+        np.testing.assert_array_equal(cie.table("daylight_S_1nm"), want)
+
+    def test_robertson_lines_equal_to_colour(self):
+        """The 31 isotemperature lines equal colour-science's (Wyszecki & Stiles 1982, Table 1(3.11))."""
+        np.testing.assert_array_equal(cie.table("robertson_lines"), np.array(DATA_ISOTEMPERATURE_LINES_ROBERTSON1968))
+
+    def test_robertson_first_and_last_line(self):
+        """Line 0 (infinite T) and line 30 (600 MK⁻¹, about 1667 K) as published (from memory: Robertson 1968)."""
+        np.testing.assert_array_equal(cie.table("robertson_lines")[0], [0, 0.18006, 0.26352, -0.24341])
+        assert cie.table("robertson_lines")[30, 0] == 600
+
+    def test_ohno_table_equal_to_colour(self):
+        """The Ohno 2013 Planckian table equals colour-science's (1000-100000 K, ratio 1.001, CIE 1931 2°)."""
+        cmfs = colour.colorimetry.reshape_msds(colour.MSDS_CMFS[OBSERVERS["2"]], colour.SpectralShape(360, 780, 1),
+                                               copy=True)
+        np.testing.assert_array_equal(cie.table("ohno_planckian"), planckian_table(cmfs, 1000, 100000, 1.001))
 
 
 class TestSampleTables:

@@ -46,6 +46,18 @@ class TestImportedModules:
         assert "numpy" in names or args == ("--help",)  # the listing really is of this process
         assert heavy(names) == [], f"workbench {' '.join(args)} imported {', '.join(heavy(names))}"
 
+    @pytest.mark.parametrize("args", [
+        ("light", "spectra-demo/luminaire_led_export.csv"),
+        ("light", "spectra-demo/luminaire_led_export.csv", "--camera", "spectra-demo/tern3_design.toml"),
+        ("light", "spectra-demo/luminaire_led_export.csv", "--format", "json", "--ssi-reference", "D65"),
+    ], ids=["led", "led-camera", "led-json"])
+    def test_light_imports_no_colour(self, args):
+        """``workbench light`` computes CCT, Ra, Rf, Rg and SSI natively: no colour, matplotlib, pandas or scipy.optimize."""
+        names, proc = imported_modules(*args)
+        assert proc.returncode == 0, proc.stderr[-2000:]
+        assert "workbench.colorimetry.rendering" in names  # the indices really were computed here
+        assert heavy(names) == [], f"workbench {' '.join(args)} imported {', '.join(heavy(names))}"
+
     def test_help_imports_no_command_module(self):
         """``--help`` lists the commands without importing their modules (nor numpy)."""
         names, proc = imported_modules("--help")

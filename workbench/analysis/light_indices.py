@@ -1,8 +1,12 @@
-"""Light sources, second stage: the published indices of one SPD, computed by colour-science.
+"""Light sources, second stage: the published indices of one SPD (numpy, checked against colour-science).
 
 CCT and Duv (Ohno 2013), CIE 13.3 Ra and R1-R14, CIE 224:2017 Rf, ANSI/IES
 TM-30-18 Rg, the Academy SSI and the illuminance when the SPD is absolute;
-see :mod:`workbench.analysis.light` for the whole stage.
+see :mod:`workbench.analysis.light` for the whole stage. The indices are
+the workbench's own (:mod:`workbench.colorimetry.cct`,
+:mod:`workbench.colorimetry.rendering`), written to the published methods
+with colour-science 0.4.7's conventions and checked against it in
+tests/test_light_indices_native.py; colour-science is not imported here.
 
 References
 ----------
@@ -18,8 +22,6 @@ SMPTE Annual Technical Conference.
 
 from __future__ import annotations
 
-import contextlib
-import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -34,8 +36,14 @@ from workbench.analysis.light_spd import (
     reference_illuminant,
     working_spd,
 )
-from workbench.colorimetry.cie import canonical_illuminant
+from workbench.colorimetry.cct import XYZ_to_uv_1960, cct_ohno_2013
+from workbench.colorimetry.cie import canonical_illuminant, illuminant_table
 from workbench.colorimetry.coordinates import XYZ_to_uv_prime, XYZ_to_xy
+from workbench.colorimetry.rendering import (
+    colour_fidelity_cie_224,
+    colour_rendering_cie_13_3,
+    spectral_similarity_index,
+)
 from workbench.colorimetry.tristimulus import emission_weights
 from workbench.errors import WorkbenchError
 from workbench.model.spectra import Spectra, grid
@@ -65,35 +73,8 @@ _TCS_NAMES = (
 # --------------------------------------------------------------------------
 
 
-def _colour():
-    """colour-science, imported on first use.
-
-    Late on purpose, the one place it is imported on the light path: its
-    import alone takes seconds (it loads its plotting module, matplotlib
-    and pandas), and only these published indices need it.
-    """
-    import colour  # late: seconds to import, and only these published indices need it
-
-    return colour
-
-
-@contextlib.contextmanager
-def quiet_colour():
-    """colour-science warns on every reshape; what it assumed is said in our own notes instead."""
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        yield
-
-
-def colour_sd(wl: np.ndarray, values: np.ndarray, name: str):
-    """A colour-science SpectralDistribution that interpolates linearly (emission lines do not ring)."""
-    colour = _colour()
-    return colour.SpectralDistribution(np.asarray(values, dtype=float), np.asarray(wl, dtype=float), name=name,
-                                       interpolator=colour.algebra.LinearInterpolator)
-
-
 def cct_duv(XYZ: np.ndarray) -> tuple[float, float]:
-    """CCT (K) and Duv of a light's XYZ (3,), by Ohno's method in CIE 1960 (u, v) (colour-science).
+    """CCT (K) and Duv of a light's XYZ (3,), by Ohno's method in CIE 1960 (u, v).
 
     u = 4X/(X + 15Y + 3Z), v = 6Y/(X + 15Y + 3Z); Duv is the signed distance
     from the Planckian locus, positive above it.
@@ -110,12 +91,7 @@ def cct_duv(XYZ: np.ndarray) -> tuple[float, float]:
     >>> round(cct_duv([109.850, 100.0, 35.585])[0])  # illuminant A's white (ASTM E308), about 2856 K
     2856
     """
-    colour = _colour()
-    X, Y, Z = (float(v) for v in XYZ)
-    d = X + 15 * Y + 3 * Z
-    uv = np.array([4 * X / d, 6 * Y / d])
-    with quiet_colour():
-        CCT, Duv = colour.uv_to_CCT(uv, method="Ohno 2013")
+    CCT, Duv = cct_ohno_2013(XYZ_to_uv_1960(np.asarray(XYZ, dtype=float)))
     return float(CCT), float(Duv)
 
 
@@ -124,19 +100,16 @@ def emission_XYZ(wl: np.ndarray, values: np.ndarray) -> np.ndarray:
     return emission_weights(wl).apply(values)
 
 
+_CHECKED = "workbench, checked against colour-science"
+
 _METHODS = {
-    "CCT": "Ohno 2013 (colour.uv_to_CCT) from CIE 1960 uv, CIE 1931 2°, CIE 15 summation on the "
-           "working grid; K",
+    "CCT": f"Ohno 2013 from CIE 1960 uv, CIE 1931 2°, CIE 15 summation on the working grid ({_CHECKED}); K",
     "Duv": "Ohno 2013: signed distance from the Planckian locus in CIE 1960 uv (+ above)",
-    "Ra": "CIE 13.3-1995 general colour rendering index, mean of R1-R8 "
-          "(colour.colour_rendering_index, 'CIE 1995')",
+    "Ra": f"CIE 13.3-1995 general colour rendering index, mean of R1-R8 ({_CHECKED})",
     "R": "CIE 13.3-1995 special colour rendering indices R1-R14 (TCS01-TCS14)",
-    "Rf": "CIE 224:2017 colour fidelity index (99 CES, CIE 1964 10°, CAM02-UCS; "
-          "colour.colour_fidelity_index, 'CIE 2017')",
-    "Rg": "ANSI/IES TM-30-18 gamut index (16 hue bins of the 99 CES; "
-          "colour.colour_fidelity_index, 'ANSI/IES TM-30-18')",
-    "SSI": "Academy spectral similarity index, 375-675 nm, rounded to a whole number "
-           "(colour.spectral_similarity_index)",
+    "Rf": f"CIE 224:2017 colour fidelity index (99 CES, CIE 1964 10°, CAM02-UCS; {_CHECKED})",
+    "Rg": f"ANSI/IES TM-30-18 gamut index (16 hue bins of the 99 CES; {_CHECKED})",
+    "SSI": f"Academy spectral similarity index, 375-675 nm, rounded to a whole number ({_CHECKED})",
 }
 
 
@@ -144,7 +117,7 @@ _METHODS = {
 class LightIndices:
     """The published indices of one SPD, each with its method (``methods``) and unit (``units_of``).
 
-    ``R`` holds R1-R14; any index colour-science could not compute is None
+    ``R`` holds R1-R14; any index that could not be computed is None
     with the reason in ``warnings``. ``illuminance`` is in lx (or
     ``luminance`` in cd/m² for radiance) when the SPD's units are
     absolute, else None. ``spd`` is the SPD on its working grid.
@@ -227,13 +200,12 @@ class LightIndices:
         return out
 
 
-def _ssi_reference(ssi_reference, cct: float) -> tuple[str, object, tuple[str, ...]]:
-    """(label, colour SpectralDistribution, notes) of the SSI reference."""
-    colour = _colour()
+def _ssi_reference(ssi_reference, cct: float) -> tuple[str, tuple | None, tuple[str, ...]]:
+    """(label, (λ nm, SPD) or None, notes) of the SSI reference."""
     wl = grid(375.0, 675.0, 1.0)
     if isinstance(ssi_reference, Spectra):
         w = working_spd(ssi_reference, required=None)
-        return (f"{light_label(ssi_reference)} (given)", colour_sd(w.wavelengths, w.flat()[0], "reference"),
+        return (f"{light_label(ssi_reference)} (given)", (w.wavelengths, w.flat()[0]),
                 tuple(n for n in w.notes if "put on a 1 nm grid" in n))
     ref = str(ssi_reference).strip()
     if ref.lower() == "auto":
@@ -241,14 +213,29 @@ def _ssi_reference(ssi_reference, cct: float) -> tuple[str, object, tuple[str, .
         if cct > hi:
             return f"none (no automatic reference above {hi:g} K)", None, ()
         label, v = reference_illuminant(cct, wl, daylight_from=SSI_DAYLIGHT_FROM)
-        return f"{label} (automatic)", colour_sd(wl, v, label), ()
+        return f"{label} (automatic)", (wl, v), ()
     try:
         name = canonical_illuminant(ref)
-    except WorkbenchError:
+        table = illuminant_table(name)
+    except (WorkbenchError, ValueError):
         raise WorkbenchError(
             f"SSI reference must be 'auto', a CIE illuminant name (A, D50, D65, ...) or an SPD file "
             f"(got {ssi_reference!r})") from None
-    return f"{name} (chosen)", colour.SDS_ILLUMINANTS[name], ()
+    return f"{name} (chosen)", table, ()
+
+
+def _reference_224_label(cct: float, share: float) -> str:
+    """The CIE 224 reference in words: Planckian, CIE daylight, or their blend with the daylight share."""
+    if share <= 0:
+        return f"Planckian {cct:.0f} K"
+    if share >= 1:
+        return f"CIE daylight {cct:.0f} K"
+    return f"Planckian and CIE daylight at {cct:.0f} K, equal Y, {100 * share:.1f} % daylight"
+
+
+def _finite(x) -> float | None:
+    x = float(x)
+    return x if np.isfinite(x) else None
 
 
 def light_indices(spd: Spectra, *, ssi_reference="auto", extrapolation: str = "none") -> LightIndices:
@@ -274,13 +261,14 @@ def light_indices(spd: Spectra, *, ssi_reference="auto", extrapolation: str = "n
 
     Notes
     -----
-    Every index is colour-science's own computation on the working-grid
-    SPD. Each index finds its own reference internally: CIE 13.3 from
-    colour-science's Robertson 1968 CCT (Planckian below 5000 K, daylight
-    above), CIE 224 / TM-30 from Ohno 2013 with a Planckian-daylight blend
-    between 4000 and 5000 K. colour-science extends the SPD to 360-830 nm
-    with its end values for CIE 13.3 and fills 375-380 nm with zeros for
-    the SSI; both are said in the notes when they happen.
+    Every index is the workbench's own numpy computation on the
+    working-grid SPD (:mod:`workbench.colorimetry.rendering`), following
+    the published methods with colour-science 0.4.7's conventions. Each
+    index finds its own reference: CIE 13.3 from the Robertson 1968 CCT
+    (Planckian below 5000 K, daylight above), CIE 224 / TM-30 from Ohno
+    2013 with a Planckian-daylight blend between 4000 and 5000 K. CIE 13.3
+    extends the SPD to 360-780 nm with its end values; the SSI fills
+    375-380 nm with zeros; both are said in the notes when they happen.
 
     References
     ----------
@@ -290,7 +278,6 @@ def light_indices(spd: Spectra, *, ssi_reference="auto", extrapolation: str = "n
     Annual Technical Conference.
     docs/methods.md §17.
     """
-    colour = _colour()
     w = working_spd(spd, extrapolation=extrapolation)
     wl = w.wavelengths
     v = w.flat()[0]
@@ -310,43 +297,47 @@ def light_indices(spd: Spectra, *, ssi_reference="auto", extrapolation: str = "n
                      "ΔC 5.4×10⁻³ of its reference; Ra is indicative only")
     if not 1000 <= CCT <= 20000:
         warns.append(f"CCT {CCT:.0f} K lies outside 1000-20000 K, where Ohno 2013 is within 1 K")
-    if wl[0] > 360 or wl[-1] < 830:
-        notes.append(f"{label}: colour-science's CIE 13.3 computation extends the SPD from "
-                     f"{wl[0]:g}-{wl[-1]:g} nm to 360-830 nm with its end values (CIE 167:2005)")
+    if wl[0] > 360:
+        notes.append(f"{label}: the CIE 13.3 computation weighs the SPD over 360-780 nm; below "
+                     f"{wl[0]:g} nm it takes the SPD's end value (CIE 167:2005)")
     if w.step != 1.0:
-        notes.append(f"{label}: colour-science's CIE 13.3 computation interpolates the SPD to 1 nm linearly "
+        notes.append(f"{label}: the CIE 13.3 computation interpolates the SPD to 1 nm linearly "
                      "(the workbench's rule for emission spectra, whose narrow lines make higher-order "
                      "interpolation ring)")
     if wl[0] > 375:
         notes.append(f"{label}: the Academy SSI takes the SPD as zero over 375-{wl[0]:g} nm")
-    # a fresh SpectralDistribution per call: colour-science reshapes and trims its argument in place
     Ra = R = Rf = Rg = SSI = SSI_u = None
-    with quiet_colour():
-        try:
-            cri = colour.colour_rendering_index(colour_sd(wl, v, name), additional_data=True)
-            Ra = float(cri.Q_a)
-            R = tuple(float(cri.Q_as[i].Q_a) for i in sorted(cri.Q_as))
-        except (ValueError, ArithmeticError, KeyError) as err:
-            warns.append(f"Ra: not computed ({err})")
-        try:
-            tm = colour.colour_fidelity_index(colour_sd(wl, v, name), additional_data=True, method="ANSI/IES TM-30-18")
-            Rf, Rg = float(tm.R_f), float(tm.R_g)
-            notes.append(f"CIE 224:2017 / TM-30-18 reference: {tm.sd_reference.name} "
-                         f"(CCT {float(tm.CCT):.0f} K by their own Ohno 2013 computation)")
-        except (ValueError, ArithmeticError, KeyError) as err:
-            warns.append(f"Rf, Rg: not computed ({err})")
-        ref_label, ref_sd, ref_notes = _ssi_reference(ssi_reference, CCT)
-        notes += list(ref_notes)
-        try:
-            if ref_sd is None:
-                raise ValueError(f"no automatic reference above {DAYLIGHT_CCT_RANGE[1]:g} K (CCT {CCT:.0f} K); "
-                                 "choose one with --ssi-reference NAME|FILE.csv")
-            SSI_u = float(colour.spectral_similarity_index(colour_sd(wl, v, name), ref_sd.copy(), round_result=False))
+    with np.errstate(all="ignore"):
+        cri = colour_rendering_cie_13_3(wl, v)
+        cfi = colour_fidelity_cie_224(wl, v)
+    if np.all(np.isfinite(cri.R)):
+        Ra, R = float(cri.Ra[0]), tuple(float(r) for r in cri.R[0])
+    else:
+        warns.append("Ra: not computed (the CIE 13.3 computation gave no finite number for this SPD)")
+    Rf, Rg = _finite(cfi.Rf[0]), _finite(cfi.Rg[0])
+    if Rf is None:
+        warns.append("Rf, Rg: not computed (the CIE 224 computation gave no finite number for this SPD)")
+        Rg = None
+    else:
+        if Rg is None:
+            warns.append("Rg: not computed (a TM-30-18 hue bin holds none of the 99 CES under the reference)")
+        notes.append(f"CIE 224:2017 / TM-30-18 reference: "
+                     f"{_reference_224_label(float(cfi.CCT[0]), float(cfi.daylight_share[0]))} "
+                     f"(CCT {float(cfi.CCT[0]):.0f} K by their own Ohno 2013 computation, 1000-25000 K)")
+    ref_label, ref_spd, ref_notes = _ssi_reference(ssi_reference, CCT)
+    notes += list(ref_notes)
+    if ref_spd is None:
+        warns.append(f"SSI: not computed (no automatic reference above {DAYLIGHT_CCT_RANGE[1]:g} K "
+                     f"(CCT {CCT:.0f} K); choose one with --ssi-reference NAME|FILE.csv)")
+    else:
+        with np.errstate(all="ignore"):
+            SSI_u = _finite(spectral_similarity_index(wl, v, *ref_spd)[0])
+        if SSI_u is None:
+            warns.append("SSI: not computed (the test or reference SPD has no power over 375-675 nm)")
+        else:
             SSI = int(np.around(SSI_u))
-        except (ValueError, ArithmeticError, KeyError) as err:
-            warns.append(f"SSI: not computed ({err})")
     methods = dict(_METHODS)
-    methods["Ra"] += " (reference chosen by colour-science from its Robertson 1968 CCT)"
+    methods["Ra"] += " (reference chosen from the Robertson 1968 CCT)"
     methods["SSI_reference"] = ("automatic: Planckian below 4000 K, CIE daylight 4000-25000 K, at the "
                                 "light's CCT" if str(ssi_reference).lower() == "auto" else "chosen")
     units_of = {"CCT": "K", "Duv": "1 (CIE 1960 uv)", "Ra": "1", "R": "1", "Rf": "1", "Rg": "1", "SSI": "1"}

@@ -188,7 +188,7 @@ def working_spd(spd: Spectra, *, extrapolation: str = "none", required=REQUIRED_
     if not _is_working_grid(wl):
         target = grid(math.ceil(wl[0] - 1e-9), math.floor(wl[-1] + 1e-9), 1.0)
         s = s.resample(target)
-        s = s.with_note(f"{light_label(spd)}: put on a 1 nm grid for the colour-science indices "
+        s = s.with_note(f"{light_label(spd)}: put on a 1 nm grid for the published indices "
                         "(they need uniform data at 5 nm or finer)")
     if required is not None and not s.covers(*required):
         lo, hi = required

@@ -29,6 +29,22 @@ Contents (float64 unless said; wavelengths in nm)
     CIE 224:2017 colour evaluation samples CES01-CES99, 380-780 nm at 1 nm.
     colour-science's 5 nm table is every fifth column of it exactly
     (checked here and in the test), so it is not stored twice.
+``tcs_1nm`` (14, 471)
+    TCS01-TCS14 put on 360-830 nm at 1 nm the way colour-science does for
+    CIE 13.3 (Sprague 1880 interpolation of the 5 nm table).
+``daylight_S_1nm`` (3, 471)
+    S0, S1, S2 put on 360-830 nm at 1 nm by colour-science's Sprague
+    interpolation (what its CIE 224 reference daylight uses at 1 nm).
+``robertson_lines`` (31, 4)
+    Robertson (1968) isotemperature lines: reciprocal megakelvin, u, v and
+    slope t (Wyszecki & Stiles 1982, Table 1(3.11)), as colour-science holds them.
+``ohno_planckian`` (m, 3)
+    The Planckian table of colour-science's Ohno 2013 CCT: T (K), CIE 1960
+    u, v from 1000 to 100000 K (ratio steps from 1.001, the last two rows
+    99999 and 100000 K), CIE 1931 2° over 360-780 nm at 1 nm. Stored
+    because computing its 6849 blackbodies costs a tenth of a second at
+    start-up; ``workbench.colorimetry.cct.uv_planckian`` recomputes any row
+    (checked in tests/test_light_indices_native.py).
 ``source`` () str
     The colour-science version the tables came from.
 """
@@ -41,6 +57,8 @@ import colour
 import numpy as np
 from colour.colorimetry.datasets.illuminants import SDS_BASIS_FUNCTIONS_CIE_ILLUMINANT_D_SERIES
 from colour.quality.cfi2017 import load_TCS_CIE2017
+from colour.temperature.ohno2013 import planckian_table
+from colour.temperature.robertson1968 import DATA_ISOTEMPERATURE_LINES_ROBERTSON1968
 
 OUT = Path(__file__).with_name("cie_tables.npz")
 OBSERVER_NAMES = {
@@ -73,6 +91,15 @@ def collect() -> dict[str, np.ndarray]:
     out["tcs_names"] = np.array(tcs_names, dtype=str)
     out["tcs_wl"] = np.array(tcs[tcs_names[0]].wavelengths, dtype=np.float64)
     out["tcs"] = np.stack([np.array(tcs[n].values, dtype=np.float64) for n in tcs_names])
+    shape_1nm = colour.SpectralShape(360, 830, 1)
+    out["tcs_1nm"] = np.stack([np.array(colour.colorimetry.reshape_sd(tcs[n], shape_1nm, copy=True).values,
+                                        dtype=np.float64) for n in tcs_names])
+    out["daylight_S_1nm"] = np.stack([np.array(colour.colorimetry.reshape_sd(basis[k], shape_1nm, copy=True).values,
+                                               dtype=np.float64) for k in ("S0", "S1", "S2")])
+    cmfs_2_default = colour.colorimetry.reshape_msds(colour.MSDS_CMFS[OBSERVER_NAMES["2"]],
+                                                     colour.SpectralShape(360, 780, 1), copy=True)
+    out["ohno_planckian"] = np.array(planckian_table(cmfs_2_default, 1000, 100000, 1.001), dtype=np.float64)
+    out["robertson_lines"] = np.array(DATA_ISOTEMPERATURE_LINES_ROBERTSON1968, dtype=np.float64)
     ces = {step: load_TCS_CIE2017(colour.SpectralShape(380, 780, step)) for step in (1, 5)}
     out["ces_wl"] = np.array(ces[1].wavelengths, dtype=np.float64)
     out["ces"] = np.array(ces[1].values, dtype=np.float64).T.copy()
