@@ -18,7 +18,8 @@ alike; medians over the rounds are printed.
 - **cells**: the sum of the per-cell times nbclient records with
   ``record_timing=True`` (cell metadata ``execution``: from
   ``iopub.execute_input`` to ``shell.execute_reply``), and with ``--cells``
-  every code cell's time and first line.
+  every code cell's time, its CPU time (the kernel's ``time.process_time()``
+  asked between cells) and first line.
 
 The design panel's first figure (notebook 02, the cell that builds
 ``design_panel``): the time of that cell in the kernel, i.e. from the
@@ -104,6 +105,13 @@ def _kernel_cpu(client) -> float:
         return float("nan")
 
 
+def _cell_cpu(client) -> float:
+    """The kernel's CPU seconds (``time.process_time``, all its threads), asked between cells (not timed)."""
+    reply = client.wait_for_reply(client.kc.execute("", silent=True, store_history=False,
+                                                    user_expressions={"t": "__import__('time').process_time()"}))
+    return float(reply["content"]["user_expressions"]["t"]["data"]["text/plain"])
+
+
 def run_notebook(nb) -> dict:
     """Run one notebook (a NotebookNode, changed in place); wall times in seconds and per-cell times."""
     client = NotebookClient(nb, timeout=600, kernel_name="python3", record_timing=True,
@@ -112,8 +120,12 @@ def run_notebook(nb) -> dict:
     with client.setup_kernel():
         t1 = time.perf_counter()
         client.wait_for_reply(client.kc.kernel_info())
+        cell_cpu = {}
         for index, cell in enumerate(nb.cells):
+            before = _cell_cpu(client) if cell.cell_type == "code" else None
             client.execute_cell(cell, index)
+            if before is not None:
+                cell_cpu[index] = _cell_cpu(client) - before
         t2 = time.perf_counter()
         cpu = _kernel_cpu(client)
     t3 = time.perf_counter()
@@ -125,7 +137,8 @@ def run_notebook(nb) -> dict:
         seconds = _stamp(ex["shell.execute_reply"]) - _stamp(ex["iopub.execute_input"])
         errors = [o for o in cell.get("outputs", []) if o.get("output_type") == "error"]
         first = next((ln for ln in cell.source.splitlines() if ln.strip() and not ln.startswith("%")), "")
-        cells.append({"index": i, "seconds": seconds, "first_line": first, "error": bool(errors)})
+        cells.append({"index": i, "seconds": seconds, "cpu": cell_cpu.get(i, float("nan")), "first_line": first,
+                      "error": bool(errors)})
     return {"total": t3 - t0, "kernel": t1 - t0, "run": t2 - t1, "shutdown": t3 - t2, "cpu": cpu,
             "cells": cells, "cell_sum": sum(c["seconds"] for c in cells)}
 
@@ -187,6 +200,8 @@ def main() -> None:
         total = med([x["total"] for x in runs])
         per_cell = {c["index"]: med([[d for d in x["cells"] if d["index"] == c["index"]][0]["seconds"]
                                      for x in runs]) for c in runs[0]["cells"]}
+        per_cpu = {c["index"]: med([[d for d in x["cells"] if d["index"] == c["index"]][0]["cpu"]
+                                    for x in runs]) for c in runs[0]["cells"]}
         slow = max(per_cell, key=per_cell.get)
         cpu = med([x["cpu"] for x in runs])
         print(f"{name:34s} {total:7.2f} {total / base:6.2f} {cpu:6.2f} {cpu / base_cpu:6.2f} "
@@ -195,7 +210,8 @@ def main() -> None:
               f"[{slow}] {per_cell[slow]:.2f} s")
         if args.cells:
             for c in runs[0]["cells"]:
-                print(f"    [{c['index']:2d}] {per_cell[c['index']]:6.2f} s  {c['first_line'][:80]}")
+                print(f"    [{c['index']:2d}] {per_cell[c['index']]:6.2f} s  CPU {per_cpu[c['index']]:5.2f} s  "
+                      f"{c['first_line'][:70]}")
     if PANEL_NOTEBOOK in results:
         runs = results[PANEL_NOTEBOOK]
         nb = nbformat.read(NOTEBOOKS / PANEL_NOTEBOOK, as_version=4)
