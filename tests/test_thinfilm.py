@@ -215,13 +215,14 @@ class TestStackResponse:
             np.testing.assert_allclose(batch.R[i], one.R, atol=1e-15)
             np.testing.assert_allclose(batch.dT_dd[i], one.dT_dd, atol=1e-15)
 
-    def test_periodic_stack_by_blocks_matches_tmm_package(self):
-        """(0.5L H 0.5L)^9 M (0.5L H 0.5L)^4 (repeated blocks raised to powers) agrees with tmm to 1e-12."""
+    @pytest.mark.parametrize("periods", [9, 45])
+    def test_periodic_stack_by_blocks_matches_tmm_package(self, periods):
+        """(0.5L H 0.5L)^N M (0.5L H 0.5L)^4 (repeated blocks raised to powers) agrees with tmm to 1e-12."""
         wl = np.array([420.0, 505.0, 560.0, 610.0, 745.0])
         n_h = 2.30 + 0.05 * (550.0 / wl) ** 2
         n_l = 1.45 + 0.01 * (550.0 / wl) ** 2
         n_m = np.full(wl.size, 1.63)
-        symbols = "LHL" * 9 + "M" + "LHL" * 4
+        symbols = "LHL" * periods + "M" + "LHL" * 4
         n = np.stack([{"H": n_h, "L": n_l, "M": n_m}[x] for x in symbols])[None]      # a batch axis of one
         d = np.array([{"H": 55.0, "L": 42.5, "M": 81.0}[x] for x in symbols])
         angles = (0.0, 25.0, 40.0)

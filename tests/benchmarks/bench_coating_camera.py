@@ -1,17 +1,22 @@
 """Speed of a camera with real coated splitter faces (run on demand, never in the test suite).
 
-    uv run python tests/benchmarks/bench_coating_camera.py [--repeats 20] [--refine-evaluations 30]
+    uv run python tests/benchmarks/bench_coating_camera.py [--repeats 60] [--refine-evaluations 30]
 
 The demo design with its idealised dichroic splitter replaced by two real
 faces of the ``coating`` kind (41 layers each, TiO2/SiO2 symmetric-period
 edge filters at 25° and 12° in crown-517 glass, f/2 cone, 4 × 8 pupil
-quadrature, unpolarised), on the demo design's own grid.
+quadrature, unpolarised), on the demo design's own grid; and the same with
+"refined" faces: every layer given its own physical thickness (the periodic
+ones × a random factor within ±3 %, fixed seed), so no block of layers
+repeats, as after ``workbench recipe`` and a refit with the layers free.
 
 Prints:
 
 * one camera evaluation (``DesignEvaluator.measures``) with both faces
   moved (so neither face's curve comes from the chain's cache), against the
-  idealised design doing the same;
+  idealised design doing the same; the three designs take turns, one
+  evaluation each per round, so that a shared machine's load falls alike on
+  all three, and the ratios are of CPU medians and of best wall times;
 * the chain alone with one face moved;
 * refining the blue face's 41 thicknesses against the camera objective
   (``recipe.refine_in_camera``) for a fixed number of evaluations.
@@ -43,20 +48,35 @@ FACES = [
 ]
 
 
-def timings(fn, repeats):
-    """Best and median wall time, and median CPU time of this process (s)."""
-    times, cpu = [], []
+def timings(fns, repeats):
+    """Per function: best and median wall time, and median CPU time of this process (s); the functions take turns."""
+    times = [[] for _ in fns]
+    cpu = [[] for _ in fns]
     for i in range(repeats):
-        t0, c0 = time.perf_counter(), time.process_time()
-        fn(i)
-        times.append(time.perf_counter() - t0)
-        cpu.append(time.process_time() - c0)
-    return min(times), float(np.median(times)), float(np.median(cpu))
+        for j, fn in enumerate(fns):
+            t0, c0 = time.perf_counter(), time.process_time()
+            fn(i)
+            times[j].append(time.perf_counter() - t0)
+            cpu[j].append(time.process_time() - c0)
+    return [(min(t), float(np.median(t)), float(np.median(c))) for t, c in zip(times, cpu)]
+
+
+def refined(face, rng):
+    """The face with every layer's physical thickness written out, each × a random factor within ±3 %."""
+    from workbench.optics.stacks import parse_layer_formula, physical_thicknesses, resolve_materials
+
+    mats = resolve_materials(face["materials"])
+    layers = parse_layer_formula(face["layers"], mats)
+    d = physical_thicknesses(layers, mats, face["reference_nm"]) * rng.uniform(0.97, 1.03, len(layers))
+    out = dict(face)
+    out["layers"] = " ".join(f"{x.symbol}[{t:.4f}]" for x, t in zip(layers, d))
+    out.pop("reference_nm")
+    return out
 
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--repeats", type=int, default=20)
+    ap.add_argument("--repeats", type=int, default=60)
     ap.add_argument("--refine-evaluations", type=int, default=30)
     args = ap.parse_args()
 
@@ -69,20 +89,31 @@ def main() -> None:
 
     warnings.simplefilter("ignore")
     demo = demo_dir() / "tern3_design.toml"
-    raw = tomllib.loads(demo.read_text())
-    i = next(k for k, e in enumerate(raw["chain"]) if e["type"] == "dichroic-splitter")
-    raw["chain"][i:i + 1] = FACES
-    raw.pop("tolerance", None)            # the field shift acts on the idealised splitter only
-    coated = design_from_dict(raw, base_dir=demo.parent, source="demo with coated faces")
+
+    def with_faces(faces, source):
+        raw = tomllib.loads(demo.read_text())
+        i = next(k for k, e in enumerate(raw["chain"]) if e["type"] == "dichroic-splitter")
+        raw["chain"][i:i + 1] = faces
+        raw.pop("tolerance", None)            # the field shift acts on the idealised splitter only
+        return design_from_dict(raw, base_dir=demo.parent, source=source)
+
+    rng = np.random.default_rng(7)
+    coated = with_faces(FACES, "demo with coated faces")
+    uneven = with_faces([refined(f, rng) for f in FACES], "demo with refined coated faces")
     ideal = load_design(demo)
 
     ev_c = DesignEvaluator(coated)
+    ev_u = DesignEvaluator(uneven)
     ev_i = DesignEvaluator(ideal)
-    m_c, m_i = ev_c.measures(), ev_i.measures()
+    m_c, m_u, m_i = ev_c.measures(), ev_u.measures(), ev_i.measures()
 
     def moved_coated(k):
         ev_c.measures({"blue-face.reference_nm": 438.74 + 0.01 * (k + 1),
                        "red-face.reference_nm": 720.83 + 0.01 * (k + 1)})
+
+    def moved_uneven(k):
+        ev_u.measures({"blue-face.thickness_scale": 1.0 + 1e-5 * (k + 1),
+                       "red-face.thickness_scale": 1.0 + 1e-5 * (k + 1)})
 
     def moved_ideal(k):
         ev_i.measures({"prism.blue_green_nm": 532.0 + 0.01 * (k + 1), "prism.green_red_nm": 605.0 + 0.01 * (k + 1)})
@@ -90,9 +121,13 @@ def main() -> None:
     def one_face(k):
         ev_c.model.sensitivities({"blue-face.reference_nm": 438.74 - 0.01 * (k + 1)})
 
-    t_c = timings(moved_coated, args.repeats)
-    t_i = timings(moved_ideal, args.repeats)
-    t_f = timings(one_face, args.repeats)
+    def one_uneven_face(k):
+        ev_u.model.sensitivities({"blue-face.thickness_scale": 1.0 - 1e-5 * (k + 1)})
+
+    for fn in (moved_ideal, moved_coated, moved_uneven, one_face, one_uneven_face):
+        fn(-2)                                # warm: scratch buffers, kept media and cone rays
+    t_i, t_c, t_u = timings([moved_ideal, moved_coated, moved_uneven], args.repeats)
+    t_f, t_g = timings([one_face, one_uneven_face], args.repeats)
 
     mats = resolve_materials({"H": "TiO2", "L": "SiO2"})
     parsed = parse_layer_formula(FACES[0]["layers"], mats)
@@ -104,16 +139,23 @@ def main() -> None:
     t_refine = time.perf_counter() - t0
 
     wl = ev_c.wavelengths
-    print(f"demo camera, grid {wl[0]:g}-{wl[-1]:g} nm at {wl[1] - wl[0]:g} nm (best / median of {args.repeats})")
-    print(f"  Vora value: idealised {m_i.vora_value:.4f}, two 41-layer coated faces {m_c.vora_value:.4f}")
+    print(f"demo camera, grid {wl[0]:g}-{wl[-1]:g} nm at {wl[1] - wl[0]:g} nm ({args.repeats} rounds)")
+    print(f"  Vora value: idealised {m_i.vora_value:.4f}, two 41-layer coated faces {m_c.vora_value:.4f}, "
+          f"refined {m_u.vora_value:.4f}")
     print("  (wall best / wall median / CPU median, ms; the CPU time is steadier on a shared machine)")
-    print(f"  evaluation, idealised splitter, both edges moved   {t_i[0] * 1e3:7.2f} / {t_i[1] * 1e3:7.2f} / "
-          f"{t_i[2] * 1e3:7.2f} ms")
-    print(f"  evaluation, two coated faces, both faces moved     {t_c[0] * 1e3:7.2f} / {t_c[1] * 1e3:7.2f} / "
-          f"{t_c[2] * 1e3:7.2f} ms")
-    print(f"  chain only, one coated face moved                  {t_f[0] * 1e3:7.2f} / {t_f[1] * 1e3:7.2f} / "
-          f"{t_f[2] * 1e3:7.2f} ms")
-    print(f"  ratio coated / idealised evaluation (CPU medians)  {t_c[2] / t_i[2]:7.1f} x")
+
+    def row(label, t):
+        print(f"  {label:<52}{t[0] * 1e3:7.2f} / {t[1] * 1e3:7.2f} / {t[2] * 1e3:7.2f} ms")
+
+    row("evaluation, idealised splitter, both edges moved", t_i)
+    row("evaluation, two coated faces, both faces moved", t_c)
+    row("evaluation, two refined coated faces, both moved", t_u)
+    row("chain only, one coated face moved", t_f)
+    row("chain only, one refined coated face moved", t_g)
+    print(f"  ratio coated / idealised evaluation (CPU medians; best)  {t_c[2] / t_i[2]:5.2f} x; "
+          f"{t_c[0] / t_i[0]:5.2f} x")
+    print(f"  ratio refined / idealised evaluation (CPU medians; best) {t_u[2] / t_i[2]:5.2f} x; "
+          f"{t_u[0] / t_i[0]:5.2f} x")
     print(f"  refine blue face (41 layers) in the camera: {t_refine:.1f} s, {report.evaluations} evaluations, "
           f"objective {report.cost_before:.5f} -> {report.cost_after:.5f}")
 

@@ -83,19 +83,27 @@ def cos_sin(delta):
     return cd, sd
 
 
-def _distinct_rows(rows) -> tuple[list[int], np.ndarray]:
-    """First index of each distinct row (compared bit for bit) and each row's distinct number."""
+def _distinct_rows(rows) -> tuple[np.ndarray, np.ndarray]:
+    """Index of one row of each distinct value (rows compared exactly) and each row's distinct number.
+
+    Rows are grouped by one weighted sum each, then checked entry by entry;
+    should two different rows share a sum, they are told apart one by one.
+    """
+    weights = 1.0 + np.arange(rows.shape[1]) * 0.6180339887498949
+    _, first, which = np.unique(rows @ weights, return_index=True, return_inverse=True)
+    which = which.reshape(-1)
+    if np.array_equal(rows[first][which], rows):
+        return first, which
     seen: dict = {}
-    first: list[int] = []
-    which = np.empty(len(rows), dtype=np.intp)
+    first_list: list[int] = []
     for j, row in enumerate(rows):
         key = row.tobytes()
         m = seen.get(key)
         if m is None:
-            m = seen[key] = len(first)
-            first.append(j)
+            m = seen[key] = len(first_list)
+            first_list.append(j)
         which[j] = m
-    return first, which
+    return np.array(first_list, dtype=np.intp), which
 
 
 def _runs(seq: list, longest: int = 8) -> list[tuple[tuple, int]]:
@@ -127,15 +135,43 @@ def _mul(P, Q):
 
 
 def _power(M, r: int):
-    """``M^r`` (r ≥ 1) by repeated squaring."""
-    result = None
-    while True:
-        if r & 1:
-            result = M if result is None else _mul(result, M)
-        r >>= 1
-        if not r:
-            return result
-        M = _mul(M, M)
+    """``M^r`` (r ≥ 1) of a matrix of determinant 1 (a product of layers).
+
+    Up to 40 repeats through Chebyshev polynomials of the second kind
+    (``M^r = U_{r−1}(x) M − U_{r−2}(x) I``, ``x`` half the trace: two array
+    operations per repeat on one matrix entry's size); more by squaring.
+
+    References
+    ----------
+    F. Abelès, Ann. Phys. (Paris) 5, 596-640 (1950); M. Born and E. Wolf,
+    *Principles of Optics*, 7th ed., Cambridge University Press, 1999,
+    §1.6.5 (periodically stratified media).
+    """
+    if r == 1:
+        return M
+    if r > 40:
+        result = None
+        while True:
+            if r & 1:
+                result = M if result is None else _mul(result, M)
+            r >>= 1
+            if not r:
+                return result
+            M = _mul(M, M)
+    two_x = M[0, 0] + M[1, 1]
+    u_prev, u = None, two_x                                             # U_0 = 1, U_1 = 2x
+    for _ in range(r - 2):
+        nxt = two_x * u
+        if u_prev is None:
+            nxt -= 1.0
+        else:
+            nxt -= u_prev
+        u_prev, u = u, nxt
+    out = M * u                                                        # U_{r−1} M
+    sub = 1.0 if u_prev is None else u_prev                            # U_{r−2}
+    out[0, 0] -= sub
+    out[1, 1] -= sub
+    return out
 
 
 def _by_blocks(eta_t, k_t, d_t, seq):
