@@ -483,3 +483,24 @@ class TestLongTitles:
         title = [t for t in texts(parse(long_fig)) if t.startswith("Camera after")][0]
         assert title.count("\n") >= 2
         assert all(text_width(line, 15.1) <= long_fig.width - 40 for line in title.split("\n"))
+
+
+class TestTickCrowding:
+    def test_x_labels_do_not_overlap(self):
+        """On a narrow axis with long tick labels, x ticks are thinned until their labels fit between them."""
+        fig = Figure(300, 200)
+        ax = fig.add_axes((40, 10, 160, 150), xlim=(0.21512, 0.21693), xticks=9)
+        fig.svg()
+        t, labels = ax.ticks(0)
+        shown = [p for p, s in zip(t, labels) if s]
+        assert len(t) >= 2 and len(shown) >= 1
+        if len(shown) > 1:
+            spacing = 160 * (shown[1] - shown[0]) / (0.21693 - 0.21512)
+            assert max(text_width(s, 11) for s in labels) + 10 <= spacing
+
+    def test_at_least_two_ticks(self):
+        """A range narrower than one nice step of the first guess still gets two ticks or more."""
+        fig = Figure(300, 200)
+        ax = fig.add_axes((40, 10, 160, 150), xlim=(0.2151, 0.2169), ylim=(1.0001, 1.0009))
+        fig.svg()
+        assert len(ax.ticks(0)[0]) >= 2 and len(ax.ticks(1)[0]) >= 2

@@ -210,7 +210,9 @@ def delta_e_bars_figure(measures, *, label_worst: int = 3) -> Figure:
         ax.hline(st["mean"], colour="#111111", width=1.2, label=f"mean {st['mean']:.2f}")
         ax.hline(st["p95"], colour="#111111", width=1.1, dash="dashed", label=f"95th percentile {st['p95']:.2f}")
         worst = np.argsort(-np.nan_to_num(d[j], nan=-1))[:max(0, label_worst)]
-        for k, level in zip(sorted(worst), label_levels(sorted(worst), 6)):
+        # names closer than their width (in bars) stack upwards
+        near = (max((text_width(names[k], 9.5) for k in worst), default=0.0) + 6) / (box[2] / max(K, 1))
+        for k, level in zip(sorted(worst), label_levels(sorted(worst), near)):
             ax.annotate(names[k], k, d[j, k], dy=3 + 12 * level, size=9.5, anchor="middle")
         ax.set(ylabel=DE_LABEL, grid="y",
                title=(f"{ill}: mean {st['mean']:.2f}, median {st['median']:.2f}, p95 {st['p95']:.2f}, "

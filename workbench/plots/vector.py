@@ -561,7 +561,26 @@ class Axes:
         length = self.box[2] if which == 0 else self.box[3]
         count = min(self.tick_count[which], max(2.0, length / (70.0 if which == 0 else 40.0)))
         t = nice_ticks(lo, hi, count)
-        return t, tick_labels(t)
+        while t.size < 2 and count < 50:  # at least two ticks, so the scale can be read
+            count *= 1.5
+            t = nice_ticks(lo, hi, count)
+        labels = tick_labels(t)
+        while which == 0 and t.size > 2:  # x labels wider than their spacing: fewer ticks, never under two
+            spacing = length * (t[1] - t[0]) / (hi - lo)
+            if max(text_width(s, 11) for s in labels) + 10 <= spacing:
+                break
+            count *= 0.8
+            fewer = nice_ticks(lo, hi, count)
+            if fewer.size < 2:
+                break
+            if fewer.size < t.size:
+                t, labels = fewer, tick_labels(fewer)
+        if which == 0 and t.size > 1:  # still too close: label every k-th tick only
+            spacing = length * (t[1] - t[0]) / (hi - lo)
+            k = math.ceil((max(text_width(s, 11) for s in labels) + 10) / max(spacing, 1e-9))
+            if k > 1:
+                labels = [s if i % k == 0 else "" for i, s in enumerate(labels)]
+        return t, labels
 
     # ---- drawing ---------------------------------------------------------------
 
@@ -591,7 +610,8 @@ class Axes:
             out.append(f'<path d="{"".join(tk)}" {_style(stroke=_AXIS, width=0.9)}/>')
         if self.tick_labels_x:
             for p, s in zip(self.px(xt).tolist(), xl):
-                out.append(_text_svg(p, bottom + 7, s, size=11, anchor="middle", va="top", colour=_AXIS))
+                if s:
+                    out.append(_text_svg(p, bottom + 7, s, size=11, anchor="middle", va="top", colour=_AXIS))
         for p, s in zip(self.py(yt).tolist(), yl):
             out.append(_text_svg(left - 7, p, s, size=11, anchor="end", va="middle", colour=_AXIS))
         if self.xlabel:
