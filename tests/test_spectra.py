@@ -98,6 +98,18 @@ class TestResample:
         assert used == "cubic-spline"
         np.testing.assert_allclose(v, colour.CubicSplineInterpolator(x, y)(grid(380, 780, 5)), atol=1e-12)
 
+    @pytest.mark.parametrize("n", [3, 4, 5, 12, 300])
+    def test_cubic_spline_any_length(self, n):
+        """The numpy not-a-knot spline equals scipy's CubicSpline on irregular knots, 3 to 300 of them."""
+        from scipy.interpolate import CubicSpline  # reference: scipy's not-a-knot spline (colour-science's too)
+
+        rng = np.random.default_rng(n)
+        x = 380 + np.concatenate([[0.0], np.cumsum(rng.uniform(0.3, 3.0, n - 1))])
+        y = np.sin(x / 23) + rng.uniform(0, 0.1, n)
+        xt = np.linspace(x[0], x[-1], 257)
+        v, _ = resample_values(y, x, xt, method="cubic-spline")
+        np.testing.assert_allclose(v, CubicSpline(x, y, bc_type="not-a-knot")(xt), rtol=0, atol=1e-12)
+
     def test_batch_equals_single(self):
         """A (2, 3, n) batch resamples like each spectrum alone."""
         x = grid(380, 780, 10)

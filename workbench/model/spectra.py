@@ -233,12 +233,57 @@ def coarsening_method(wavelengths, target, preference: str = "interpolation") ->
 
 
 def _spline_matrix(x: np.ndarray, xt: np.ndarray) -> np.ndarray:
-    # Late: scipy.interpolate loads scipy.optimize (~1 s); only the cubic-spline method needs it.
-    from scipy.interpolate import CubicSpline
+    """The not-a-knot cubic spline through (x, y) at ``xt`` as a matrix (len(xt), n): column j answers y = e_j.
 
-    # Not-a-knot cubic spline applied to the identity: column j is the
-    # response to a unit value at x[j].
-    return CubicSpline(x, np.eye(x.size), axis=0, bc_type="not-a-knot")(xt)
+    Second derivatives M at the knots solve the usual tridiagonal system
+    h₋ M₋ + 2(h₋ + h₊) M + h₊ M₊ = 6 (Δy₊/h₊ − Δy₋/h₋); not-a-knot (a
+    continuous third derivative at the second and the last-but-one knot)
+    gives M at both ends from their neighbours, which are substituted into
+    the first and last rows so the system stays diagonally dominant and is
+    solved by forward elimination and back substitution (numpy only; agrees
+    with scipy's CubicSpline to rounding). Two knots give the straight
+    line, three the parabola through them.
+    """
+    n = x.size
+    h = np.diff(x)
+    eye = np.eye(n)
+    if n == 2:
+        return _linear_matrix(x, xt)
+    if n == 3:  # the parabola through the three points (Lagrange)
+        return np.stack([np.prod([(xt - x[k]) / (x[j] - x[k]) for k in range(3) if k != j], axis=0)
+                         for j in range(3)], axis=1)
+    # right-hand side (n - 2, n): 6 (Δy_i/h_i − Δy_{i−1}/h_{i−1}) as a matrix acting on y
+    rhs = 6 * ((eye[2:] - eye[1:-1]) / h[1:, None] - (eye[1:-1] - eye[:-2]) / h[:-1, None])
+    lower = h[:-1].copy()          # coefficient of M_{i−1} in row i (i = 1 … n−2)
+    diag = 2 * (h[:-1] + h[1:])
+    upper = h[1:].copy()           # coefficient of M_{i+1}
+    h0, h1, hb, ha = h[0], h[1], h[-2], h[-1]
+    diag[0] += h0 * (h0 + h1) / h1   # M_0 = ((h0 + h1) M_1 − h0 M_2) / h1
+    upper[0] -= h0 * h0 / h1
+    diag[-1] += ha * (hb + ha) / hb  # M_{n−1} = ((h_{n−3} + h_{n−2}) M_{n−2} − h_{n−2} M_{n−3}) / h_{n−3}
+    lower[-1] -= ha * ha / hb
+    m = n - 2
+    c = np.empty(m)
+    d = np.empty_like(rhs)
+    c[0] = upper[0] / diag[0]
+    d[0] = rhs[0] / diag[0]
+    for i in range(1, m):
+        piv = diag[i] - lower[i] * c[i - 1]
+        c[i] = upper[i] / piv
+        d[i] = (rhs[i] - lower[i] * d[i - 1]) / piv
+    M = np.empty((n, n))
+    M[m] = d[m - 1]
+    for i in range(m - 2, -1, -1):
+        d[i] -= c[i] * d[i + 1]
+    M[1:-1] = d
+    M[0] = ((h0 + h1) * M[1] - h0 * M[2]) / h1
+    M[-1] = ((hb + ha) * M[-2] - ha * M[-3]) / hb
+    k = np.clip(np.searchsorted(x, xt, side="right") - 1, 0, n - 2)
+    hk = h[k][:, None]
+    a = (x[k + 1] - xt)[:, None]
+    b = (xt - x[k])[:, None]
+    return (M[k] * a ** 3 + M[k + 1] * b ** 3) / (6 * hk) + (eye[k] / hk - M[k] * hk / 6) * a \
+        + (eye[k + 1] / hk - M[k + 1] * hk / 6) * b
 
 
 @lru_cache(maxsize=256)
