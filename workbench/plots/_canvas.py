@@ -4,7 +4,8 @@ No pyplot: a figure belongs to nobody's global state, draws the same under
 any backend, and is freed when the last reference goes. Notebooks show one
 with ``IPython.display.display(fig)`` (or as a cell's value).
 
-Speed (measured for the fit report, see tests/benchmarks/bench_startup.py):
+Speed (measured on the fit report's figures when they were drawn here; the
+report now draws them with :mod:`workbench.plots.vector`, no matplotlib):
 a layout engine makes ``savefig`` draw every figure twice (once to measure,
 once to paint) and measures every text's extent, which was half of a
 report's drawing time. Figures that always hold the same texts therefore
