@@ -504,3 +504,33 @@ class TestTickCrowding:
         ax = fig.add_axes((40, 10, 160, 150), xlim=(0.2151, 0.2169), ylim=(1.0001, 1.0009))
         fig.svg()
         assert len(ax.ticks(0)[0]) >= 2 and len(ax.ticks(1)[0]) >= 2
+
+
+class TestPrimitives:
+    def test_fill_between_dashes_rotation(self):
+        """fill_between is one closed filled path; dashes become a dash array; the y label is turned −90°."""
+        fig = Figure(500, 300)
+        ax = fig.add_axes((60, 30, 300, 200), xlim=(0, 4), ylim=(0, 2))
+        ax.fill_between([0, 1, 2, 3, 4], 0.0, [1, 1.5, np.nan, 1, 0.5], colour="#0d0d0d", opacity=0.3)
+        ax.line([0, 4], [1, 1], dash="dashed", colour="#0e0e0e")
+        ax.set(ylabel="y (unit)")
+        root = parse(fig)
+        fill = [p for p in root.iter(SVG + "path") if p.get("fill") == "#0d0d0d"][0]
+        d = fill.get("d")
+        assert d.startswith("M") and d.endswith("z") and fill.get("opacity") == "0.3"
+        assert len(re.findall(r"-?[\d.]+,-?[\d.]+", d)) == 8  # 4 finite x, top then bottom
+        dashed = [p for p in root.iter(SVG + "path") if p.get("stroke") == "#0e0e0e"][0]
+        assert dashed.get("stroke-dasharray") == "6 3.5"
+        label = [t for t in root.iter(SVG + "text") if t.text == "y (unit)"][0]
+        assert label.get("transform").startswith("rotate(-90 ")
+
+    def test_every_marker_shape(self):
+        """Each marker shape draws a closed sub-path per point."""
+        from workbench.plots.vector import MARKERS
+
+        for shape in MARKERS:
+            fig = Figure(200, 200)
+            ax = fig.add_axes((20, 20, 160, 160), xlim=(0, 1), ylim=(0, 1))
+            ax.markers([0.2, 0.8], [0.5, 0.5], shape=shape, fill="#0f0f0f")
+            d = [p.get("d") for p in parse(fig).iter(SVG + "path") if p.get("fill") == "#0f0f0f"][0]
+            assert d.count("M") == 2 and d.count("z") == 2, shape
