@@ -106,7 +106,14 @@ class ChainModel:
         return tuple(self.design.parameters())
 
     def _values(self, values) -> dict[str, np.ndarray]:
-        current = {k: np.asarray(p.value) for k, p in self.design.parameters().items()}
+        base = getattr(self, "_base", None)
+        if base is None or base[0] is not self.design:
+            # the design's own values, once per design (an evaluator's copy may swap its design)
+            base = (self.design, {k: np.array(p.value) for k, p in self.design.parameters().items()})
+            for a in base[1].values():
+                a.setflags(write=False)
+            self._base = base
+        current = dict(base[1])
         for k, v in (values or {}).items():
             if k not in current:
                 raise WorkbenchError(
@@ -135,20 +142,24 @@ class ChainModel:
         the kind as it is.
         """
         names = [f"{e.name}.{k}" for k, _ in e.params]
-        arrays = [p[n] for n in names]
-        shape = np.broadcast_shapes(*(a.shape for a in arrays)) if arrays else ()
-        if len(shape) != 1 or shape[0] < 3:
+        batched = [n for n in names if p[n].ndim == 1]
+        if not batched or any(p[n].ndim > 1 for n in names):
             return np.asarray(self._curve(e, p))
-        rows = np.stack([np.broadcast_to(a, shape) for a in arrays], axis=-1)     # (B, P)
-        moved = np.flatnonzero(np.any(rows != rows[0], axis=-1))               # rows unlike the first
-        if len(moved) + 1 == shape[0]:
+        B = p[batched[0]].shape[0]
+        if B < 3 or any(p[n].shape[0] != B for n in batched):
             return np.asarray(self._curve(e, p))
-        keep = np.concatenate([[0], moved])
-        inverse = np.zeros(shape[0], dtype=int)
-        inverse[moved] = np.arange(1, len(keep))
+        moved = p[batched[0]] != p[batched[0]][0]
+        for n in batched[1:]:
+            moved |= p[n] != p[n][0]
+        keep = np.flatnonzero(moved)                              # the rows unlike the first
+        if len(keep) + 1 == B:
+            return np.asarray(self._curve(e, p))
+        keep = np.concatenate([[0], keep])
+        inverse = np.zeros(B, dtype=np.intp)
+        inverse[keep[1:]] = np.arange(1, len(keep))
         q = dict(p)
-        for i, n in enumerate(names):
-            q[n] = rows[keep, i]
+        for n in batched:
+            q[n] = p[n][keep]
         c = np.asarray(self._curve(e, q))
         if c.ndim != (3 if self._kinds[e.name].per_path else 2) or c.shape[0] != len(keep):
             return np.asarray(self._curve(e, p))    # a curve that does not follow its parameters' batch
