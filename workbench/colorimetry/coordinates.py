@@ -257,6 +257,11 @@ _P25_7 = 25.0 ** 7
 _R6, _R25, _R30, _R63, _R275 = np.radians([6.0, 25.0, 30.0, 63.0, 275.0])
 
 
+def _turn(h):
+    """An angle from arctan2, (−π, π], taken to [0, 2π): h mod 2π, the same numbers as ``h % 2π`` but cheaper."""
+    return np.where(h < 0, h + _TAU, h)
+
+
 def delta_E_CIE2000(Lab_1, Lab_2, *, k_L: float = 1.0, k_C: float = 1.0, k_H: float = 1.0) -> np.ndarray:
     """CIEDE2000 colour difference ΔE00 between L*a*b* (..., 3) arrays → (...).
 
@@ -289,8 +294,8 @@ def delta_E_CIE2000(Lab_1, Lab_2, *, k_L: float = 1.0, k_C: float = 1.0, k_H: fl
     a2p = G1 * a2
     C1p = np.hypot(a1p, b1)
     C2p = np.hypot(a2p, b2)
-    h1p = np.arctan2(b1, a1p) % _TAU
-    h2p = np.arctan2(b2, a2p) % _TAU
+    h1p = _turn(np.arctan2(b1, a1p))
+    h2p = _turn(np.arctan2(b2, a2p))
     # arctan2(0, 0) is 0 already, as Sharma et al. require.
     zero = (C1p * C2p) == 0
     dh = h2p - h1p
@@ -372,8 +377,8 @@ def delta_E_CIE2000_gradient(Lab_1, Lab_2) -> tuple[np.ndarray, np.ndarray]:
     C2p = np.hypot(a2p, b2)
     dC1p = ratio(a1p[..., None] * da1p + b1[..., None] * eb, C1p[..., None])
     dC2p = ratio(a2p[..., None] * da2p, C2p[..., None])
-    h1p = np.arctan2(b1, a1p) % _TAU
-    h2p = np.arctan2(b2, a2p) % _TAU
+    h1p = _turn(np.arctan2(b1, a1p))
+    h2p = _turn(np.arctan2(b2, a2p))
     dh1p = ratio(a1p[..., None] * eb - b1[..., None] * da1p, (C1p * C1p)[..., None])
     dh2p = ratio(-b2[..., None] * da2p, (C2p * C2p)[..., None])
     zero = (C1p * C2p) == 0
