@@ -154,6 +154,14 @@ class TestSplitter:
             assert np.all(lost >= loss - 1e-15) and np.all(lost <= 2 * loss)
         assert np.all(paths >= 0)
 
+    def test_paths_alone(self):
+        """with_lost=False gives the same paths bit for bit and None for the loss."""
+        kw = dict(blue_green_nm=np.array([500.0, 520.0]), green_red_nm=590.0, blue_green_aoi_deg=25.0,
+                  green_red_aoi_deg=12.0, n_eff_s=1.9, n_eff_p=1.6, medium_index=1.52, f_number=2.0, loss=0.01)
+        paths, lost = splitter.dichroic_splitter(WL, **kw)
+        alone, none = splitter.dichroic_splitter(WL, **kw, with_lost=False)
+        assert none is None and np.array_equal(alone, paths)
+
     def test_chief_ray_shift(self):
         """Without a cone the blue path is 50 % at the shifted edge λ₀√(1 − (n₀ sinθ/n_eff)²)."""
         lam = float(optics.angle_shifted_wavelength(520.0, 25.0, 1.8, 1.52))

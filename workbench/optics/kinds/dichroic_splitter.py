@@ -18,7 +18,7 @@ _AOI = ParamSpec(0.0, 80.0, False, False, "deg", 0.0, meaning="chief-ray angle o
 def _curve(x: CurveInput):
     paths, _ = splitter.dichroic_splitter(
         x.wavelengths, **x.params, order=x.option("order"), shape=x.option("shape"),
-        rings=x.option("rings"), azimuths=x.option("azimuths"))
+        rings=x.option("rings"), azimuths=x.option("azimuths"), with_lost=False)
     return paths
 
 
