@@ -360,6 +360,17 @@ class TestDeltaEBarsFigure:
         names[k] = "<b>&'x'"
         assert "<b>&'x'" in texts(parse(delta_e_bars_figure(replace(a, sample_names=tuple(names)))))
 
+    def test_missing_numbers_shown_as_dash(self, fitted):
+        """A ΔE00 statistic that is not finite reads '—' in the titles and legends, never 'nan'."""
+        result, _ = fitted
+        a = result.after
+        ill = a.illuminants[0]
+        stats = {**a.delta_E00, ill: {**a.delta_E00[ill], "p95": float("nan"), "max": float("nan")}}
+        fig = delta_e_bars_figure(replace(a, delta_E00=stats))
+        t = texts(_finite_svg(fig))
+        assert any(s.startswith(f"{ill}: mean ") and s.endswith("p95 —, max —") for s in t)
+        assert "95th percentile —" in t
+
 
 class TestChromaticityFigure:
     def test_locus_arrows_colour_bar(self, fitted):
@@ -534,3 +545,4 @@ class TestPrimitives:
             ax.markers([0.2, 0.8], [0.5, 0.5], shape=shape, fill="#0f0f0f")
             d = [p.get("d") for p in parse(fig).iter(SVG + "path") if p.get("fill") == "#0f0f0f"][0]
             assert d.count("M") == 2 and d.count("z") == 2, shape
+

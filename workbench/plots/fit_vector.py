@@ -106,6 +106,15 @@ def uv_region(points: np.ndarray) -> tuple[np.ndarray, float]:
     return (lo + hi) / 2 - side / 2, side
 
 
+def _num(value, fmt: str) -> str:
+    """``value`` formatted by ``fmt``; '—' for a missing or non-finite number (never 'nan' in a picture)."""
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        return "—"
+    return format(x, fmt) if math.isfinite(x) else "—"
+
+
 def _matrix_text(measures) -> str:
     return measures.methods.get("matrix", f"{measures.matrix_method}, {measures.matrix_scope}")
 
@@ -155,11 +164,11 @@ def sensitivities_figure(measures, before=None) -> Figure:
         if B is not None:
             top.line(wl, B[i] / scale, colour=col, width=1.0, opacity=0.45, label=f"{ch} camera, start")
         r = (C[i] - T[i]) / scale
-        bottom.line(wl, r, colour=col, width=1.7, label=f"{ch}: rms {np.sqrt(np.mean(r * r)):.3f}")
+        bottom.line(wl, r, colour=col, width=1.7, label=f"{ch}: rms {_num(np.sqrt(np.mean(r * r)), '.3f')}")
         if B is not None:
             rb = (B[i] - T[i]) / scale
             bottom.line(wl, rb, colour=col, width=1.0, opacity=0.45,
-                        label=f"{ch} start: rms {np.sqrt(np.mean(rb * rb)):.3f}")
+                        label=f"{ch} start: rms {_num(np.sqrt(np.mean(rb * rb)), '.3f')}")
     top.set(ylabel="relative response\n(display RGB; largest target peak = 1)")
     bottom.set(ylabel="camera − target\n(same scale)", xlabel=WL_LABEL, title="residual per wavelength")
     top.legend("right")
@@ -207,16 +216,17 @@ def delta_e_bars_figure(measures, *, label_worst: int = 3) -> Figure:
         ax.bars(x, np.where(np.isfinite(d[j]), d[j], np.nan), colours=colour_of)
         for _, a, _b in runs[1:]:
             ax.vline(a - 0.5, colour="#666666", width=0.9, dash="dotted")
-        ax.hline(st["mean"], colour="#111111", width=1.2, label=f"mean {st['mean']:.2f}")
-        ax.hline(st["p95"], colour="#111111", width=1.1, dash="dashed", label=f"95th percentile {st['p95']:.2f}")
+        ax.hline(st["mean"], colour="#111111", width=1.2, label=f"mean {_num(st['mean'], '.2f')}")
+        ax.hline(st["p95"], colour="#111111", width=1.1, dash="dashed",
+                 label=f"95th percentile {_num(st['p95'], '.2f')}")
         worst = np.argsort(-np.nan_to_num(d[j], nan=-1))[:max(0, label_worst)]
         # names closer than their width (in bars) stack upwards
         near = (max((text_width(names[k], 9.5) for k in worst), default=0.0) + 6) / (box[2] / max(K, 1))
         for k, level in zip(sorted(worst), label_levels(sorted(worst), near)):
             ax.annotate(names[k], k, d[j, k], dy=3 + 12 * level, size=9.5, anchor="middle")
         ax.set(ylabel=DE_LABEL, grid="y",
-               title=(f"{ill}: mean {st['mean']:.2f}, median {st['median']:.2f}, p95 {st['p95']:.2f}, "
-                      f"max {st['max']:.2f}"))
+               title=(f"{ill}: mean {_num(st['mean'], '.2f')}, median {_num(st['median'], '.2f')}, "
+                      f"p95 {_num(st['p95'], '.2f')}, max {_num(st['max'], '.2f')}"))
         ax.tick_labels_x = j == J - 1
         ax.legend("right")
     first.xticks([(a + b - 1) / 2 for _, a, b in runs], [f"{n}\n({b - a} samples)" for n, a, b in runs])
@@ -391,7 +401,7 @@ def front_figure(front, *, chosen: int = 0) -> Figure:
     ax.line(x, y, colour=PALETTE[0], width=1.6)
     ax.markers(x, y, size=8, fill=PALETTE[0], edge="#ffffff", edge_width=0.8, label="non-dominated fits")
     for p, xi, yi in zip(front, x, y):
-        ax.annotate(f"t = {float(p['t']):.2g}", xi, yi, dx=7, dy=5, size=10)
+        ax.annotate(f"t = {_num(p['t'], '.2g')}", xi, yi, dx=7, dy=5, size=10)
     if 0 <= chosen < len(front):
         ax.markers([x[chosen]], [y[chosen]], shape="star", size=15, fill=PALETTE[3], edge="#ffffff",
                    edge_width=0.6, label="the written fit")
