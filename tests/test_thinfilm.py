@@ -283,6 +283,12 @@ class TestStackResponse:
             stack_response([[2.0]], [100.0], [550.0], 90.0)
         assert str(err.value) == "'angles_deg' must be 0 ≤ angle < 90 degrees (got 90)"
 
+    def test_rejects_a_stack_without_layers(self):
+        """A layer axis of length 0 is refused with one line, not a division by zero."""
+        with pytest.raises(WorkbenchError) as err:
+            stack_response(np.empty((0, 3)), np.empty(0), [400.0, 500.0, 600.0], 0.0)
+        assert str(err.value) == "'thicknesses_nm' must hold at least one layer (got none)"
+
     def test_rejects_zero_thickness(self):
         """A thickness ≤ 0 is refused."""
         with pytest.raises(WorkbenchError) as err:

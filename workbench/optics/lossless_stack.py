@@ -294,7 +294,7 @@ def lossless_response(Nt, dt, wl, beta2, eta0, eta_s):
     if one_stack and math.prod(mid) == 1:
         # distinct layers (one material, one thickness): a periodic stack has few
         first, seq = _distinct_rows(np.stack([which.astype(float), dt.reshape(L)], axis=1))
-    if seq is not None and len(first) <= L // 2:
+    if seq is not None and 0 < len(first) <= L // 2:
         which_t = which[first]
         P = _by_blocks(eta[which_t], k_m[which_t], dt.reshape(L)[first], seq)
         # [B, C] = M [1, η_sub]:  B = g00 + i g01 η_sub,  C = −i g10 + g11 η_sub

@@ -221,6 +221,8 @@ def stack_response(
     d = np.asarray(thicknesses_nm, dtype=float)
     if d.ndim == 0:
         raise WorkbenchError("'thicknesses_nm' must have a layer axis (got a scalar)")
+    if d.shape[-1] == 0:
+        raise WorkbenchError("'thicknesses_nm' must hold at least one layer (got none)")
     N = np.asarray(layer_indices, dtype=complex)
     if N.ndim < 2 or N.shape[-1] not in (1, W) or N.shape[-2] != d.shape[-1]:
         raise WorkbenchError(
