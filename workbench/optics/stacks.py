@@ -281,10 +281,14 @@ def cone_response(layer_indices, thicknesses_nm, wavelengths_nm, *, aoi_deg=0.0,
                                         derivatives=derivatives)
     pol_w = {"unpolarised": np.array([0.5, 0.5]), "s": np.array([1.0, 0.0]), "p": np.array([0.0, 1.0])}[polarisation]
     wts = pol_w[:, None] * weights[None, :]                                  # (2, K)
+    if not derivatives:
+        # the weighted sum over polarisation and ray as one matrix product
+        flat = wts.reshape(-1)
+        R = flat @ res.R.reshape(res.R.shape[:-3] + (flat.size, -1))
+        T = flat @ res.T.reshape(res.T.shape[:-3] + (flat.size, -1))
+        return R, T, None, None
     R = np.einsum("...pkw,pk->...w", res.R, wts)
     T = np.einsum("...pkw,pk->...w", res.T, wts)
-    if not derivatives:
-        return R, T, None, None
     dR = np.einsum("...pkw,pk->...w", res.dR_dd, wts)
     dT = np.einsum("...pkw,pk->...w", res.dT_dd, wts)
     return R, T, dR, dT

@@ -340,6 +340,14 @@ def _curve(x: CurveInput):
         N = data.N.real * ns[..., which, None] + 1j * data.N.imag               # (..., L, n)
     aoi = np.asarray(x.p("aoi_deg"), dtype=float)
     fno = x.params.get("f_number")
+    engine = dict(incident=data.n_incident, substrate=data.n_substrate, polarisation=x.option("polarisation"),
+                  rings=x.option("rings"), azimuths=x.option("azimuths"),
+                  back_surface=x.option("back_surface") == "uncoated")
+    if d.ndim == 1 and N.ndim == 2 and aoi.ndim == 0 and np.ndim(fno) == 0:
+        # one state (a slider, a fit's step): no batch to sort by geometry
+        R, T, _, _ = cone_response(N, d, wl, aoi_deg=float(aoi), f_number=None if fno is None else float(fno),
+                                   **engine)
+        return _paths(x, R, T, ())
     batch = np.broadcast_shapes(d.shape[:-1], N.shape[:-2], aoi.shape, np.shape(fno) if fno is not None else ())
     d = np.broadcast_to(d, batch + d.shape[-1:])
     N_flat = np.broadcast_to(N, batch + N.shape[-2:]).reshape((-1,) + N.shape[-2:]) if N.ndim > 2 else None
@@ -357,15 +365,14 @@ def _curve(x: CurveInput):
     for k, (a, f) in enumerate(keys):
         rows = np.nonzero(inverse.reshape(-1) == k)[0] if len(keys) > 1 else slice(None)
         r, t, _, _ = cone_response(N if N_flat is None else N_flat[rows], d_flat[rows], wl, aoi_deg=float(a),
-                                   f_number=None if fno_b is None else float(f),
-                                   incident=data.n_incident, substrate=data.n_substrate,
-                                   polarisation=x.option("polarisation"), rings=x.option("rings"),
-                                   azimuths=x.option("azimuths"),
-                                   back_surface=x.option("back_surface") == "uncoated")
+                                   f_number=None if fno_b is None else float(f), **engine)
         R[rows], T[rows] = r, t
-    R = R.reshape(batch + (wl.size,))
-    T = T.reshape(batch + (wl.size,))
-    out = np.ones(batch + (3, wl.size))
+    return _paths(x, R.reshape(batch + (wl.size,)), T.reshape(batch + (wl.size,)), batch)
+
+
+def _paths(x: CurveInput, R, T, batch) -> np.ndarray:
+    """The element's curve on the R, G, B paths ``(..., 3, n_λ)``: R on the reflected path, T on the others."""
+    out = np.ones(batch + (3, R.shape[-1]))
     reflects = x.option("reflects")
     for i, ch in enumerate(_CHANNELS):
         if ch in x.paths:
