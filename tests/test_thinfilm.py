@@ -251,6 +251,30 @@ class TestStackResponse:
         np.testing.assert_allclose(batch.R[0], alone.R, atol=1e-12, rtol=0)
         np.testing.assert_allclose(batch.T[0], alone.T, atol=1e-12, rtol=0)
 
+    def test_rows_that_each_change_one_layer_equal_each_row_alone(self):
+        """Forward-difference rows (one layer changed per row, lossless, from glass) equal each stack alone to 1e-12."""
+        rng = np.random.default_rng(23)
+        wl = np.linspace(400.0, 700.0, 7)
+        n_h = 2.30 + 0.05 * (550.0 / wl) ** 2
+        n_l = 1.45 + 0.01 * (550.0 / wl) ** 2
+        L = 9
+        n = np.stack([n_h if i % 2 else n_l for i in range(L)])
+        d0 = rng.uniform(40.0, 140.0, L)
+        rows = np.tile(d0, (L + 2, 1))
+        for i in range(L):
+            rows[i + 1, i] *= 1.0 + 0.01 * (i + 1)                 # row 0 and row L + 1 are the base stack
+        angles = (0.0, 30.0, 50.0)
+        kw = dict(incident=N_GLASS, substrate=1.6 + 0.01j)
+        batch = stack_response(n, rows, wl, angles, **kw)
+        for b in range(L + 2):
+            alone = stack_response(n, rows[b], wl, angles, **kw)
+            np.testing.assert_allclose(batch.R[b], alone.R, atol=1e-12, rtol=0)
+            np.testing.assert_allclose(batch.T[b], alone.T, atol=1e-12, rtol=0)
+        # tmm 0.2.0 (S. J. Byrnes, arXiv:1603.02720), coh_tmm, for one changed row
+        R_ref, T_ref = tmm_reference("p", n[:, 3], rows[5], 30.0, wl[3], N_GLASS, 1.6 + 0.01j)
+        assert abs(batch.R[5, 1, 1, 3] - R_ref) <= 1e-12
+        assert abs(batch.T[5, 1, 1, 3] - T_ref) <= 1e-12
+
     def test_batch_of_thicknesses_over_one_set_of_indices(self):
         """Thicknesses batched over one set of layer indices broadcast like the stacks alone."""
         n = np.array([[2.35], [1.46], [2.35]])

@@ -32,7 +32,7 @@ import threading
 
 import numpy as np
 
-__all__ = ["lossless_response", "scratch_arrays", "cos_sin"]
+__all__ = ["lossless_response", "lossless_one_change", "scratch_arrays", "cos_sin"]
 
 _TWO_PI = 2.0 * np.pi
 _LOCAL = threading.local()
@@ -318,3 +318,99 @@ def lossless_response(Nt, dt, wl, beta2, eta0, eta_s):
     R /= Y2
     T = (4.0 * eta0.real * eta_s.real) / Y2
     return R, T, None, None
+
+
+def lossless_one_change(N, d0, layer, thickness, wl, beta2, eta0, eta_s):
+    """R, T of one lossless stack and of copies of it that each give one layer another thickness; None otherwise.
+
+    A fit's forward differences move one layer per row: with the vectors
+    ``v_j = M_{j+1} … M_L [1, η_sub]`` (one pass from the substrate) and
+    the row vectors ``[η₀, ±1] M₁ … M_{j−1}`` (one pass from the incidence
+    side), a row that changes layer j costs one layer's matrix and two dot
+    products, not a pass through the stack.
+
+    Parameters
+    ----------
+    N : (L, n_λ) ndarray
+        Layer indices (one set for every row).
+    d0 : (L,) ndarray, nm
+        The base stack's thicknesses.
+    layer : (K,) int ndarray
+        The layer each row changes.
+    thickness : (K,) ndarray, nm
+        Its thickness in that row.
+    wl, beta2, eta0, eta_s
+        As for :func:`lossless_response`.
+
+    Returns
+    -------
+    (R0, T0, R, T) with R0, T0 shaped (2, n_a, n_λ) (the base stack) and R,
+    T shaped (K, 2, n_a, n_λ); None when a layer absorbs or carries an
+    evanescent wave.
+    """
+    if np.iscomplexobj(N):
+        if np.any(N.imag):
+            return None
+        N = N.real
+    L, K = N.shape[0], layer.size
+    first, which = _distinct_rows(N.reshape(L, N.shape[-1]))
+    U2 = N[first] ** 2
+    arg = U2[:, None, :] - beta2                                       # (M, A, W)
+    if not np.all(arg > 0):
+        return None
+    q = np.sqrt(arg)
+    eta = np.stack([q, U2[:, None, :] / q], axis=1)                    # (M, 2, A, W)
+    E = np.stack([1.0 / eta, -1.0 / eta, eta, -eta], axis=1)           # (M, 4, 2, A, W)
+    E_row = E[:, [2, 3, 0, 1]]                                         # (η, −η, 1/η, −1/η) for row vectors
+    k_m = (_TWO_PI / wl) * q                                           # (M, A, W)
+    delta = np.concatenate([k_m[which] * d0[:, None, None], k_m[which[layer]] * thickness[:, None, None]])
+    cd, sd = cos_sin(delta)
+    a = cd[:, None, None]                                              # (L + K, 1, 1, A, W)
+    s = sd[:, None, None]
+    shape = (4,) + eta.shape[1:]                                       # (4, 2, A, W)
+    (V,) = scratch_arrays((L,) + shape, 1, slot="one-change-columns", dtype=float)
+    (F,) = scratch_arrays((L, 2) + shape, 1, slot="one-change-rows", dtype=float)
+    t, u = np.empty(shape), np.empty((2,) + shape)
+    # v_{L-1} = [1, η_sub] as (Re B, Im B, Re C, Im C); v_{j-1} = M_j v_j
+    V[L - 1, 0] = 1.0
+    V[L - 1, 1] = 0.0
+    V[L - 1, 2] = eta_s.real
+    V[L - 1, 3] = eta_s.imag
+    for j in range(L - 1, 0, -1):
+        np.multiply(V[j, ::-1], E[which[j]], out=t)
+        t *= s[j, 0]
+        np.multiply(V[j], a[j, 0], out=V[j - 1])
+        V[j - 1] += t
+    # row vectors [η₀, 1] and [η₀, −1] (Re a, Im a, Re b, Im b), then F_{j+1} = F_j M_j
+    F[0, :, 0] = eta0
+    F[0, :, 1] = 0.0
+    F[0, 0, 2] = 1.0
+    F[0, 1, 2] = -1.0
+    F[0, :, 3] = 0.0
+    for j in range(L - 1):
+        np.multiply(F[j, :, ::-1], E_row[which[j]], out=u)
+        u *= s[j]
+        np.multiply(F[j], a[j], out=F[j + 1])
+        F[j + 1] += u
+    # each row (and the base stack, as row K: its first layer as it is) is [η₀, ±1] M₁ … M_j' … M_L [1, η_sub]
+    layers = np.append(layer, 0)
+    a_k = np.concatenate([a[L:], a[:1]])                               # (K + 1, 1, 1, A, W)
+    s_k = np.concatenate([s[L:], s[:1]])
+    R = np.empty((K + 1,) + eta.shape[1:])
+    T = np.empty_like(R)
+    X = np.empty(shape)
+    num = 4.0 * eta0 * eta_s.real
+    for i, j in enumerate(layers):
+        np.multiply(V[j, ::-1], E[which[j]], out=X)
+        X *= s_k[i, 0]
+        X += a_k[i, 0] * V[j]
+        Br, Bi, Cr, Ci = X
+        f0, f1, f2, f3 = F[j, :, 0], F[j, :, 1], F[j, :, 2], F[j, :, 3]          # (2, 2, A, W)
+        Zr = f0 * Br - f1 * Bi + f2 * Cr - f3 * Ci                     # [η₀, ±1]·[B, C]
+        Zi = f0 * Bi + f1 * Br + f2 * Ci + f3 * Cr
+        Z2 = Zr * Zr
+        Z2 += Zi * Zi
+        np.divide(Z2[1], Z2[0], out=R[i])
+        np.divide(num, Z2[0], out=T[i])
+    return R[K], T[K], R[:K], T[:K]
+

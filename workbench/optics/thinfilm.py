@@ -70,7 +70,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from workbench.errors import WorkbenchError
-from workbench.optics.lossless_stack import cos_sin, lossless_response, scratch_arrays
+from workbench.optics.lossless_stack import cos_sin, lossless_one_change, lossless_response, scratch_arrays
 
 __all__ = [
     "StackResponse",
@@ -238,6 +238,12 @@ def stack_response(
     batch = np.broadcast_shapes(N.shape[:-2], d.shape[:-1])
     L = d.shape[-1]
     n_stacks = math.prod(batch)
+    if not derivatives and media.ne is None and n_stacks >= 4 and math.prod(N.shape[:-2]) == 1:
+        one = _one_change_rows(N.reshape(N.shape[-2:]), np.broadcast_to(d, batch + (L,)).reshape(n_stacks, L),
+                               wl, media)
+        if one is not None:
+            R, T = one
+            return StackResponse(wl, theta, R.reshape(batch + R.shape[1:]), T.reshape(batch + T.shape[1:]))
     # Large batches go in chunks of about _CHUNK_ELEMENTS per layer array, so
     # the working set stays in cache.
     per_stack = L * 2 * theta.size * W
@@ -266,6 +272,27 @@ def stack_response(
         dR = dR.reshape(batch + dR.shape[1:])
         dT = dT.reshape(batch + dT.shape[1:])
     return StackResponse(wl, theta, R, T, dR, dT)
+
+
+def _one_change_rows(N, d, wl, media):
+    """R, T (B, 2, A, W) when every row of ``d`` (B, L) is row 0 with at most one layer changed (lossless); else None."""
+    changed = d != d[0]
+    counts = changed.sum(axis=1)
+    if counts.max() > 1:
+        return None
+    rows = np.flatnonzero(counts)
+    layer = np.argmax(changed[rows], axis=1)
+    fast = lossless_one_change(N, d[0], layer, d[rows, layer], wl, media.beta2, media.eta0, media.eta_s)
+    if fast is None:
+        return None
+    R0, T0, R_rows, T_rows = fast
+    R = np.empty((d.shape[0],) + R0.shape)
+    T = np.empty_like(R)
+    R[:] = R0
+    T[:] = T0
+    R[rows] = R_rows
+    T[rows] = T_rows
+    return R, T
 
 
 #: Elements per layer array (stacks × 2 × angles × wavelengths) in one chunk.

@@ -337,6 +337,9 @@ def _curve(x: CurveInput):
     if any(f"index_scale_{s}" in x.params for s in symbols):
         ns = np.stack(np.broadcast_arrays(*[np.asarray(x.params.get(f"index_scale_{s}", 1.0), dtype=float)
                                             for s in symbols]), axis=-1)        # (..., M)
+        flat = ns.reshape(-1, ns.shape[-1])
+        if np.all(flat == flat[0]):
+            ns = flat[0]                  # the same indices in every row: one set (the engine then sees one stack)
         N = data.N.real * ns[..., which, None] + 1j * data.N.imag               # (..., L, n)
     aoi = np.asarray(x.p("aoi_deg"), dtype=float)
     fno = x.params.get("f_number")
