@@ -28,7 +28,12 @@ class TestRecipeCommand:
         blue = d["faces"][0]
         assert len(blue["layers"]) == 9 and blue["layers"][0]["material"] == "SiO2"
         assert sorted(p.name for p in out.iterdir() if not p.name.startswith(".")) == [
-            "design.toml", "face-blue-green.csv", "face-green-red.csv", "recipes.json"]
+            "design.toml", "face-blue-green.csv", "face-green-red.csv", "layers-blue-green.png",
+            "layers-green-red.png", "recipes.json"]
+        assert (out / "layers-blue-green.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+        shares = d["layer_tolerance"]["blue-green"]["trial_shares"]
+        assert shares["settings"]["trials"] == 20 and 0 < shares["noise_floor"] < 1
+        assert shares["layers_above_floor"] == sum(r["above_floor"] for r in d["layer_tolerance"]["blue-green"]["ranking"])
         assert set(d["measures"]["mean_delta_E00"]) == {"daylight", "tungsten", "stage-led"}
         # the two edge types split s and p in opposite senses (this project's issue 19; Macleod 2010, ch. 6)
         blue_at = [r for r in blue["edge_vs_angle"] if r["angle_deg"] == 25.0][0]
@@ -115,6 +120,16 @@ class TestRecipeCommand:
         status, out, err = _run(capsys, ["recipe", str(demo_design_path), "--layer-range", value])
         assert status == 2 and out == ""
         assert err.startswith("error: --layer-range must be in (0, 1)") and err.count("\n") == 1
+
+    @pytest.mark.parametrize("argv, message", [
+        (["--smoothness", "-1"], "error: --smoothness must be a weight 0-1000 (got -1)\n"),
+        (["--smoothness", "nan"], "error: --smoothness must be a weight 0-1000 (got nan)\n"),
+        (["--periods", "6", "--apodise", "4"], "error: --apodise must be 0-3, half of --periods at most (got 4)\n"),
+    ])
+    def test_rejects_bad_smoothness_and_apodise(self, capsys, demo_design_path, argv, message):
+        """A negative or NaN ripple weight, or more tapered periods than half the stack, is refused in one line."""
+        status, out, err = _run(capsys, ["recipe", str(demo_design_path), *argv])
+        assert status == 2 and out == "" and err == message
 
     def test_rejects_bad_periods(self, capsys, demo_design_path):
         """--periods outside 1-200 is refused."""

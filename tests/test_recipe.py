@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from workbench.analysis.recipe import refine_recipe, starting_stack
+from workbench.analysis.recipe import APODISE_MIN_SHARE, apodising_shares, refine_recipe, starting_stack
+from workbench.analysis.transition import edge_transition
 from workbench.errors import WorkbenchError
 from workbench.optics.elements import edge
 from workbench.optics.thinfilm import stack_response, stop_band_edges
@@ -32,6 +33,36 @@ class TestStartingStack:
         np.testing.assert_allclose(q, [0.5, 1, 1, 1, 1, 1, 1, 1, 0.5], atol=1e-12)
         assert rec.table()[0]["material"] == "SiO2" and rec.formula().startswith("L[")
 
+    def test_apodised_periods_keep_their_optical_thickness(self):
+        """Apodised: each period still spans a half wave; its middle layer follows the raised-cosine taper."""
+        rec = starting_stack(500.0, reflects="short", periods=8, apodise=3, high="2.35", low="1.46",
+                             incident="1.52", substrate="1.52")
+        q = rec.qwots()
+        f = apodising_shares(8, 3)
+        # the raised cosine a = ½(1 − cos(π k/(m + 1))) and f = arcsin(a)/π, floored at 0.1 (docs/methods.md §15)
+        a = 0.5 * (1 - np.cos(np.pi * np.arange(1, 4) / 4))
+        np.testing.assert_allclose(f[:3], np.maximum(np.arcsin(a) / np.pi, APODISE_MIN_SHARE), atol=1e-12)
+        np.testing.assert_allclose(f, f[::-1], atol=1e-12)
+        np.testing.assert_allclose(q[1::2], 2 * f, atol=1e-12)               # the H layers
+        assert q.sum() == pytest.approx(2 * 8, abs=1e-12)                  # 8 half-wave periods
+        plain = starting_stack(500.0, reflects="short", periods=8, high="2.35", low="1.46", incident="1.52",
+                               substrate="1.52")
+        # the taper lowers the side lobes beside the band (the apodisation of periodic reflectors; common practice)
+        wl = np.arange(400.0, 800.0, 0.1)
+        lobes = []
+        for r in (plain, rec):
+            R = stack_response(r.indices(wl), r.thicknesses_nm, wl, 0.0, incident=1.52, substrate=1.52).R[0, 0]
+            i = int(np.argmin(np.abs(wl - stop_band_edges(wl, R)[1])))
+            j = i + int(np.argmax(np.diff(R[i:]) > 0))                       # the first minimum beyond the edge
+            lobes.append(R[j:].max())
+        assert lobes[0] > 0.3 and lobes[1] < 0.05 * lobes[0]
+
+    def test_rejects_bad_apodise(self):
+        """More tapered periods than half the stack is refused."""
+        with pytest.raises(WorkbenchError) as err:
+            starting_stack(500.0, reflects="short", periods=4, apodise=3)
+        assert str(err.value) == "'apodise' must be an integer 0-2 (half the periods at most) (got 3)"
+
     def test_rejects_bad_side(self):
         """'reflects' must be short or long."""
         with pytest.raises(WorkbenchError) as err:
@@ -52,6 +83,24 @@ class TestRefineRecipe:
         assert report.rms_after < report.rms_before / 10
         R, _, _, _ = refined.response(wl)
         assert np.sqrt(np.mean((R - target) ** 2)) == pytest.approx(report.rms_after, rel=1e-6)
+
+    def test_ripple_penalty_smooths_the_chief_ray(self):
+        """Refined to a soft edge seen through an f/2 cone, the penalty removes the chief ray's ripple."""
+        rec = starting_stack(500.0, reflects="short", periods=12, aoi_deg=25.0, f_number=2.0, incident="1.52",
+                             substrate="1.52")
+        wl = np.arange(400.0, 700.0, 5.0)
+        target = 1.0 - edge(wl, 500.0, 35.0, kind="long-pass")
+        fine = np.arange(400.0, 700.0, 0.1)
+        reversal = []
+        for weight in (0.0, 1.0):
+            refined, report = refine_recipe(rec, wl, target, max_evaluations=40, smoothness=weight)
+            R_s = stack_response(refined.indices(fine), refined.thicknesses_nm, fine, 25.0, incident=1.52,
+                                 substrate=1.52).R[0, 0]
+            reversal.append(edge_transition(fine, R_s, reflects="short").reversal_pct)
+            # the report's rms is the fit's alone, with or without the penalty
+            assert np.sqrt(np.mean((refined.response(wl)[0] - target) ** 2)) == pytest.approx(report.rms_after,
+                                                                                               rel=1e-6)
+        assert reversal[1] < 0.25 * reversal[0]
 
     def test_target_edge_curve(self):
         """Refined to an idealised 15 nm edge, the stack's 50 % point stays at the edge."""

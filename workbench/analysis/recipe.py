@@ -33,12 +33,12 @@ from workbench.errors import WorkbenchError
 from workbench.optics.elements import angle_shift_factor, edge
 from workbench.optics.materials import Material, material_named
 from workbench.optics.stacks import cone_rays, cone_response, parse_layer_formula, physical_thicknesses
-from workbench.optics.thinfilm import stop_band_edges
+from workbench.optics.thinfilm import stack_response, stop_band_edges
 from workbench.fileio.design_toml import design_from_dict, design_to_dict
 
 __all__ = ["Recipe", "starting_stack", "refine_recipe", "RefineReport", "REFLECTS", "refine_in_camera",
            "CameraRefineReport", "idealised_face_reflectance", "splitter_recipes", "FaceRecipe", "coated_design",
-           "measures_with_curves"]
+           "measures_with_curves", "ripple_penalty", "RIPPLE_WEIGHT", "apodising_shares", "APODISE_MIN_SHARE"]
 
 #: Which side of the edge a face reflects.
 REFLECTS = ("short", "long")
@@ -128,9 +128,49 @@ def _edge_of(recipe: Recipe, reflects: str, guess_nm: float) -> float:
     return long_ if reflects == "short" else short
 
 
+#: The thinnest share of a period's optical thickness an apodised period gives its middle layer.
+APODISE_MIN_SHARE = 0.1
+
+
+def apodising_shares(periods: int, apodise: int) -> np.ndarray:
+    """Each period's share of its optical thickness in its middle layer, tapered at both ends.
+
+    A symmetric period ``(0.5A B 0.5A)`` reflects, per period, in proportion
+    to about sin(π f) for a share f of its optical thickness in B (0.5 for
+    the quarter-wave period). The ``apodise`` outermost periods at each end
+    get f = arcsin(a)/π with a raised-cosine ramp a = ½(1 − cos(π k/(m + 1))),
+    k = 1 … m, so the stack's reflecting strength rises smoothly from its
+    ends and the ripple beside the band falls (the apodisation of periodic
+    reflectors); f is kept ≥ :data:`APODISE_MIN_SHARE`. Every period keeps
+    its optical thickness, so the band stays where it was.
+
+    Returns
+    -------
+    (periods,) ndarray, fraction 0-0.5
+    """
+    f = np.full(periods, 0.5)
+    k = np.arange(1, apodise + 1)
+    ramp = np.maximum(np.arcsin(0.5 * (1.0 - np.cos(np.pi * k / (apodise + 1)))) / np.pi, APODISE_MIN_SHARE)
+    if apodise:
+        f[:apodise] = ramp
+        f[periods - apodise:] = ramp[::-1]
+    return f
+
+
+def _apodised(merged, periods: int, apodise: int):
+    """The merged symmetric-period layers with the duty of the outer periods tapered (same optical length)."""
+    f = apodising_shares(periods, apodise)
+    outer = 1.0 - f                                       # QWOTs of each period's two outer halves
+    qwots = [outer[0]]
+    for p in range(periods):
+        qwots.append(2.0 * f[p])
+        qwots.append(outer[p] + (outer[p + 1] if p + 1 < periods else 0.0))
+    return [type(layer)(layer.symbol, float(q)) for layer, q in zip(merged, qwots)]
+
+
 def starting_stack(edge_nm: float, *, reflects: str, periods: int = 10, high="TiO2", low="SiO2",
                    aoi_deg: float = 0.0, incident="air", substrate="crown-517", f_number=None,
-                   polarisation: str = "unpolarised") -> Recipe:
+                   polarisation: str = "unpolarised", apodise: int = 0) -> Recipe:
     """A quarter-wave edge filter whose 50 % point lies at ``edge_nm`` at its angle.
 
     Parameters
@@ -148,6 +188,9 @@ def starting_stack(edge_nm: float, *, reflects: str, periods: int = 10, high="Ti
         The two materials (built-in names, user materials or indices).
     aoi_deg, incident, substrate, f_number, polarisation
         The geometry the face works in.
+    apodise : int
+        Periods at each end whose middle layer is tapered
+        (:func:`apodising_shares`; 0: the plain quarter-wave stack).
 
     Returns
     -------
@@ -173,6 +216,11 @@ def starting_stack(edge_nm: float, *, reflects: str, periods: int = 10, high="Ti
             merged.append(type(layer)(layer.symbol, prev.qwot + layer.qwot))
         else:
             merged.append(layer)
+    if not (isinstance(apodise, (int, np.integer)) and 0 <= 2 * apodise <= periods):
+        raise WorkbenchError(f"'apodise' must be an integer 0-{periods // 2} (half the periods at most) "
+                             f"(got {apodise!r})")
+    if apodise:
+        merged = _apodised(merged, periods, apodise)
     symbols = tuple(x.symbol for x in merged)
     inc, sub = material_named(incident), material_named(substrate)
 
@@ -193,6 +241,58 @@ def starting_stack(edge_nm: float, *, reflects: str, periods: int = 10, high="Ti
     return recipe_at(ref)
 
 
+#: Default weight of the ripple penalty in the refinements (see :func:`ripple_penalty`).
+RIPPLE_WEIGHT = 1.0
+
+
+def ripple_penalty(recipe: Recipe, window_nm, *, weight: float, fit_weight: float, step_nm: float = 2.0):
+    """Residuals that penalise ripple: second differences of the chief ray's R_s and R_p, with their Jacobian.
+
+    On a grid of ``step_nm`` over ``window_nm``, at the recipe's own angle,
+    the residuals are ``c · (R_{k−1} − 2 R_k + R_{k+1})`` for s and p, with
+    ``c = weight · √(fit_weight / n)`` (n the number of these residuals):
+    with ``weight = 1`` the penalty's mean square counts as much as the fit's
+    mean square when ``fit_weight`` is the fit's Σ w² (its number of
+    residuals for unit weights). A smooth edge of width w has second
+    differences of about (step/w)², a ripple of amplitude a and period P
+    about a (2π step/P)², so the penalty falls mostly on the ripple. The
+    cone average hides a chief-ray ripple from the fit; the penalty does not.
+
+    Returns
+    -------
+    callable
+        ``penalty(d) -> (residuals (2(n_f − 2),), jacobian (2(n_f − 2), L))``.
+    """
+    if not (np.isfinite(weight) and weight >= 0):
+        raise WorkbenchError(f"'smoothness' must be a weight ≥ 0 (got {weight!r})")
+    wl_f = np.arange(float(window_nm[0]), float(window_nm[1]) + step_nm / 2, step_nm)
+    if wl_f.size < 3:
+        raise WorkbenchError(f"the ripple penalty needs at least 3 wavelengths (got {wl_f.size})")
+    N_f = recipe.indices(wl_f)
+    kw_f = dict(incident=recipe.incident.index(wl_f).real, substrate=recipe.substrate.index(wl_f))
+    scale = weight * np.sqrt(fit_weight / (2 * (wl_f.size - 2)))
+    cache = {}
+
+    def penalty(d):
+        key = d.tobytes()
+        if key not in cache:
+            res = stack_response(N_f, d, wl_f, [recipe.aoi_deg], derivatives=True, **kw_f)
+            R, dR = res.R[:, 0], res.dR_dd[:, :, 0]                       # (2, n_f), (L, 2, n_f)
+            D2 = R[:, :-2] - 2 * R[:, 1:-1] + R[:, 2:]
+            dD2 = dR[..., :-2] - 2 * dR[..., 1:-1] + dR[..., 2:]
+            cache.clear()
+            cache[key] = (scale * D2.reshape(-1), scale * dD2.reshape(dR.shape[0], -1).T)
+        return cache[key]
+
+    return penalty
+
+
+def _with_penalty(fun, jac, penalty):
+    """The residual and Jacobian functions with the penalty's rows appended."""
+    return (lambda d: np.concatenate([fun(d), penalty(d)[0]]),
+            lambda d: np.vstack([jac(d), penalty(d)[1]]))
+
+
 @dataclass(frozen=True)
 class RefineReport:
     """What :func:`refine_recipe` did: cost before and after, evaluations, status, layers at a bound."""
@@ -205,7 +305,8 @@ class RefineReport:
 
 
 def refine_recipe(recipe: Recipe, wavelengths_nm, target_R, *, weights=None, lower=0.3, upper=2.0,
-                  max_evaluations: int = 200) -> tuple[Recipe, RefineReport]:
+                  max_evaluations: int = 200, smoothness: float = 0.0,
+                  smooth_step_nm: float = 2.0) -> tuple[Recipe, RefineReport]:
     """Refine every layer thickness to a target reflectance curve (bounded, analytic Jacobian).
 
     Parameters
@@ -219,6 +320,11 @@ def refine_recipe(recipe: Recipe, wavelengths_nm, target_R, *, weights=None, low
     lower, upper : float
         Each layer's bounds as fractions of its starting thickness.
     max_evaluations : int
+    smoothness : float
+        Weight of the ripple penalty on the chief ray's R_s and R_p
+        (:func:`ripple_penalty`; 0: none). The reported rms is the fit's alone.
+    smooth_step_nm : float, nm
+        Grid step of the penalty.
 
     Returns
     -------
@@ -250,6 +356,10 @@ def refine_recipe(recipe: Recipe, wavelengths_nm, target_R, *, weights=None, low
     def jac(d):
         return (w[:, None] * evaluate(d)[1].T)
 
+    if smoothness > 0:
+        fun, jac = _with_penalty(fun, jac, ripple_penalty(recipe, (wl[0], wl[-1]), weight=smoothness,
+                                                          fit_weight=float(np.sum(w**2)), step_nm=smooth_step_nm))
+
     r0 = fun(d0)
     lo, hi = d0 * lower, d0 * upper
     sol = least_squares(fun, d0, jac=jac, bounds=(lo, hi), method="trf", x_scale=d0, max_nfev=max_evaluations)
@@ -257,8 +367,9 @@ def refine_recipe(recipe: Recipe, wavelengths_nm, target_R, *, weights=None, low
     refined = Recipe(recipe.symbols, recipe.materials, sol.x, recipe.reference_nm, recipe.incident,
                      recipe.substrate, recipe.aoi_deg, recipe.f_number, recipe.polarisation,
                      recipe.notes + (f"thicknesses refined to a target reflectance ({sol.nfev} evaluations)",))
+    r0, r1 = r0[:wl.size], sol.fun[:wl.size]
     rms = lambda r: float(np.sqrt(np.sum(r**2) / np.sum(w**2)))  # noqa: E731
-    return refined, RefineReport(rms(r0), rms(sol.fun), int(sol.nfev), str(sol.message), at_bound)
+    return refined, RefineReport(rms(r0), rms(r1), int(sol.nfev), str(sol.message), at_bound)
 
 
 # --------------------------------------------------------------------------
@@ -294,7 +405,7 @@ class CameraRefineReport:
 
 def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str = "none", paths=None,
                      lower: float = 0.5, upper: float = 1.5, max_evaluations: int = 60,
-                     progress=None) -> tuple[Recipe, CameraRefineReport]:
+                     progress=None, smoothness: float = 0.0) -> tuple[Recipe, CameraRefineReport]:
     """Refine a recipe's layer thicknesses against the camera objective itself.
 
     The element ``element`` of the evaluator's design is replaced by the
@@ -321,6 +432,9 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
     max_evaluations : int
     progress : callable, optional
         ``progress(evaluations, cost)`` after each evaluation of the stack.
+    smoothness : float
+        Weight of the ripple penalty (:func:`ripple_penalty`; 0: none);
+        the reported costs are the objective's alone.
 
     Returns
     -------
@@ -381,6 +495,10 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
 
     d0 = recipe.thicknesses_nm.copy()
     r0 = fun(d0)
+    m = r0.size
+    if smoothness > 0:
+        fun, jac = _with_penalty(fun, jac, ripple_penalty(recipe, (wl[0], wl[-1]), weight=smoothness,
+                                                          fit_weight=float(m)))
     lo, hi = d0 * lower, d0 * upper
     sol = least_squares(fun, d0, jac=jac, bounds=(lo, hi), method="trf", x_scale=d0, max_nfev=max_evaluations)
     at_bound = tuple(int(i) for i in np.nonzero((sol.x <= lo * 1.0001) | (sol.x >= hi * 0.9999))[0])
@@ -388,7 +506,8 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
                      recipe.substrate, recipe.aoi_deg, recipe.f_number, recipe.polarisation,
                      recipe.notes + (f"thicknesses refined against the camera objective of "
                                      f"{evaluator.design.name!r} ({sol.nfev} evaluations)",))
-    return refined, CameraRefineReport(0.5 * float(r0 @ r0), float(sol.cost), int(sol.nfev), str(sol.message),
+    r1 = sol.fun[:m]
+    return refined, CameraRefineReport(0.5 * float(r0 @ r0), 0.5 * float(r1 @ r1), int(sol.nfev), str(sol.message),
                                        at_bound)
 
 
@@ -459,14 +578,17 @@ class FaceRecipe:
 
 
 def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refine: bool = True,
-                     max_evaluations: int = 60) -> list[FaceRecipe]:
+                     max_evaluations: int = 60, apodise: int = 0,
+                     smoothness: float = RIPPLE_WEIGHT) -> list[FaceRecipe]:
     """Both faces of a design's idealised splitter as layer recipes.
 
     For each face: its idealised reflectance at its angle (cone and s/p
     averaged, :func:`idealised_face_reflectance`), the 50 % point of that
     curve, a symmetric-period starting stack there (:func:`starting_stack`,
     inside glass of the element's ``medium_index``) and, with ``refine``,
-    every thickness refined to the idealised curve (:func:`refine_recipe`).
+    every thickness refined to the idealised curve (:func:`refine_recipe`)
+    with the ripple penalty of weight ``smoothness`` on the chief ray's s
+    and p (the cone average the fit sees hides their ripple).
 
     Parameters
     ----------
@@ -475,6 +597,10 @@ def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refi
     high, low : str or Material
     refine : bool
     max_evaluations : int
+    apodise : int
+        Tapered periods at each end of the starting stacks (:func:`starting_stack`).
+    smoothness : float
+        Weight of the ripple penalty (:func:`ripple_penalty`; 0: none).
 
     Returns
     -------
@@ -498,10 +624,11 @@ def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refi
         aoi = el.param(f"{prefix}_aoi_deg")
         rec = starting_stack(edge_nm, reflects=side, periods=periods, high=high, low=low,
                              aoi_deg=0.0 if aoi is None else float(aoi.value), incident=f"{n0:g}",
-                             substrate=f"{n0:g}", f_number=None if fno is None else float(fno.value))
+                             substrate=f"{n0:g}", f_number=None if fno is None else float(fno.value),
+                             apodise=apodise)
         report = None
         if refine:
-            rec, report = refine_recipe(rec, wl, target, max_evaluations=max_evaluations)
+            rec, report = refine_recipe(rec, wl, target, max_evaluations=max_evaluations, smoothness=smoothness)
         out.append(FaceRecipe(face, side, float(edge_nm), target, rec, report))
     return out
 

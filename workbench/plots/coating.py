@@ -12,7 +12,7 @@ import numpy as np
 from workbench.optics.thinfilm import StackResponse, stop_band_edges
 from workbench.plots._canvas import new_figure, place_axes, png_bytes
 
-__all__ = ["plot_stack_spectra", "plot_half_points_vs_angle", "plot_stack_angles", "png_bytes"]
+__all__ = ["plot_stack_spectra", "plot_half_points_vs_angle", "plot_stack_angles", "plot_layer_shares", "png_bytes"]
 
 _WL_LABEL = "wavelength λ (nm)"
 _METHOD = "characteristic-matrix method"
@@ -137,4 +137,50 @@ def plot_stack_angles(response: StackResponse, *, quantity: str = "T", title: st
                  fontsize=9)
     ax.grid(alpha=0.3)
     ax.legend(fontsize=7, ncol=2, loc="best")
+    return fig
+
+
+def plot_layer_shares(ranking: list, floor: float, *, trials: int, title: str = "", level: float = 0.9):
+    """Each layer's share of the reflectance variance: from the derivatives, and from the trials with its noise.
+
+    Parameters
+    ----------
+    ranking : list of dict
+        :attr:`workbench.analysis.layer_tolerance.LayerTolerance.ranking`
+        (with ``trial_share`` and ``trial_interval``).
+    floor : float, fraction 0-1
+        The noise floor of the trial shares.
+    trials : int
+    title : str
+    level : float
+        The level of the intervals (for the legend).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    rows = sorted(ranking, key=lambda r: r["layer"])
+    layer = np.array([r["layer"] for r in rows])
+    share = 100 * np.array([r["trial_share"] for r in rows])
+    lo, hi = (100 * np.array([r["trial_interval"][k] for r in rows]) for k in (0, 1))
+    above = np.array([r["above_floor"] for r in rows])
+    fig = _figure(7.5, 4.2)
+    ax = fig.add_subplot()
+    colours = np.where(above, "tab:blue", "0.7")
+    ax.bar(layer, share, color=colours, width=0.7,
+           label=f"share from {trials} trials (blue: above the noise floor)")
+    ax.errorbar(layer, share, yerr=[np.maximum(share - lo, 0), np.maximum(hi - share, 0)], fmt="none",
+                ecolor="0.25", lw=0.8, capsize=1.5, label=f"bootstrap {100 * level:g} % interval")
+    # the derivative shares are of the random part only; scaled to the trial shares' sum of the random part
+    ax.plot(layer, 100 * np.array([r["share"] for r in rows]) * share.sum() / 100, "k_", ms=8,
+            label="first order from the derivatives (scaled to the trials' total)")
+    ax.axhline(100 * floor, color="tab:red", lw=1.0, ls="--",
+               label=f"noise floor {100 * floor:.2f} % (largest share with the trials shuffled, {100 * level:g} %)")
+    ax.set_xlabel("layer (1 = incidence side)")
+    ax.set_ylabel("share of the variance of R (%)")
+    ax.set_title(f"{title + ': ' if title else ''}which layers' thickness errors matter "
+                 f"(linear share of R's variance over the wavelengths)", fontsize=9)
+    ax.set_xlim(0.3, layer.max() + 0.7)
+    ax.grid(alpha=0.3, axis="y")
+    ax.legend(fontsize=7, loc="upper right")
     return fig

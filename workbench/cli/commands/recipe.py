@@ -22,12 +22,13 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from workbench import plots  # its modules (and matplotlib) load on first use, when a figure is drawn
 from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
-from workbench.analysis.recipe import splitter_recipes
+from workbench.analysis.recipe import RIPPLE_WEIGHT, splitter_recipes
 from workbench.errors import WorkbenchError
 from workbench.fileio.design_toml import load_design, save_design
 from workbench.fileio.outdir import OutputFolder
-from workbench.fileio.atomic import write_text_atomically
+from workbench.fileio.atomic import write_bytes_atomically, write_text_atomically
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.recipe import coated_design
 from workbench.analysis.layer_tolerance import layer_tolerance
@@ -55,6 +56,13 @@ def register(sub) -> None:
     p.add_argument("--low", default="SiO2", metavar="MATERIAL", help="low-index material (default SiO2)")
     p.add_argument("--evaluations", type=int, default=60, metavar="N",
                    help="largest number of stack evaluations per face in the refinement (default 60; 0: none)")
+    p.add_argument("--smoothness", type=float, default=RIPPLE_WEIGHT, metavar="WEIGHT",
+                   help="weight of the ripple penalty in the refinement: second differences of the chief ray's "
+                   "R_s and R_p, weight 1 counting their mean square as much as the fit's (default %(default)g; "
+                   "0: none)")
+    p.add_argument("--apodise", type=int, default=0, metavar="N",
+                   help="taper the middle layer of the N outermost periods at each end of the starting stacks "
+                   "(raised cosine; default 0: plain quarter-wave periods)")
     p.add_argument("--tolerance-trials", type=int, default=200, metavar="N",
                    help="Monte Carlo trials of layer errors per face (1 %% random per layer, 0.5 %% systematic per "
                    "material, 0.5 %% index per material; default 200; 0: none)")
@@ -159,16 +167,24 @@ def run(args) -> int:
         raise WorkbenchError(f"--evaluations must be 0-100000 (got {args.evaluations})")
     if not 0.0 < args.layer_range < 1.0:
         raise WorkbenchError(f"--layer-range must be in (0, 1) (got {args.layer_range:g})")
+    if not (np.isfinite(args.smoothness) and 0 <= args.smoothness <= 1000):
+        raise WorkbenchError(f"--smoothness must be a weight 0-1000 (got {args.smoothness:g})")
+    if not 0 <= 2 * args.apodise <= args.periods:
+        raise WorkbenchError(f"--apodise must be 0-{args.periods // 2}, half of --periods at most (got {args.apodise})")
     folder = None
     if args.out is not None:
         folder = OutputFolder(args.out, option="--out", command="recipe",
-                              names=("face-blue-green.csv", "face-green-red.csv", "recipes.json", "design.toml"))
+                              names=("face-blue-green.csv", "face-green-red.csv", "recipes.json", "design.toml",
+                                     "layers-blue-green.png", "layers-green-red.png"))
         folder._validate()
     design = load_design(args.design)
     faces = splitter_recipes(design, periods=args.periods, high=args.high, low=args.low,
-                             refine=args.evaluations > 0, max_evaluations=max(args.evaluations, 1))
+                             refine=args.evaluations > 0, max_evaluations=max(args.evaluations, 1),
+                             apodise=args.apodise, smoothness=args.smoothness)
     method = ("characteristic-matrix method; each face averaged over its cone and s, p; refined by bounded "
-              "least squares to the idealised face's reflectance (workbench.analysis.recipe)")
+              "least squares to the idealised face's reflectance"
+              + (f" with a ripple penalty of weight {args.smoothness:g} on the chief ray's s and p"
+                 if args.smoothness > 0 else "") + " (workbench.analysis.recipe)")
     coated = coated_design(design, faces, layer_range=args.layer_range, free_layers=args.free_layers,
                            keep_free=args.keep_free)
     m_ideal, m_coated = DesignEvaluator(design).measures(), DesignEvaluator(coated).measures()
@@ -177,7 +193,7 @@ def run(args) -> int:
                                         "coated": m_coated.delta_E00[ill]["mean"]} for ill in m_ideal.delta_E00},
                "method": "workbench evaluate's measures of the design as given and with the two coated faces "
                          "(matrix fitted for each as the design's [fit] says)"}
-    tolerances = {}
+    tolerances, figures = {}, {}
     if args.tolerance_trials > 0:
         wl = DesignEvaluator(design).wavelengths
         for f in faces:
@@ -189,6 +205,16 @@ def run(args) -> int:
                 "edge_shift_nm": lt.edge_shift_percentiles(),
                 "ranking": lt.ranking,
             }
+            est = lt.trial_shares
+            if est is not None:
+                tolerances[f.face]["trial_shares"] = {
+                    "noise_floor": est.floor, "null_mean": est.null_mean, "settings": est.settings,
+                    "layers_above_floor": int(est.distinguishable.sum()),
+                    "method": ("each layer's linear share of the trials' variance of R (Σ_λ cov(e_j, R)² / "
+                               "(var e_j Σ_λ var R), e_j its own random error); interval: bootstrap percentiles "
+                               "over the trials; noise floor: the 90 % quantile of the largest share of any layer "
+                               "with the trials shuffled (docs/methods.md §15)")}
+                figures[f"layers-{f.face}.png"] = (lt.ranking, est.floor, est.settings["trials"], f.face)
     grid = design.model().wavelengths
     window = (float(grid[0]), float(grid[-1]))
     face_dicts = [_face_dict(f, window) for f in faces]
@@ -223,6 +249,16 @@ def run(args) -> int:
                               + ("-" if shift is None else f"{shift['p5']:+.2f}/{shift['p50']:+.2f}/{shift['p95']:+.2f} nm")
                               + f"; layers that matter most (each one's first-order share of the variance of R, "
                               f"from the analytic thickness derivatives): {top}")
+                ts = t.get("trial_shares")
+                if ts is not None:
+                    resolved = ", ".join(
+                        f"{r['layer']} {100 * r['trial_share']:.1f} % ({100 * r['trial_interval'][0]:.1f}-"
+                        f"{100 * r['trial_interval'][1]:.1f})" for r in t["ranking"] if r["above_floor"])
+                    header.append(f"#   from the trials: {ts['layers_above_floor']} of {len(t['ranking'])} layers "
+                                  f"above the noise floor of {100 * ts['noise_floor']:.2f} % (90 % quantile of the "
+                                  f"largest share with the trials shuffled; a layer without effect scores "
+                                  f"{100 * ts['null_mean']:.2f} % on average); share of R's variance, bootstrap "
+                                  f"90 % interval: " + (resolved or "none"))
             rows = [{"layer": r["layer"], "material": r["material"], "thickness_nm": r["thickness_nm"],
                      "qwot": r["qwot"]} for r in f.recipe.table()]
             blocks.append(render_rows(rows, _COLUMNS, "csv" if args.format == "csv" else "table",
@@ -241,7 +277,11 @@ def run(args) -> int:
                 write_text_atomically(out.path / f"face-{f.face}.csv", _layer_csv(f))
             write_text_atomically(out.path / "recipes.json", to_json(data) + "\n")
             save_design(coated, out.path / "design.toml")
+            for name, (ranking, floor, trials, face) in figures.items():
+                fig = plots.coating.plot_layer_shares(ranking, floor, trials=trials, title=f"{face} face")
+                write_bytes_atomically(out.path / name, plots.coating.png_bytes(fig, dpi=110))
             out.commit()
-        notice(f"wrote face-blue-green.csv, face-green-red.csv, recipes.json and design.toml into {args.out}")
+        notice(f"wrote face-blue-green.csv, face-green-red.csv, recipes.json, design.toml"
+               + (" and " + ", ".join(figures) if figures else "") + f" into {args.out}")
     print(text)
     return 0
