@@ -29,6 +29,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import least_squares
 
+from workbench.analysis.threads import one_blas_thread
 from workbench.errors import WorkbenchError
 from workbench.optics.elements import angle_shift_factor, edge
 from workbench.optics.materials import Material, material_named
@@ -38,7 +39,7 @@ from workbench.fileio.design_toml import design_from_dict, design_to_dict
 
 __all__ = ["Recipe", "starting_stack", "refine_recipe", "RefineReport", "REFLECTS", "refine_in_camera",
            "CameraRefineReport", "idealised_face_reflectance", "splitter_recipes", "FaceRecipe", "coated_design",
-           "measures_with_curves", "ripple_penalty", "RIPPLE_WEIGHT", "apodising_shares", "APODISE_MIN_SHARE"]
+           "measures_with_curves", "ripple_penalty", "RIPPLE_WEIGHT", "REFINE_TOLERANCE", "apodising_shares", "APODISE_MIN_SHARE"]
 
 #: Which side of the edge a face reflects.
 REFLECTS = ("short", "long")
@@ -244,6 +245,9 @@ def starting_stack(edge_nm: float, *, reflects: str, periods: int = 10, high="Ti
 #: Default weight of the ripple penalty in the refinements (see :func:`ripple_penalty`).
 RIPPLE_WEIGHT = 1.0
 
+#: Relative change of the cost (and of the thicknesses) below which :func:`splitter_recipes` calls a face converged.
+REFINE_TOLERANCE = 1e-4
+
 
 def ripple_penalty(recipe: Recipe, window_nm, *, weight: float, fit_weight: float, step_nm: float = 2.0):
     """Residuals that penalise ripple: second differences of the chief ray's R_s and R_p, with their Jacobian.
@@ -295,18 +299,22 @@ def _with_penalty(fun, jac, penalty):
 
 @dataclass(frozen=True)
 class RefineReport:
-    """What :func:`refine_recipe` did: cost before and after, evaluations, status, layers at a bound."""
+    """What :func:`refine_recipe` did: cost before and after, evaluations, status, layers at a bound, converged.
+
+    ``converged`` is False when the evaluation budget ran out first.
+    """
 
     rms_before: float
     rms_after: float
     evaluations: int
     message: str
     at_bound: tuple
+    converged: bool = False
 
 
 def refine_recipe(recipe: Recipe, wavelengths_nm, target_R, *, weights=None, lower=0.3, upper=2.0,
                   max_evaluations: int = 200, smoothness: float = 0.0,
-                  smooth_step_nm: float = 2.0) -> tuple[Recipe, RefineReport]:
+                  smooth_step_nm: float = 2.0, ftol: float = 1e-8) -> tuple[Recipe, RefineReport]:
     """Refine every layer thickness to a target reflectance curve (bounded, analytic Jacobian).
 
     Parameters
@@ -325,6 +333,9 @@ def refine_recipe(recipe: Recipe, wavelengths_nm, target_R, *, weights=None, low
         (:func:`ripple_penalty`; 0: none). The reported rms is the fit's alone.
     smooth_step_nm : float, nm
         Grid step of the penalty.
+    ftol : float
+        Stop when a step changes the cost, or the thicknesses, by less than
+        this fraction (``least_squares``' ``ftol`` and ``xtol``).
 
     Returns
     -------
@@ -362,14 +373,16 @@ def refine_recipe(recipe: Recipe, wavelengths_nm, target_R, *, weights=None, low
 
     r0 = fun(d0)
     lo, hi = d0 * lower, d0 * upper
-    sol = least_squares(fun, d0, jac=jac, bounds=(lo, hi), method="trf", x_scale=d0, max_nfev=max_evaluations)
+    with one_blas_thread():                 # the trust region's small SVDs: idle BLAS workers cost more than they give
+        sol = least_squares(fun, d0, jac=jac, bounds=(lo, hi), method="trf", x_scale=d0, max_nfev=max_evaluations,
+                            ftol=ftol, xtol=ftol)
     at_bound = tuple(int(i) for i in np.nonzero((sol.x <= lo * 1.0001) | (sol.x >= hi * 0.9999))[0])
     refined = Recipe(recipe.symbols, recipe.materials, sol.x, recipe.reference_nm, recipe.incident,
                      recipe.substrate, recipe.aoi_deg, recipe.f_number, recipe.polarisation,
                      recipe.notes + (f"thicknesses refined to a target reflectance ({sol.nfev} evaluations)",))
     r0, r1 = r0[:wl.size], sol.fun[:wl.size]
     rms = lambda r: float(np.sqrt(np.sum(r**2) / np.sum(w**2)))  # noqa: E731
-    return refined, RefineReport(rms(r0), rms(r1), int(sol.nfev), str(sol.message), at_bound)
+    return refined, RefineReport(rms(r0), rms(r1), int(sol.nfev), str(sol.message), at_bound, bool(sol.status > 0))
 
 
 # --------------------------------------------------------------------------
@@ -500,7 +513,8 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
         fun, jac = _with_penalty(fun, jac, ripple_penalty(recipe, (wl[0], wl[-1]), weight=smoothness,
                                                           fit_weight=float(m)))
     lo, hi = d0 * lower, d0 * upper
-    sol = least_squares(fun, d0, jac=jac, bounds=(lo, hi), method="trf", x_scale=d0, max_nfev=max_evaluations)
+    with one_blas_thread():
+        sol = least_squares(fun, d0, jac=jac, bounds=(lo, hi), method="trf", x_scale=d0, max_nfev=max_evaluations)
     at_bound = tuple(int(i) for i in np.nonzero((sol.x <= lo * 1.0001) | (sol.x >= hi * 0.9999))[0])
     refined = Recipe(recipe.symbols, recipe.materials, sol.x, recipe.reference_nm, recipe.incident,
                      recipe.substrate, recipe.aoi_deg, recipe.f_number, recipe.polarisation,
@@ -578,7 +592,7 @@ class FaceRecipe:
 
 
 def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refine: bool = True,
-                     max_evaluations: int = 60, apodise: int = 0,
+                     max_evaluations: int = 200, apodise: int = 0,
                      smoothness: float = RIPPLE_WEIGHT) -> list[FaceRecipe]:
     """Both faces of a design's idealised splitter as layer recipes.
 
@@ -597,6 +611,8 @@ def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refi
     high, low : str or Material
     refine : bool
     max_evaluations : int
+        Largest number of evaluations per face; a face stops earlier when a
+        step changes its cost by less than :data:`REFINE_TOLERANCE`.
     apodise : int
         Tapered periods at each end of the starting stacks (:func:`starting_stack`).
     smoothness : float
@@ -628,7 +644,8 @@ def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refi
                              apodise=apodise)
         report = None
         if refine:
-            rec, report = refine_recipe(rec, wl, target, max_evaluations=max_evaluations, smoothness=smoothness)
+            rec, report = refine_recipe(rec, wl, target, max_evaluations=max_evaluations, smoothness=smoothness,
+                                        ftol=REFINE_TOLERANCE)
         out.append(FaceRecipe(face, side, float(edge_nm), target, rec, report))
     return out
 
