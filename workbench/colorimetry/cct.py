@@ -148,13 +148,16 @@ def cct_ohno_2013(uv, *, start: float = OHNO_START, end: float = OHNO_END) -> tu
     shape = uv.shape[:-1]
     p = uv.reshape(-1, 2)
     tab = planckian_table(float(start), float(end), OHNO_RATIO)
-    d = np.hypot(tab[None, :, 1] - p[:, 0:1], tab[None, :, 2] - p[:, 1:2])  # (n, m)
-    i = np.clip(np.argmin(d, axis=1), 1, tab.shape[0] - 2)
-    rows = np.arange(p.shape[0])
+    # the nearest table entry, in blocks of points so a large batch never holds (n, 6849) distances at once
+    i = np.empty(p.shape[0], dtype=int)
+    for a in range(0, p.shape[0], 2048):
+        q = p[a:a + 2048]
+        i[a:a + 2048] = np.argmin(np.hypot(tab[None, :, 1] - q[:, 0:1], tab[None, :, 2] - q[:, 1:2]), axis=1)
+    i = np.clip(i, 1, tab.shape[0] - 2)
     Tp, up, vp = tab[i - 1].T
     Ti = tab[i, 0]
     Tn, un, vn = tab[i + 1].T
-    dp, di, dn = d[rows, i - 1], d[rows, i], d[rows, i + 1]
+    dp, di, dn = (np.hypot(tab[j, 1] - p[:, 0], tab[j, 2] - p[:, 1]) for j in (i - 1, i, i + 1))
     # triangular solution
     l = np.hypot(un - up, vn - vp)  # noqa: E741
     x = (dp ** 2 - dn ** 2 + l ** 2) / (2 * l)

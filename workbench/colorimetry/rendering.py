@@ -57,10 +57,16 @@ def _rows(spd) -> np.ndarray:
 
 
 def _linear(wl: np.ndarray, values: np.ndarray, target: np.ndarray, fill: float | None = None) -> np.ndarray:
-    """Rows of ``values`` (m, n) interpolated linearly to ``target``; outside the data the end values or ``fill``."""
-    out = np.empty((values.shape[0], target.size))
-    for k, row in enumerate(values):
-        out[k] = np.interp(target, wl, row) if fill is None else np.interp(target, wl, row, left=fill, right=fill)
+    """Rows of ``values`` (m, n) interpolated linearly to ``target``; outside the data the end values or ``fill``.
+
+    One gather and one weighted sum for all rows (as ``np.interp`` does for one).
+    """
+    x = np.clip(target, wl[0], wl[-1])
+    i = np.clip(np.searchsorted(wl, x, side="right") - 1, 0, wl.size - 2)
+    w = (x - wl[i]) / (wl[i + 1] - wl[i])
+    out = values[:, i] + w * (values[:, i + 1] - values[:, i])
+    if fill is not None:
+        out[:, (target < wl[0]) | (target > wl[-1])] = fill
     return out
 
 
@@ -120,7 +126,9 @@ def _XYZ(spd: np.ndarray, reflect: np.ndarray | None, xyz: np.ndarray) -> np.nda
     Y_white = spd @ xyz[:, 1]
     if reflect is None:
         return 100 * (spd @ xyz) / Y_white[:, None]
-    return 100 * ((spd[:, None, :] * reflect) @ xyz) / Y_white[:, None, None]
+    # one matrix product: the weights ρ_p(λ) x̄_c(λ) as (k, p·3), so a batch never builds (m, p, k)
+    weights = (reflect[:, :, None] * xyz[None]).transpose(1, 0, 2).reshape(xyz.shape[0], -1)
+    return 100 * (spd @ weights).reshape(spd.shape[0], reflect.shape[0], 3) / Y_white[:, None, None]
 
 
 # --------------------------------------------------------------------------
