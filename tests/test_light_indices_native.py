@@ -32,6 +32,7 @@ from workbench.colorimetry.cct import (
     planckian_table,
     uv_planckian,
 )
+from workbench.errors import WorkbenchError
 from workbench.colorimetry.rendering import (
     colour_fidelity_cie_224,
     colour_rendering_cie_13_3,
@@ -139,8 +140,17 @@ class TestColourRenderingCie133:
 
     def test_rejects_irregular_grid(self):
         """A grid that is not uniform 1 or 5 nm is refused."""
-        with pytest.raises(ValueError, match="uniform 1 nm or 5 nm grid"):
+        with pytest.raises(WorkbenchError) as err:
             colour_rendering_cie_13_3(np.arange(380.0, 781.0, 2.0), np.ones(201))
+        assert str(err.value) == ("'wavelengths' must be a uniform 1 nm or 5 nm grid on whole multiples of the "
+                                  "step (got 380-780 nm, first step 2 nm)")
+
+    def test_rejects_length_mismatch(self):
+        """Wavelengths and values of different lengths are refused."""
+        with pytest.raises(WorkbenchError) as err:
+            colour_rendering_cie_13_3(WL1, np.ones(81))
+        assert str(err.value) == ("'wavelengths' must be one grid of as many points as each SPD has values "
+                                  "(got 401 wavelengths for 81 values)")
 
 
 class TestColourFidelityCie224:

@@ -88,6 +88,12 @@ def XYZ_to_JMh_CIECAM02(XYZ, XYZ_w, *, L_A: float, Y_b: float, surround: Surroun
     ----------
     CIE 159:2004, *CIECAM02*, eqs. 1-28.
     docs/methods.md §17.
+
+    Examples
+    --------
+    >>> J, M, h = XYZ_to_JMh_CIECAM02([19.01, 20.00, 21.78], [95.05, 100.00, 108.88], L_A=318.31, Y_b=20.0)
+    >>> print(f"J {J:.4f}, M {M:.4f}, h {h:.4f}")
+    J 41.7311, M 0.1088, h 219.0484
     """
     XYZ = np.asarray(XYZ, dtype=float)
     XYZ_w = np.asarray(XYZ_w, dtype=float)

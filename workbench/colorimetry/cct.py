@@ -143,6 +143,12 @@ def cct_ohno_2013(uv, *, start: float = OHNO_START, end: float = OHNO_END) -> tu
     Ohno, Y. (2014). Practical use and calculation of CCT and Duv. *LEUKOS*
     10(1), 47-55.
     docs/methods.md §17.
+
+    Examples
+    --------
+    >>> cct, duv = cct_ohno_2013(XYZ_to_uv_1960([109.850, 100.0, 35.585]))  # illuminant A's white (ASTM E308)
+    >>> print(f"{cct:.1f} K, Duv {duv:.1e}")  # about 2856 K with today's c2 (CIE 15:2004)
+    2855.5 K, Duv -3.0e-07
     """
     uv = np.asarray(uv, dtype=float)
     shape = uv.shape[:-1]
@@ -196,6 +202,11 @@ def cct_robertson_1968(uv) -> tuple[np.ndarray, np.ndarray]:
     ----------
     Robertson, A. R. (1968). *JOSA* 58(11), 1528-1535.
     Wyszecki, G., & Stiles, W. S. (1982). *Color Science*, 2nd ed., Table 1(3.11).
+
+    Examples
+    --------
+    >>> print(f"{cct_robertson_1968(XYZ_to_uv_1960([109.850, 100.0, 35.585]))[0]:.1f} K")  # illuminant A's white
+    2855.6 K
     """
     uv = np.asarray(uv, dtype=float)
     shape = uv.shape[:-1]

@@ -36,6 +36,7 @@ import numpy as np
 from workbench.colorimetry.cam02 import SURROUND_AVERAGE, JMh_to_CAM02UCS, XYZ_to_JMh_CIECAM02
 from workbench.colorimetry.cct import XYZ_to_uv_1960, cct_ohno_2013, cct_robertson_1968, planck_relative
 from workbench.colorimetry.cie import cmfs_table, table
+from workbench.errors import WorkbenchError
 
 __all__ = ["ColourRendering", "ColourFidelity", "colour_rendering_cie_13_3", "colour_fidelity_cie_224",
            "spectral_similarity_index", "daylight_xy", "fidelity_from_delta_E"]
@@ -70,11 +71,16 @@ def _linear(wl: np.ndarray, values: np.ndarray, target: np.ndarray, fill: float 
     return out
 
 
-def _step(wl: np.ndarray) -> float:
+def _step(wl: np.ndarray, n_values: int) -> float:
+    """The grid's step (1 or 5 nm), or a WorkbenchError saying what the grid must be."""
+    if wl.ndim != 1 or wl.size < 2 or wl.size != n_values:
+        raise WorkbenchError(f"'wavelengths' must be one grid of as many points as each SPD has values "
+                             f"(got {wl.size} wavelengths for {n_values} values)")
     step = float(wl[1] - wl[0])
-    if not (np.allclose(np.diff(wl), step) and step in (1.0, 5.0)
+    if not (step in (1.0, 5.0) and np.allclose(np.diff(wl), step, rtol=0, atol=1e-9)
             and np.all(np.abs(wl / step - np.round(wl / step)) < 1e-9)):
-        raise ValueError("the SPDs must lie on a uniform 1 nm or 5 nm grid of whole multiples of the step")
+        raise WorkbenchError(f"'wavelengths' must be a uniform 1 nm or 5 nm grid on whole multiples of the step "
+                             f"(got {wl[0]:g}-{wl[-1]:g} nm, first step {step:g} nm)")
     return step
 
 
@@ -196,10 +202,18 @@ def colour_rendering_cie_13_3(wavelengths, spd) -> ColourRendering:
     ----------
     CIE 13.3-1995, §§ 5-6.
     docs/methods.md §17.
+
+    Examples
+    --------
+    >>> from workbench.colorimetry.cie import illuminant_table
+    >>> r = colour_rendering_cie_13_3(*illuminant_table("FL2"))  # CIE F2 (cool white fluorescent)
+    >>> print(f"Ra {r.Ra[0]:.6f}, R1 {r.R[0, 0]:.2f}")  # colour-science's tests pin 64.233724
+    Ra 64.233724, R1 56.05
     """
     wl = np.asarray(wavelengths, dtype=float)
-    _step(wl)
-    S = _linear(wl, _rows(spd), _CRI_GRID)
+    spd = _rows(spd)
+    _step(wl, spd.shape[-1])
+    S = _linear(wl, spd, _CRI_GRID)
     xyz = _cmfs_at("2", _CRI_GRID)
     tcs = np.asarray(table("tcs_1nm"))[:, :_CRI_GRID.size]
     uv_t = XYZ_to_uv_1960(S @ xyz)
@@ -243,7 +257,13 @@ class ColourFidelity:
 
 
 def fidelity_from_delta_E(delta_E) -> np.ndarray:
-    """Rf = 10 ln(1 + exp((100 − 6.73 ΔE′)/10)) (CIE 224:2017, eqs. 4.5-4.6)."""
+    """Rf = 10 ln(1 + exp((100 − 6.73 ΔE′)/10)) (CIE 224:2017, eqs. 4.5-4.6).
+
+    Examples
+    --------
+    >>> print(f"{fidelity_from_delta_E(0.0):.4f}")  # no difference: just above 100
+    100.0005
+    """
     return 10 * np.log1p(np.exp((100 - RF_SCALE * np.asarray(delta_E, dtype=float)) / 10))
 
 
@@ -295,10 +315,17 @@ def colour_fidelity_cie_224(wavelengths, spd) -> ColourFidelity:
     CIE 224:2017, §§ 4.1-4.6.
     ANSI/IES TM-30-18, § 4.
     docs/methods.md §17.
+
+    Examples
+    --------
+    >>> from workbench.colorimetry.cie import illuminant_table
+    >>> r = colour_fidelity_cie_224(*illuminant_table("FL2"))  # TM-30-18: Rf 70, Rg 86
+    >>> print(f"Rf {r.Rf[0]:.1f}, Rg {r.Rg[0]:.1f}, CCT {r.CCT[0]:.0f} K")
+    Rf 70.1, Rg 86.4, CCT 4224 K
     """
     wl = np.asarray(wavelengths, dtype=float)
-    step = _step(wl)
     spd = _rows(spd)
+    step = _step(wl, spd.shape[-1])
     grid = np.arange(380.0, 780.0 + step / 2, step)
     S = _linear(wl, spd, grid)
     xyz2 = _cmfs_at("2", grid)
@@ -373,6 +400,12 @@ def spectral_similarity_index(wavelengths, spd, reference_wavelengths, reference
     Academy of Motion Picture Arts and Sciences (2020), S-2020-001.
     Holm, J. et al. (2016). A cinematographic spectral similarity index.
     docs/methods.md §17.
+
+    Examples
+    --------
+    >>> from workbench.colorimetry.cie import illuminant_table
+    >>> print(f"{spectral_similarity_index(*illuminant_table('C'), *illuminant_table('D65'))[0]:.3f}")
+    94.183
     """
     band, weight = _ssi_weights()
     t = _linear(np.asarray(wavelengths, dtype=float), _rows(spd), SSI_GRID, fill=0.0) @ band.T
