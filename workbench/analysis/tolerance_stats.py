@@ -40,6 +40,7 @@ __all__ = [
     "distribution",
     "wilson_interval",
     "correlation_ratio",
+    "correlation_ratio_floor",
     "standardized_regression",
     "passes_spec",
     "ToleranceResult",
@@ -63,6 +64,11 @@ _METHODS = {
         "equal-count bins of X_i (McKay 1995; the first-order sensitivity index of Saltelli et al. 2008, "
         "ch. 1), bias-corrected like Kelley's ε² so that a parameter without effect scores about 0 "
         "(correlation_ratio: the uncorrected η², about (bins − 1)/(trials − 1) without effect)"),
+    "noise_floor": (
+        "the variance contribution that the largest of the P parameters without effect stays below in 95 % of "
+        "repeats: Kelley's ε² = a(F − 1)/(1 + aF), a = (bins − 1)/(trials − bins), at the F(bins − 1, "
+        "trials − bins) quantile 0.95^(1/P); above_noise_floor marks the parameters whose contribution is "
+        "distinguishable from sampling noise (docs/methods.md §16)"),
     "src2": ("squared standardized regression coefficient SRC² = (b_i σ_i/σ_Y)² of a linear fit of Y on "
              "all parameters (Saltelli et al. 2008, ch. 1); ΣSRC² = R² when the inputs are independent "
              "and Y is near-linear; r_squared says how linear"),
@@ -195,6 +201,33 @@ def correlation_ratio(X, y, bins: int | None = None, *, corrected: bool = False)
             between = between - (used - 1) * within / max(1, N - used)
         out[i] = between / ss
     return out
+
+
+def correlation_ratio_floor(trials: int, parameters: int, bins: int | None = None, level: float = 0.95) -> float:
+    """The noise floor of the corrected correlation ratio: what ``parameters`` parameters without effect reach.
+
+    For a parameter without effect (and a near-normal response) the binned
+    ratio F = (SS_between/(k − 1)) / (SS_within/(N − k)) follows the F
+    distribution with (k − 1, N − k) degrees of freedom, and Kelley's ε² is
+    a(F − 1)/(1 + aF) with a = (k − 1)/(N − k). The floor is the ε² of the
+    F quantile level^(1/P): the largest of P independent such parameters
+    stays below it with probability ``level``. A variance contribution
+    above the floor is distinguishable from sampling noise.
+
+    References
+    ----------
+    Kelley, T. L. (1935). An unbiased correlation ratio measure. *PNAS* 21, 554-559.
+    Šidák, Z. (1967). Rectangular confidence regions for the means of multivariate normal
+    distributions. *J. Am. Stat. Assoc.* 62, 626-633. docs/methods.md §16.
+    """
+    from scipy.special import fdtri  # the F quantile; scipy.special only (no scipy.stats at import)
+
+    k = bins or _bins(trials)
+    if trials <= k or parameters < 1:
+        return math.nan
+    a = (k - 1) / (trials - k)
+    F = float(fdtri(k - 1, trials - k, level ** (1.0 / parameters)))
+    return a * (F - 1.0) / (1.0 + a * F)
 
 
 def standardized_regression(X, y) -> tuple[np.ndarray, float]:
@@ -382,6 +415,7 @@ class ToleranceResult:
         eta = correlation_ratio(X, y, corrected=True)
         eta_raw = correlation_ratio(X, y)
         src, r2 = standardized_regression(X, y)
+        floor = correlation_ratio_floor(self.trials, len(keys)) if keys and self.trials >= 2 else math.nan
         rows = []
         for i, k in enumerate(keys):
             j = [n for n, (kk, _) in enumerate(self.oat_labels) if kk == k]
@@ -390,6 +424,7 @@ class ToleranceResult:
             rows.append({
                 "name": k, "unit": parameter_unit(self.design, k), "distribution": t.distribution,
                 "width": t.width, "variance_contribution": float(eta[i]),
+                "above_noise_floor": bool(math.isfinite(floor) and eta[i] > floor),
                 "correlation_ratio": float(eta_raw[i]), "src2": float(src[i] ** 2),
                 "src": float(src[i]), "oat_minus": lo, "oat_plus": hi,
                 "oat_span": float(max(abs(lo), abs(hi))) if j else math.nan,
@@ -399,8 +434,9 @@ class ToleranceResult:
         return {
             "response": response, "case": case, "r_squared": r2,
             "bins": _bins(self.trials) if self.trials >= 2 else None,
+            "noise_floor": floor,
             "methods": {"variance_contribution": _METHODS["variance_contribution"], "src2": _METHODS["src2"],
-                        "one_at_a_time": _METHODS["one_at_a_time"]},
+                        "one_at_a_time": _METHODS["one_at_a_time"], "noise_floor": _METHODS["noise_floor"]},
             "parameters": rows,
         }
 

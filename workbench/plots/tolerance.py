@@ -184,6 +184,10 @@ def plot_ranking(result, *, case: str | None = None, response: str = "worst_mean
     r2 = rk["r_squared"]
     left.set_title(f"variance contribution (linear fit R² = {r2:.2f})" if r2 is not None and math.isfinite(r2)
                    else "variance contribution", fontsize="small", y=1.0)
+    floor = rk.get("noise_floor")
+    if floor is not None and math.isfinite(floor):
+        left.axvline(100 * floor, color="tab:red", lw=1.0, ls="--",
+                     label=f"noise floor {100 * floor:.1f} % (95 %, largest of {len(rk['parameters'])} without effect)")
     left.set_xlim(0, max(5.0, float(np.nanmax(np.r_[eta, src2, 0])) * 1.1))
     left.legend(fontsize="x-small", loc="lower right")
     right.barh(y, np.nan_to_num(lo), height=0.6, color="tab:cyan", label="at nominal − width")

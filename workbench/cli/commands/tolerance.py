@@ -155,6 +155,9 @@ def table(result) -> str:
         lines.append(f"  variance contribution: {rk['methods']['variance_contribution']}")
         lines.append(f"  src2: {rk['methods']['src2']}")
         lines.append(f"  one at a time: {rk['methods']['one_at_a_time']}; ΔE00")
+        above = sum(bool(r.get("above_noise_floor")) for r in rk["parameters"])
+        lines.append(f"  noise floor {_fmt(rk['noise_floor'])}: {above} of {len(rk['parameters'])} parameters above it; "
+                     f"{rk['methods']['noise_floor']}")
         rows = [{"parameter": r["name"], "tolerance": f"{r['width']:g} {r['unit'] or '(1)'} {r['distribution']}",
                  "variance_contribution": r["variance_contribution"], "src2": r["src2"],
                  "at_minus_width": r["oat_minus"], "at_plus_width": r["oat_plus"]} for r in rk["parameters"]]
