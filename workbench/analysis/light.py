@@ -3,8 +3,8 @@
 A measured spectral power distribution (SPD) of a luminaire goes through
 three stages:
 
-1. **Published indices**, computed by colour-science (the reference
-   library): CCT and Duv (Ohno 2013), the CIE 13.3 general and special
+1. **Published indices**, computed by the workbench in numpy and checked
+   against colour-science (the reference library): CCT and Duv (Ohno 2013), the CIE 13.3 general and special
    colour rendering indices Ra and R1-R14, the CIE 224:2017 fidelity index
    Rf, the ANSI/IES TM-30-18 gamut index Rg, the Academy spectral
    similarity index (SSI) against an automatic or chosen reference, and

@@ -165,7 +165,7 @@ def plot_special_indices(indices: LightIndices, *, fig=None):
     ax.set_ylim(lo, 112)
     ax.grid(axis="y", alpha=0.3)
     ax.legend(fontsize="small", loc="lower left")
-    ax.set_title(f"{indices.name}: CIE 13.3 special indices (colour-science, CIE 1995)", fontsize="medium", y=1.0)
+    ax.set_title(f"{indices.name}: CIE 13.3-1995 special indices (workbench)", fontsize="medium", y=1.0)
     return fig
 
 
