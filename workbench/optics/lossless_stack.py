@@ -1,8 +1,9 @@
-"""Lossless thin-film stacks as ordered products of real 2 × 2 matrices, each distinct product computed once.
+"""Lossless thin-film stacks in real arithmetic: the fast paths of the characteristic-matrix engine.
 
-The fast path of :func:`workbench.optics.thinfilm.stack_response` when every
-layer is lossless and the wave propagates in every layer (no derivatives
-asked for), and the scratch buffers and phase factors the engine shares.
+:func:`workbench.optics.thinfilm.stack_response` comes here when every
+layer is lossless and the wave propagates in every layer, and no
+derivatives are asked for; this module also holds the scratch buffers and
+phase factors the engine shares.
 
 With real phase thickness ``δ`` and tilted admittance ``η`` a layer's
 characteristic matrix is ``[[cos δ, −i sin δ / η], [−i η sin δ, cos δ]]``.
@@ -10,14 +11,20 @@ Matrices of the form ``[[m₁₁, i m₁₂], [i m₂₁, m₂₂]]`` (m real) a
 under products, and writing them as the real matrix
 ``G = [[m₁₁, m₁₂], [−m₂₁, m₂₂]]`` turns their product into the plain real
 product ``G_P G_Q``; a layer is ``G = [[cos δ, −sin δ / η], [η sin δ, cos δ]]``.
-The stack's product ``G₁ G₂ … G_L`` is formed pairwise, level by level (all
-pairs of a level in one array operation over a leading node axis, so the
-Python loop runs over about ``log₂ L`` levels, not over the layers), and a
-block of layers repeated in a row is multiplied once and raised to its power
-by squaring: a periodic design such as ``(0.5L H 0.5L)^20`` has three
-distinct layers and costs about ten 2 × 2 products. Layers are the same when their material row and their
-thickness agree bit for bit; then their ``cos δ`` and ``sin δ`` are computed
-once as well. Finally ``[B, C]ᵀ = M [1, η_sub]ᵀ``.
+For one stack, neighbouring layers of one material are one layer
+(``M(δ₁) M(δ₂) = M(δ₁ + δ₂)``); then:
+
+* when at most half of its layers are distinct (material and thickness
+  equal bit for bit), as in a periodic design such as ``(0.5L H 0.5L)^20``,
+  each distinct layer's ``cos δ``, ``sin δ`` and matrix is computed once
+  and a block of layers repeated in a row is multiplied once and raised to
+  its power (:func:`_power`): about ten 2 × 2 products for 41 layers;
+* otherwise the vector ``(Re B, Im B, Re C, Im C)`` is carried from the
+  substrate one layer at a time, four array operations per layer.
+
+A batch whose rows each change one layer of a base stack (a fit's forward
+differences) goes to :func:`lossless_one_change`: one pass from each side of
+the base stack, then one layer and two dot products per row.
 
 References
 ----------

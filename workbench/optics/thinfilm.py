@@ -9,8 +9,9 @@ angles × polarisations × any number of stacks at once (leading batch axes):
 the only Python loop runs over the layers.
 
 The general complex path, the incoherent back surface and the analytic
-thickness derivatives are here; lossless stacks without derivatives go to
-the real-arithmetic path of :mod:`workbench.optics.lossless_stack` (same
+thickness derivatives are here; lossless stacks without derivatives (and
+batches whose rows each change one layer of a base stack) go to the
+real-arithmetic paths of :mod:`workbench.optics.lossless_stack` (same
 conventions, checked against the same references), which also holds the
 scratch buffers and phase factors both share.
 
