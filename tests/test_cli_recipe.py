@@ -28,8 +28,8 @@ class TestRecipeCommand:
         blue = d["faces"][0]
         assert len(blue["layers"]) == 9 and blue["layers"][0]["material"] == "SiO2"
         assert sorted(p.name for p in out.iterdir() if not p.name.startswith(".")) == [
-            "design.toml", "face-blue-green.csv", "face-green-red.csv", "layers-blue-green.png",
-            "layers-green-red.png", "recipes.json"]
+            "design.toml", "face-blue-green.csv", "face-blue-green.png", "face-green-red.csv", "face-green-red.png",
+            "layers-blue-green.png", "layers-green-red.png", "recipes.json"]
         assert (out / "layers-blue-green.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
         shares = d["layer_tolerance"]["blue-green"]["trial_shares"]
         assert shares["settings"]["trials"] == 20 and 0 < shares["noise_floor"] < 1

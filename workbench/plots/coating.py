@@ -12,7 +12,7 @@ import numpy as np
 from workbench.optics.thinfilm import StackResponse, stop_band_edges
 from workbench.plots._canvas import new_figure, place_axes, png_bytes
 
-__all__ = ["plot_stack_spectra", "plot_half_points_vs_angle", "plot_stack_angles", "plot_layer_shares", "png_bytes"]
+__all__ = ["plot_stack_spectra", "plot_half_points_vs_angle", "plot_stack_angles", "plot_layer_shares", "plot_face", "png_bytes"]
 
 _WL_LABEL = "wavelength λ (nm)"
 _METHOD = "characteristic-matrix method"
@@ -183,4 +183,60 @@ def plot_layer_shares(ranking: list, floor: float, *, trials: int, title: str = 
     ax.set_xlim(0.3, layer.max() + 0.7)
     ax.grid(alpha=0.3, axis="y")
     ax.legend(fontsize=7, loc="upper right")
+    return fig
+
+
+def plot_face(wavelengths_nm, R_by_polarisation: dict, transitions: dict, *, grid_nm, R_cone, R_target,
+              angle_deg: float, title: str = ""):
+    """A splitter face's recipe at its angle: chief-ray R for s, p and their mean, the cone average, the target.
+
+    Parameters
+    ----------
+    wavelengths_nm : (n,) array_like, nm
+        The fine grid of the chief-ray curves.
+    R_by_polarisation : dict of str to (n,) array_like
+        ``'s'``, ``'p'``, ``'mean'``: chief-ray reflectance, fraction 0-1.
+    transitions : dict of str to EdgeTransition
+        The same keys (:func:`workbench.analysis.transition.edge_transition`).
+    grid_nm : (m,) array_like, nm
+        The design's grid.
+    R_cone, R_target : (m,) array_like, fraction 0-1
+        The recipe averaged over its cone and s, p, and the idealised face it was refined to.
+    angle_deg : float
+    title : str
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    wl = np.asarray(wavelengths_nm, dtype=float)
+    fig = _figure(7.5, 4.4)
+    ax = fig.add_subplot()
+    mean = transitions["mean"]
+    if np.all(np.isfinite(mean.transition_nm)):
+        ax.axvspan(*mean.transition_nm, color="0.92", lw=0, label="transition, mean of s, p (R 90 % → 10 %)")
+    if np.all(np.isfinite(mean.pass_band_nm)):
+        ax.axvspan(*mean.pass_band_nm, color="#e8f4e8", lw=0,
+                   label=f"pass band of the ripple figure (mean: {mean.pass_ripple_pct:.1f} % peak-to-peak)")
+    for pol in ("s", "p", "mean"):
+        colour, _ = _POL_STYLE[pol]
+        t = transitions[pol]
+        what = (f"{t.edge_nm:.1f} nm" if np.isfinite(t.edge_nm) else
+                (f"{len(t.crossings_nm)} crossings" if t.crossings_nm else "no edge"))
+        flag = "" if t.monotone else ", not monotone"
+        ax.plot(wl, R_by_polarisation[pol], color=colour, lw=1.0 if pol != "mean" else 1.2,
+                ls="--" if pol == "mean" else "-", label=f"chief ray, {pol}: 50 % at {what}{flag}")
+        for c in t.crossings_nm:
+            ax.plot([c], [0.5], marker="o" if t.monotone else "x", color=colour, ms=5)
+    ax.plot(grid_nm, R_cone, color="k", lw=2.0, alpha=0.7, label="over the cone, s and p averaged (what the fit sees)")
+    ax.plot(grid_nm, R_target, color="tab:orange", lw=1.2, ls=":", label="idealised face (the refinement's target)")
+    ax.axhline(0.5, color="0.6", lw=0.6)
+    ax.set_xlim(wl[0], wl[-1])
+    ax.set_ylim(-0.02, 1.02)
+    ax.set_xlabel(_WL_LABEL)
+    ax.set_ylabel("reflectance R (fraction 0-1)")
+    ax.set_title(f"{title + ': ' if title else ''}the recipe at {angle_deg:g}° ({_METHOD}; "
+                 "edge rule: docs/methods.md §15)", fontsize=9)
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=6.5, loc="best")
     return fig

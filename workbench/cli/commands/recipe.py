@@ -7,7 +7,12 @@ thickness refined to the idealised curve. Prints each recipe (layer,
 material, physical thickness, QWOT) with the face's edge and the fit; with
 ``--out DIR`` writes one layer table per face (``face-blue-green.csv``,
 ``face-green-red.csv``: columns ``material``, ``thickness_nm``, ``qwot``,
-readable by ``workbench coating``), ``recipes.json`` and ``design.toml`` (the
+readable by ``workbench coating``), ``face-blue-green.png`` and
+``face-green-red.png`` (the chief ray's s, p and mean at the face's angle with
+their edges, the cone average and the idealised target), with layer trials
+``layers-blue-green.png`` and ``layers-green-red.png`` (each layer's share of
+the trials' variance, its interval and the noise floor), ``recipes.json`` and
+``design.toml`` (the
 design with the splitter replaced by two ``coating`` elements, each layer a
 parameter ``layer_<i>_nm`` bounded to ± ``--layer-range`` of its thickness,
 default ±20 %; with ``--free-layers`` every layer is written free and the
@@ -34,6 +39,7 @@ from workbench.analysis.recipe import coated_design
 from workbench.analysis.layer_tolerance import layer_tolerance
 import numpy as np
 from workbench.analysis.transition import face_edges
+from workbench.optics.thinfilm import stack_response
 
 HELP = "turn a design's idealised splitter faces into thin-film layer recipes"
 
@@ -151,6 +157,18 @@ def _edge_lines(f, d) -> list[str]:
     return lines
 
 
+def _face_figure(f, grid):
+    """The face's chief-ray curves at its angle with its edges, the cone average and the idealised target."""
+    rec = f.recipe
+    ((_, by),) = face_edges(rec, reflects=f.reflects, window_nm=(grid[0], grid[-1]), step_nm=0.25, offsets_deg=(0.0,))
+    wl = np.arange(grid[0], grid[-1] + 0.125, 0.25)
+    res = stack_response(rec.indices(wl), rec.thicknesses_nm, wl, [rec.aoi_deg], incident=rec.incident.index(wl).real,
+                         substrate=rec.substrate.index(wl))
+    curves = {"s": res.R[0, 0], "p": res.R[1, 0], "mean": res.R_mean[0]}
+    return plots.coating.plot_face(wl, curves, by, grid_nm=grid, R_cone=rec.response(grid)[0], R_target=f.target_R,
+                                   angle_deg=rec.aoi_deg, title=f"{f.face} face")
+
+
 def _layer_csv(f) -> str:
     rows = [{"material": r["material"], "thickness_nm": f"{r['thickness_nm']:.4f}", "qwot": f"{r['qwot']:.4f}"}
             for r in f.recipe.table()]
@@ -176,7 +194,8 @@ def run(args) -> int:
     if args.out is not None:
         folder = OutputFolder(args.out, option="--out", command="recipe",
                               names=("face-blue-green.csv", "face-green-red.csv", "recipes.json", "design.toml",
-                                     "layers-blue-green.png", "layers-green-red.png"))
+                                     "layers-blue-green.png", "layers-green-red.png", "face-blue-green.png",
+                                     "face-green-red.png"))
         folder._validate()
     design = load_design(args.design)
     faces = splitter_recipes(design, periods=args.periods, high=args.high, low=args.low,
@@ -279,11 +298,14 @@ def run(args) -> int:
                 write_text_atomically(out.path / f"face-{f.face}.csv", _layer_csv(f))
             write_text_atomically(out.path / "recipes.json", to_json(data) + "\n")
             save_design(coated, out.path / "design.toml")
+            for f in faces:
+                fig = _face_figure(f, grid)
+                write_bytes_atomically(out.path / f"face-{f.face}.png", plots.coating.png_bytes(fig, dpi=110))
             for name, (ranking, floor, trials, face) in figures.items():
                 fig = plots.coating.plot_layer_shares(ranking, floor, trials=trials, title=f"{face} face")
                 write_bytes_atomically(out.path / name, plots.coating.png_bytes(fig, dpi=110))
             out.commit()
-        notice(f"wrote face-blue-green.csv, face-green-red.csv, recipes.json, design.toml"
-               + (" and " + ", ".join(figures) if figures else "") + f" into {args.out}")
+        notice(f"wrote face-blue-green.csv, face-green-red.csv, recipes.json, design.toml, face-blue-green.png, "
+               f"face-green-red.png" + (" and " + ", ".join(figures) if figures else "") + f" into {args.out}")
     print(text)
     return 0
