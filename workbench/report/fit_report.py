@@ -84,6 +84,15 @@ def _point(ev, values, label: str, method: str, state: str) -> dict:
     measures a point does not show: the near-infrared measures alone refit
     a ΔE00-minimising matrix at every cut-off, two thirds of the report's
     time before.
+
+    The ΔE00-minimising point is that rule's own optimum (Σ w ΔE00² over
+    the samples × lights, docs/methods.md §10; Newton steps, ~10-30 ms),
+    also for a design whose fit moved a ΔE00 matrix with its filters: the
+    fit's matrix minimises the fit's objective (the worst light's mean
+    ΔE00 on the demo, or stopped by the budget), not this sum, so reusing
+    it would show another number (on the demo with ``matrix =
+    "delta-e00"``: entries up to 0.027 apart, mean ΔE00 1.000 against
+    0.965).
     """
     S = ev.sensitivities(values)
     res = ev.bench.evaluate(S, method, ev.design.fit.matrix_scope)
