@@ -359,6 +359,27 @@ class ColourBench:
         (indices, default all J), each sample weighted as in the matrix
         fits. The gradient chains ∂ΔE00/∂Lab (:func:`delta_E_CIE2000_gradient`),
         ∂Lab/∂XYZ (:func:`XYZ_to_Lab_jacobian`) and XYZ = 100·N·M·c.
+
+        Parameters
+        ----------
+        m : (..., 9) array_like
+            Matrix entries row by row (rows: display R, G, B; columns:
+            balanced camera R, G, B), any batch.
+        C : (J', K, 3) array_like
+            Balanced camera RGB of the illuminants ``illuminants``.
+        illuminants : sequence of int, optional
+            Which of the bench's illuminants ``C`` holds (default all).
+
+        Returns
+        -------
+        cost : (...) ndarray
+            Σ w ΔE00², ΔE00 units squared.
+        gradient : (..., 9) ndarray
+            ∂cost/∂m.
+
+        References
+        ----------
+        CIE 142-2001; CIE 15:2004 § 8.2.1. docs/methods.md §10.
         """
         m = np.asarray(m, dtype=float)
         truth = self.true_Lab if illuminants is None else self.true_Lab[illuminants]

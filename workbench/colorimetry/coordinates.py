@@ -193,6 +193,19 @@ def XYZ_to_Lab_jacobian(XYZ, white) -> tuple[np.ndarray, np.ndarray]:
     row L* = (0, 116 f′_Y/Y_n, 0), a* = 500 (f′_X/X_n, −f′_Y/Y_n, 0),
     b* = 200 (0, f′_Y/Y_n, −f′_Z/Z_n).
 
+    Parameters
+    ----------
+    XYZ : (..., 3) array_like
+        Tristimulus values on the scale of ``white``.
+    white : (..., 3) array_like
+        The reference white (e.g. Y = 100).
+
+    Returns
+    -------
+    Lab : (..., 3) ndarray
+    jacobian : (..., 3, 3) ndarray
+        Row L*, a*, b*; column X, Y, Z (per unit of XYZ).
+
     References
     ----------
     CIE 15:2004, *Colorimetry*, 3rd ed., § 8.2.1.
@@ -345,6 +358,20 @@ def delta_E_CIE2000_gradient(Lab_1, Lab_2) -> tuple[np.ndarray, np.ndarray]:
     Used by the ΔE00-minimising matrix (:class:`workbench.analysis.camera.ColourBench`),
     whose Newton steps need the gradient of Σ w ΔE00² with respect to the
     nine matrix entries.
+
+    Parameters
+    ----------
+    Lab_1 : (..., 3) array_like
+        The colours the gradient is taken at (the camera's), CIELAB.
+    Lab_2 : (..., 3) array_like
+        The fixed colours (the truth), CIELAB; broadcasts with ``Lab_1``.
+
+    Returns
+    -------
+    delta_E : (...) ndarray
+        ΔE00, equal to :func:`delta_E_CIE2000`'s.
+    gradient : (..., 3) ndarray
+        ∂ΔE00/∂L*₁, ∂ΔE00/∂a*₁, ∂ΔE00/∂b*₁ (per CIELAB unit).
 
     References
     ----------
