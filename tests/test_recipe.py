@@ -131,6 +131,15 @@ class TestRefineInCamera:
                                            progress=lambda n, cost: seen.append(cost))
         assert report.cost_after < report.cost_before and seen[0] == pytest.approx(report.cost_before)
         assert refined.thicknesses_nm.shape == rec.thicknesses_nm.shape
+        # with the ripple penalty (the default) the reported cost is still the objective's alone: ½ Σ r²
+        el = [c for c in ev.model.element_curves() if c.name == "green-edge"][0]
+        R, T, _, _ = refined.response(ev.wavelengths)
+        S = np.ones((3, ev.wavelengths.size))
+        for c in ev.model.element_curves():
+            S = S * (c.values if c.name != "green-edge" else
+                     np.where(np.isin(list("RGB"), el.paths)[:, None], T[None], 1.0))
+        r_after = _residuals_of_sensitivities(ev, S[None])[0]
+        assert report.cost_after == pytest.approx(0.5 * float(r_after @ r_after), rel=1e-9)
 
     def test_rejects_unknown_element(self, demo_design):
         """An element name not in the design is refused."""

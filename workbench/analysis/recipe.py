@@ -418,7 +418,7 @@ class CameraRefineReport:
 
 def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str = "none", paths=None,
                      lower: float = 0.5, upper: float = 1.5, max_evaluations: int = 60,
-                     progress=None, smoothness: float = 0.0) -> tuple[Recipe, CameraRefineReport]:
+                     progress=None, smoothness: float = RIPPLE_WEIGHT) -> tuple[Recipe, CameraRefineReport]:
     """Refine a recipe's layer thicknesses against the camera objective itself.
 
     The element ``element`` of the evaluator's design is replaced by the
@@ -446,8 +446,9 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
     progress : callable, optional
         ``progress(evaluations, cost)`` after each evaluation of the stack.
     smoothness : float
-        Weight of the ripple penalty (:func:`ripple_penalty`; 0: none);
-        the reported costs are the objective's alone.
+        Weight of the ripple penalty (:func:`ripple_penalty`; default
+        :data:`RIPPLE_WEIGHT`, 0: none); the reported costs are the
+        objective's alone.
 
     Returns
     -------
