@@ -124,3 +124,17 @@ class TestFaceEdges:
             assert by["s"].band_edge_nm > by["p"].band_edge_nm
         # the edge moves to shorter wavelengths with angle
         assert rows[0][1]["mean"].band_edge_nm > rows[2][1]["mean"].band_edge_nm
+
+
+class TestPlotHalfPointsVsAngle:
+    def test_rippled_edges_are_hollow(self):
+        """A 20-period stack in glass ripples above 50 % beside its band: its edges are drawn hollow and said so."""
+        from workbench.plots.coating import plot_half_points_vs_angle
+
+        rec = starting_stack(500.0, reflects="short", periods=20, high="2.35", low="1.46", incident="1.52",
+                             substrate="1.52")
+        wl = np.arange(380.0, 780.0, 0.2)
+        res = stack_response(rec.indices(wl), rec.thicknesses_nm, wl, [0.0, 20.0], incident=1.52, substrate=1.52)
+        ax = plot_half_points_vs_angle(res).axes[0]
+        hollow = [ln for ln in ax.get_lines() if ln.get_markerfacecolor() == "none" and len(ln.get_xdata())]
+        assert hollow and "hollow: transition not monotone" in ax.get_title()

@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from workbench.optics.thinfilm import StackResponse, stop_band_edges
+from workbench.analysis.transition import edge_transition
+from workbench.optics.thinfilm import StackResponse
 from workbench.plots._canvas import new_figure, place_axes, png_bytes
 
 __all__ = ["plot_stack_spectra", "plot_half_points_vs_angle", "plot_stack_angles", "plot_layer_shares", "plot_face", "png_bytes"]
@@ -65,9 +66,12 @@ def plot_stack_spectra(response: StackResponse, angle_index: int = 0, *, title: 
 def plot_half_points_vs_angle(response: StackResponse, *, title: str = ""):
     """The edges of the reflection band (its 50 % points) against angle for s, p and their mean.
 
-    The band is the one that holds the peak reflectance at each angle
-    (:func:`workbench.optics.thinfilm.stop_band_edges`); an edge that runs
-    off the wavelength grid is left out.
+    The band is the main reflection band of each curve and its edges the
+    crossings of 50 % that bound it, found by the rule of
+    :func:`workbench.analysis.transition.edge_transition` on each side; an
+    edge whose transition is not monotone (a ripple back through 50 %, or a
+    rise of more than 1 %) is drawn with a hollow marker, and an edge that
+    runs off the wavelength grid is left out.
 
     Returns
     -------
@@ -78,19 +82,25 @@ def plot_half_points_vs_angle(response: StackResponse, *, title: str = ""):
     fig = _figure(6.4, 4.2)
     ax = fig.add_subplot()
     curves = {"s": response.R[0], "p": response.R[1], "mean": response.R_mean}
-    any_edge = False
+    any_edge = any_rough = False
     for pol, R in curves.items():
         colour, ls = _POL_STYLE[pol]
-        edges = np.array([stop_band_edges(wl, R[ia]) for ia in range(angles.size)])
-        for k, side in enumerate(("short-wave", "long-wave")):
-            y = edges[:, k]
+        for k, (side, reflects) in enumerate((("short-wave", "long"), ("long-wave", "short"))):
+            found = [edge_transition(wl, R[ia], reflects=reflects) for ia in range(angles.size)]
+            y = np.array([t.band_edge_nm for t in found])
+            smooth = np.array([t.monotone for t in found])
             if np.any(np.isfinite(y)):
                 any_edge = True
-                ax.plot(angles, y, color=colour, ls=ls, marker="o" if k == 0 else "s", ms=4,
-                        label=f"{pol}, {side} edge")
+                any_rough |= bool(np.any(~smooth & np.isfinite(y)))
+                marker = "o" if k == 0 else "s"
+                ax.plot(angles, y, color=colour, ls=ls, label=f"{pol}, {side} edge")
+                ax.plot(angles[smooth], y[smooth], color=colour, ls="none", marker=marker, ms=4)
+                ax.plot(angles[~smooth], y[~smooth], color=colour, ls="none", marker=marker, ms=5, mfc="none")
     ax.set_xlabel("angle of incidence in the incidence medium (°)")
     ax.set_ylabel("50 % point of R, " + _WL_LABEL)
-    ax.set_title(f"{title + ': ' if title else ''}reflection-band edges against angle ({_METHOD})", fontsize=9)
+    ax.set_title(f"{title + ': ' if title else ''}reflection-band edges against angle ({_METHOD})"
+                 + ("\nhollow: transition not monotone, the band's own crossing shown (docs/methods.md §15)"
+                    if any_rough else ""), fontsize=9)
     ax.grid(alpha=0.3)
     if any_edge:
         ax.legend(fontsize=7, ncol=2)
