@@ -41,7 +41,7 @@ from __future__ import annotations
 import os
 import re
 from dataclasses import dataclass, field
-from functools import cached_property
+from functools import cached_property, lru_cache
 from pathlib import Path
 
 import numpy as np
@@ -204,9 +204,30 @@ def _read_tables(x: LoadInput) -> dict:
 
 
 def _more_params(options: dict) -> dict:
-    """One optional physical thickness per layer of the formula: ``layer_1_nm`` … ``layer_L_nm``."""
+    """One optional physical thickness per layer of the formula: ``layer_1_nm`` … ``layer_L_nm``.
+
+    Asked for once per parameter name in places (a tolerance run over every
+    layer), so the answer is kept per formula and materials table.
+    """
     if "layers" not in options or "materials" not in options:
         return {}
+    key = (options["layers"], options["materials"])
+    try:
+        hash(key)
+    except TypeError:                     # a materials table not parsed yet
+        return _layer_params(*key)
+    return dict(_layer_params_kept(*key))
+
+
+@lru_cache(maxsize=64)
+def _layer_params_kept(layers, materials) -> dict:
+    """:func:`_layer_params`, kept."""
+    return _layer_params(layers, materials)
+
+
+def _layer_params(layers_formula, materials) -> dict:
+    """The ``more_params`` of one layer formula and materials table."""
+    options = {"layers": layers_formula, "materials": materials}
     try:
         layers, _ = _formula(options)
     except WorkbenchError:
