@@ -417,8 +417,9 @@ class CameraRefineReport:
 
 
 def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str = "none", paths=None,
-                     lower: float = 0.5, upper: float = 1.5, max_evaluations: int = 60,
-                     progress=None, smoothness: float = RIPPLE_WEIGHT) -> tuple[Recipe, CameraRefineReport]:
+                     lower: float = 0.5, upper: float = 1.5, max_evaluations: int = 200,
+                     progress=None, smoothness: float = RIPPLE_WEIGHT,
+                     ftol: float = REFINE_TOLERANCE) -> tuple[Recipe, CameraRefineReport]:
     """Refine a recipe's layer thicknesses against the camera objective itself.
 
     The element ``element`` of the evaluator's design is replaced by the
@@ -449,6 +450,9 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
         Weight of the ripple penalty (:func:`ripple_penalty`; default
         :data:`RIPPLE_WEIGHT`, 0: none); the reported costs are the
         objective's alone.
+    ftol : float
+        Stop when a step changes the cost, or the thicknesses, by less than
+        this fraction (default :data:`REFINE_TOLERANCE`).
 
     Returns
     -------
@@ -515,7 +519,8 @@ def refine_in_camera(evaluator, element: str, recipe: Recipe, *, reflects: str =
                                                           fit_weight=float(m)))
     lo, hi = d0 * lower, d0 * upper
     with one_blas_thread():
-        sol = least_squares(fun, d0, jac=jac, bounds=(lo, hi), method="trf", x_scale=d0, max_nfev=max_evaluations)
+        sol = least_squares(fun, d0, jac=jac, bounds=(lo, hi), method="trf", x_scale=d0, max_nfev=max_evaluations,
+                            ftol=ftol, xtol=ftol)
     at_bound = tuple(int(i) for i in np.nonzero((sol.x <= lo * 1.0001) | (sol.x >= hi * 0.9999))[0])
     refined = Recipe(recipe.symbols, recipe.materials, sol.x, recipe.reference_nm, recipe.incident,
                      recipe.substrate, recipe.aoi_deg, recipe.f_number, recipe.polarisation,
