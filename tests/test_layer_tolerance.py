@@ -21,6 +21,11 @@ class TestLayerTolerance:
         wl = np.arange(440.0, 640.0, 2.0)
         res = layer_tolerance(recipe, wl, thickness_random=0, thickness_systematic=0, index_error=0, trials=5)
         np.testing.assert_allclose(res.R_trials, np.broadcast_to(res.R_nominal, res.R_trials.shape), atol=1e-14)
+        # every trial is the nominal curve: its monotone flags too (docs/methods.md §15)
+        from workbench.analysis.transition import edge_transition
+
+        nominal = edge_transition(wl, res.R_nominal, reflects="short").monotone
+        assert res.non_monotone_counts()["long_wave"] == (0 if nominal else 5)
 
     def test_variance_matches_first_order_propagation(self, recipe):
         """For small random errors the trials' variance equals Σ σ_j² (∂R/∂d_j)² (first order)."""

@@ -28,7 +28,7 @@ import numpy as np
 from workbench.analysis.recipe import Recipe
 from workbench.errors import WorkbenchError
 from workbench.optics.stacks import cone_response
-from workbench.optics.thinfilm import stop_band_edges
+from workbench.analysis.transition import edge_transition
 
 __all__ = ["LayerTolerance", "layer_tolerance", "ShareEstimate", "variance_shares"]
 
@@ -170,7 +170,8 @@ class LayerTolerance:
         Reflectance of the recipe as designed (cone and polarisations averaged).
     R_trials : (trials, n_λ) ndarray
     edges_nominal : (2,) ndarray, nm
-        Short- and long-wave 50 % points of the nominal reflection band (NaN off the grid).
+        Short- and long-wave 50 % points bounding the nominal main reflection
+        band (:func:`workbench.analysis.transition.edge_transition`, NaN off the grid).
     edges_trials : (trials, 2) ndarray, nm
     ranking : list of dict
         Layers by share of the curve's variance (largest first): ``layer``
@@ -181,6 +182,8 @@ class LayerTolerance:
         of the trials' whole variance), ``trial_interval`` (bootstrap 90 %),
         ``above_floor`` (distinguishable from noise).
     settings : dict
+    monotone_trials : (trials, 2) ndarray of bool
+        Whether each trial's transition on each side is monotone.
     trial_shares : ShareEstimate or None
         The shares from the trials, by layer index (None for fewer than 10 trials).
     """
@@ -193,6 +196,14 @@ class LayerTolerance:
     ranking: list
     settings: dict
     trial_shares: ShareEstimate | None = None
+    monotone_trials: np.ndarray | None = None
+
+    def non_monotone_counts(self) -> dict:
+        """How many trials have a non-monotone transition on each side of the band (docs/methods.md §15)."""
+        if self.monotone_trials is None:
+            return {"short_wave": None, "long_wave": None}
+        return {side: int(np.sum(~self.monotone_trials[:, k] & np.isfinite(self.edges_trials[:, k])))
+                for k, side in enumerate(("short_wave", "long_wave"))}
 
     def edge_shift_percentiles(self, q=(5, 50, 95)) -> dict:
         """Percentiles (nm) of each edge's shift from nominal, over the trials where it exists."""
@@ -261,8 +272,15 @@ def layer_tolerance(recipe: Recipe, wavelengths_nm, *, thickness_random: float =
         scale = 1.0 + e_idx[sl][:, which]                              # (c, L)
         N = N0.real[None] * scale[..., None] + 1j * N0.imag[None]
         R[sl] = cone_response(N, d[sl], wl, **kw)[0]
-    edges0 = np.array(stop_band_edges(wl, R0))
-    edges = np.array([stop_band_edges(wl, r) for r in R])
+    def band_edges(r):
+        # the crossings bounding the main band on each side (docs/methods.md §15) and whether each side is monotone
+        sides = [edge_transition(wl, r, reflects=side) for side in ("long", "short")]
+        return [t.band_edge_nm for t in sides], [t.monotone for t in sides]
+
+    edges0 = np.array(band_edges(R0)[0])
+    found = [band_edges(r) for r in R]
+    edges = np.array([e for e, _ in found]).reshape(trials, 2)
+    monotone = np.array([m for _, m in found], dtype=bool).reshape(trials, 2)
     sigma = thickness_random * d0
     contrib = sigma**2 * np.sum(dR**2, axis=-1)
     share = contrib / contrib.sum() if contrib.sum() > 0 else np.zeros(L)
@@ -281,4 +299,4 @@ def layer_tolerance(recipe: Recipe, wavelengths_nm, *, thickness_random: float =
         ranking.append(row)
     settings = {"thickness_random": thickness_random, "thickness_systematic": thickness_systematic,
                 "index_error": index_error, "trials": int(trials), "seed": int(seed), "bootstrap": int(bootstrap)}
-    return LayerTolerance(wl, R0, R, edges0, edges, ranking, settings, est)
+    return LayerTolerance(wl, R0, R, edges0, edges, ranking, settings, est, monotone)

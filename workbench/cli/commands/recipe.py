@@ -223,6 +223,7 @@ def run(args) -> int:
                 "method": ("Monte Carlo through one batch of stacks; ranking by first-order share of the "
                            "reflectance variance from the analytic thickness derivatives (random part)"),
                 "edge_shift_nm": lt.edge_shift_percentiles(),
+                "non_monotone_trials": lt.non_monotone_counts(),
                 "ranking": lt.ranking,
             }
             est = lt.trial_shares
@@ -268,6 +269,7 @@ def run(args) -> int:
                 header.append(f"# layer errors ({t['settings']['trials']} trials, 1 % random, 0.5 % systematic, "
                               f"0.5 % index): edge shift p5/p50/p95 "
                               + ("-" if shift is None else f"{shift['p5']:+.2f}/{shift['p50']:+.2f}/{shift['p95']:+.2f} nm")
+                              + f" ({t['non_monotone_trials'][side]} trials with a non-monotone transition)"
                               + f"; layers that matter most (each one's first-order share of the variance of R, "
                               f"from the analytic thickness derivatives): {top}")
                 ts = t.get("trial_shares")
