@@ -355,39 +355,20 @@ def lossless_one_change(N, d0, layer, thickness, wl, beta2, eta0, eta_s):
     T shaped (K, 2, n_a, n_λ); None when a layer absorbs or carries an
     evanescent wave.
     """
-    if np.iscomplexobj(N):
-        if np.any(N.imag):
-            return None
-        N = N.real
     L, K = N.shape[0], layer.size
-    first, which = _distinct_rows(N.reshape(L, N.shape[-1]))
-    U2 = N[first] ** 2
-    arg = U2[:, None, :] - beta2                                       # (M, A, W)
-    if not np.all(arg > 0):
+    tables = _materials(N, beta2, wl)
+    if tables is None:
         return None
-    q = np.sqrt(arg)
-    eta = np.stack([q, U2[:, None, :] / q], axis=1)                    # (M, 2, A, W)
-    E = np.stack([1.0 / eta, -1.0 / eta, eta, -eta], axis=1)           # (M, 4, 2, A, W)
+    which, E, k_m = tables
     E_row = E[:, [2, 3, 0, 1]]                                         # (η, −η, 1/η, −1/η) for row vectors
-    k_m = (_TWO_PI / wl) * q                                           # (M, A, W)
     delta = np.concatenate([k_m[which] * d0[:, None, None], k_m[which[layer]] * thickness[:, None, None]])
     cd, sd = cos_sin(delta)
     a = cd[:, None, None]                                              # (L + K, 1, 1, A, W)
     s = sd[:, None, None]
-    shape = (4,) + eta.shape[1:]                                       # (4, 2, A, W)
-    (V,) = scratch_arrays((L,) + shape, 1, slot="one-change-columns", dtype=float)
+    V = _columns(E, which, a, s, eta_s, "one-change-columns")
+    shape = V.shape[1:]                                                # (4, 2, A, W)
     (F,) = scratch_arrays((L, 2) + shape, 1, slot="one-change-rows", dtype=float)
-    t, u = np.empty(shape), np.empty((2,) + shape)
-    # v_{L-1} = [1, η_sub] as (Re B, Im B, Re C, Im C); v_{j-1} = M_j v_j
-    V[L - 1, 0] = 1.0
-    V[L - 1, 1] = 0.0
-    V[L - 1, 2] = eta_s.real
-    V[L - 1, 3] = eta_s.imag
-    for j in range(L - 1, 0, -1):
-        np.multiply(V[j, ::-1], E[which[j]], out=t)
-        t *= s[j, 0]
-        np.multiply(V[j], a[j, 0], out=V[j - 1])
-        V[j - 1] += t
+    u = np.empty((2,) + shape)
     # row vectors [η₀, 1] and [η₀, −1] (Re a, Im a, Re b, Im b), then F_{j+1} = F_j M_j
     F[0, :, 0] = eta0
     F[0, :, 1] = 0.0
@@ -403,7 +384,7 @@ def lossless_one_change(N, d0, layer, thickness, wl, beta2, eta0, eta_s):
     layers = np.append(layer, 0)
     a_k = np.concatenate([a[L:], a[:1]])                               # (K + 1, 1, 1, A, W)
     s_k = np.concatenate([s[L:], s[:1]])
-    R = np.empty((K + 1,) + eta.shape[1:])
+    R = np.empty((K + 1,) + shape[1:])
     T = np.empty_like(R)
     X = np.empty(shape)
     num = 4.0 * eta0 * eta_s.real
@@ -421,3 +402,39 @@ def lossless_one_change(N, d0, layer, thickness, wl, beta2, eta0, eta_s):
         np.divide(num, Z2[0], out=T[i])
     return R[K], T[K], R[:K], T[:K]
 
+
+def _materials(N, beta2, wl):
+    """Per layer its material's number, and per material ``E = (1/η, −1/η, η, −η)`` (M, 4, 2, A, W) and ``2πq/λ``.
+
+    None when a layer absorbs or carries an evanescent wave.
+    """
+    if np.iscomplexobj(N):
+        if np.any(N.imag):
+            return None
+        N = N.real
+    first, which = _distinct_rows(N.reshape(N.shape[0], N.shape[-1]))
+    U2 = N[first] ** 2
+    arg = U2[:, None, :] - beta2                                       # (M, A, W)
+    if not np.all(arg > 0):
+        return None
+    q = np.sqrt(arg)
+    eta = np.stack([q, U2[:, None, :] / q], axis=1)                    # (M, 2, A, W)
+    E = np.stack([1.0 / eta, -1.0 / eta, eta, -eta], axis=1)           # (M, 4, 2, A, W)
+    return which, E, (_TWO_PI / wl) * q
+
+
+def _columns(E, which, a, s, eta_s, slot):
+    """``v_j = M_{j+1} … M_L [1, η_sub]`` for every layer j as (L, 4, 2, A, W) (Re B, Im B, Re C, Im C), a scratch buffer."""
+    L = which.size
+    (V,) = scratch_arrays((L, 4) + E.shape[2:], 1, slot=slot, dtype=float)
+    t = np.empty(V.shape[1:])
+    V[L - 1, 0] = 1.0
+    V[L - 1, 1] = 0.0
+    V[L - 1, 2] = eta_s.real
+    V[L - 1, 3] = eta_s.imag
+    for j in range(L - 1, 0, -1):
+        np.multiply(V[j, ::-1], E[which[j]], out=t)
+        t *= s[j, 0]
+        np.multiply(V[j], a[j, 0], out=V[j - 1])
+        V[j - 1] += t
+    return V
