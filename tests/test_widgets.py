@@ -9,15 +9,12 @@ error lines against what the command line prints for the same file.
 
 from __future__ import annotations
 
-import base64
-import io
 import threading
 import time
 from pathlib import Path
 
 import numpy as np
 import pytest
-from PIL import Image
 
 from workbench import demo_dir
 from workbench.cli.main import main as cli_main
@@ -52,10 +49,6 @@ def cli_error(argv, capsys) -> str:
     assert cli_main(argv) == 2
     err = capsys.readouterr().err.rstrip("\n")
     return err[err.index("error: "):]
-
-
-def png_size(png: bytes) -> tuple[int, int]:
-    return Image.open(io.BytesIO(png)).size
 
 
 @pytest.fixture(scope="module")
@@ -139,41 +132,37 @@ class TestSensitivityFigure:
         f.set_reference(m.curves, "as loaded")
         return ev, f, m
 
-    def test_fast_path_draws_what_a_full_redraw_draws(self, demo_design):
-        """The blitted update gives the same pixels as drawing the whole figure again."""
+    def test_update_draws_the_new_curves(self, demo_design):
+        """New responses give a new picture; the same responses the same SVG text."""
         ev, f, m = self._figure(demo_design)
-        f.update(m.curves)
+        first = f.update(m.curves)
         m2 = ev.measures({EDGE: 536.0})
-        fast = f.update(m2.curves)
-        assert f.full_draws == 1  # the second update went the fast way
-        f._stale = True
-        full = f.update(m2.curves)
-        assert f.full_draws == 2
-        a = np.asarray(Image.open(io.BytesIO(fast)))
-        b = np.asarray(Image.open(io.BytesIO(full)))
-        assert a.shape == b.shape and np.array_equal(a, b)
+        moved = f.update(m2.curves)
+        assert first.startswith("<svg") and moved != first
+        assert f.update(m.curves) == first
 
-    def test_limits_follow_the_data(self, demo_design):
-        """Curves far outside the current limits widen them (a full redraw), so nothing is clipped."""
+    def test_residual_limits_follow_the_data(self, demo_design):
+        """A residual far outside the current limits widens them, so nothing is clipped."""
         ev, f, m = self._figure(demo_design)
         f.update(m.curves)
+        lim0 = f._res_lim
         f.update(m.curves * 3)
-        lo, hi = f.ax.get_ylim()
-        assert hi >= 3 * f.scale * m.curves.max()
-        assert f.full_draws == 2
+        res = np.max(np.abs(m.curves * 3 * f.scale - f._targets))
+        assert f._res_lim >= res > lim0
 
     def test_scale_makes_largest_target_one(self, demo_design):
         """Every curve is drawn × the factor that makes the largest |target| 1."""
         _, f, m = self._figure(demo_design)
-        assert np.max(np.abs([ln.get_ydata() for ln in f._tgt])) == pytest.approx(1.0)
+        assert np.max(np.abs(f._targets)) == pytest.approx(1.0)
         assert f.scale == pytest.approx(1 / np.max(np.abs(m.targets)))
 
     def test_axes_carry_units(self, demo_design):
-        """Both panels name their quantity; the wavelength axis its unit."""
-        _, f, _ = self._figure(demo_design)
-        assert f.ax_res.get_xlabel() == "wavelength λ (nm)"
-        assert "relative response" in f.ax.get_ylabel()
-        assert "camera − target" in f.ax_res.get_ylabel()
+        """Both panels name their quantity; the wavelength axis its unit; the legend names the styles."""
+        _, f, m = self._figure(demo_design)
+        svg = f.update(m.curves)
+        for text in ("wavelength λ (nm)", "relative response", "camera − target", "as loaded",
+                     "camera R, G, B (white balance + matrix)"):
+            assert text in svg
 
 
 class TestDesignPanelSliders:
@@ -197,17 +186,18 @@ class TestDesignPanelSliders:
         assert f"{m.vora_value:.4f}" in panel.table.value
 
     def test_moving_an_edge_changes_measures_and_picture(self, panel, demo_design):
-        """An edge slider re-evaluates the design (as an independent evaluator does) and redraws the PNG."""
-        before_png = panel.png()
+        """An edge slider re-evaluates the design (as an independent evaluator does) and redraws the picture."""
+        before_svg = panel.svg()
         before_table = panel.table.value
         panel.sliders[EDGE].value = 545.0
         ref = DesignEvaluator(demo_design.with_values({EDGE: 545.0})).measures()
         assert panel.measures.vora_value == pytest.approx(ref.vora_value, rel=1e-12)
         assert panel.measures.delta_E00["daylight"]["mean"] == pytest.approx(ref.delta_E00["daylight"]["mean"])
-        assert panel.png() != before_png
+        assert panel.svg() != before_svg
         assert panel.table.value != before_table
         assert f"{ref.vora_value:.4f}" in panel.table.value
-        assert png_size(panel.png()) == panel.figure.canvas.get_width_height()
+        assert panel.svg().startswith(f'<svg xmlns="http://www.w3.org/2000/svg" version="1.1" '
+                                      f'width="{panel.figure.width:g}" height="{panel.figure.height:g}"')
 
     def test_angle_of_incidence_moves_the_edges(self, panel, demo_design):
         """The splitter's angle of incidence (no bounds in the file) changes the curves too."""
@@ -556,7 +546,7 @@ class TestPanelInKernel:
     """The notebook's panel inside a real kernel, driven cell by cell (nbclient)."""
 
     def test_slider_in_kernel_updates_widget_state(self, tmp_path):
-        """Setting a slider in the kernel changes the measures HTML and the Output's PNG in the widget state."""
+        """Setting a slider in the kernel changes the measures HTML and the Output's SVG in the widget state."""
         import nbformat
         from nbclient import NotebookClient
 
@@ -568,8 +558,8 @@ class TestPanelInKernel:
             out, table = None, None
             for st in client.widget_state.values():
                 if "wb-design-plot" in st.get("_dom_classes", ()):
-                    out = [o["data"]["image/png"] for o in st.get("outputs", [])
-                           if "image/png" in o.get("data", {})]
+                    out = [o["data"]["image/svg+xml"] for o in st.get("outputs", [])
+                           if "image/svg+xml" in o.get("data", {})]
                 if "wb-measures" in st.get("_dom_classes", ()):
                     table = st.get("value")
             return out, table
@@ -590,4 +580,4 @@ class TestPanelInKernel:
         printed = float("".join(o.get("text", "") for o in extra.outputs).strip())
         ref = DesignEvaluator(load_design(DEMO).with_values({EDGE: 548.0})).measures()
         assert printed == pytest.approx(ref.vora_value, abs=1e-6)
-        assert Image.open(io.BytesIO(base64.b64decode(png1[0]))).size[0] > 400
+        assert png1[0].startswith("<svg") and "wavelength λ (nm)" in png1[0]

@@ -24,11 +24,11 @@ alike; medians over the rounds are printed.
 The design panel's first figure (notebook 02, the cell that builds
 ``design_panel``): the time of that cell in the kernel, i.e. from the
 kernel starting the cell (``iopub.execute_input``) to its reply. The panel
-draws its figure into the PNG of its ``Output`` widget while it is built,
+draws its figure (SVG) into its ``Output`` widget while it is built,
 so when the reply comes the figure is in the widget state the cell
 displays; the browser's own rendering of the widget is not included.
 In-process (``--panel``), a fresh Python times the same cell's parts:
-the imports, the panel up to the first PNG put into its ``Output`` and
+the imports, the panel up to the first picture put into its ``Output`` and
 the panel complete.
 
 Python's bytecode caches matter here more than anywhere: a kernel that
@@ -70,15 +70,15 @@ from workbench import demo_dir
 import workbench.widgets.design as wd
 t1 = time.perf_counter()
 first = []
-_show = wd.show_png
-def show_png(*a, **k):
+_show = wd.show_svg
+def show_svg(*a, **k):
     _show(*a, **k)
     if not first:
         first.append(time.perf_counter())
-wd.show_png = show_png
+wd.show_svg = show_svg
 panel = wd.design_panel(demo_dir() / "tern3_design.toml")
 t2 = time.perf_counter()
-assert panel.png() is not None and not panel.error.text, panel.error.text
+assert panel.svg() is not None and not panel.error.text, panel.error.text
 print(json.dumps({"imports": t1 - t0, "first_png": first[0] - t0, "panel": t2 - t0}))
 """
 
@@ -218,9 +218,9 @@ def main() -> None:
         idx = next(i for i, c in enumerate(nb.cells) if c.cell_type == "code" and "design_panel(" in c.source)
         t = med([[c for c in x["cells"] if c["index"] == idx][0]["seconds"] for x in runs])
         print(f"\ndesign panel, first figure: {t:.2f} s from the start of cell [{idx}] of {PANEL_NOTEBOOK} to its "
-              "reply (figure PNG in the widget state; aim ≤ 1 s)")
+              "reply (the figure in the widget state; aim ≤ 1 s)")
     if panel_runs:
-        print("design panel in a fresh process (s): imports {:.2f}, first PNG in the Output {:.2f}, panel built "
+        print("design panel in a fresh process (s): imports {:.2f}, first picture in the Output {:.2f}, panel built "
               "{:.2f}".format(*(med([p[k] for p in panel_runs]) for k in ("imports", "first_png", "panel"))))
 
 

@@ -5,11 +5,13 @@
   :class:`~workbench.errors.WorkbenchError`), never a traceback;
 - :func:`uploaded_files` / :func:`read_uploaded_spectra`: the files of a
   ``FileUpload`` widget, read by the CSV rules of ``workbench.fileio.spectra_csv``;
-- :func:`figure_png`, :func:`show_png`, :func:`html_table` (from :mod:`workbench.report.html`), :func:`guard`.
+- :func:`figure_png`, :func:`show_png`, :func:`show_svg`, :func:`html_table` (from :mod:`workbench.report.html`), :func:`guard`.
 
-Figures are drawn by matplotlib's Agg renderer into PNG images held by
-``ipywidgets.Output`` widgets, so a picture is part of the widget state:
-tests read it without a browser, and a browser shows it as an ``<img>``.
+Figures are PNG images drawn by matplotlib's Agg renderer (:func:`show_png`;
+matplotlib imported when a panel first draws one) or SVG pictures of the
+package's own plotter (:func:`show_svg`: the design panel's live figure),
+held by ``ipywidgets.Output`` widgets, so a picture is part of the widget
+state: tests read it without a browser, and a browser shows it as an ``<img>``.
 """
 
 from __future__ import annotations
@@ -21,7 +23,6 @@ import io
 import math
 
 import ipywidgets as W
-from matplotlib.backends.backend_agg import FigureCanvasAgg
 
 from workbench.errors import WorkbenchError
 from workbench.fileio.design_toml import design_from_bytes
@@ -40,6 +41,8 @@ __all__ = [
     "figure_png",
     "show_png",
     "output_png",
+    "show_svg",
+    "output_svg",
     "html_table",
     "compact",
     "fmt_number",
@@ -160,6 +163,8 @@ def design_from_upload(name: str, content: bytes, base_dir) -> Design:
 
 def figure_png(fig, *, dpi=None) -> bytes:
     """PNG bytes of a matplotlib figure (Agg renderer; the figure is left as it is)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg  # late: the design panel draws no matplotlib
+
     if not isinstance(fig.canvas, FigureCanvasAgg):
         FigureCanvasAgg(fig)
     buf = io.BytesIO()
@@ -179,6 +184,24 @@ def show_png(output: W.Output, png: bytes, *, alt: str = "figure", width: int | 
         "data": {"image/png": base64.b64encode(png).decode("ascii"), "text/plain": f"<{alt}>"},
         "metadata": meta,
     },)
+
+
+def show_svg(output: W.Output, svg: str, *, alt: str = "figure") -> None:
+    """Put one SVG picture into an Output widget, replacing what it held (any thread, as :func:`show_png`)."""
+    output.outputs = ({
+        "output_type": "display_data",
+        "data": {"image/svg+xml": svg, "text/plain": f"<{alt}>"},
+        "metadata": {},
+    },)
+
+
+def output_svg(output: W.Output) -> str | None:
+    """The SVG text an Output widget shows (its first SVG picture), or ``None``."""
+    for o in output.outputs:
+        data = o.get("data", {})
+        if "image/svg+xml" in data:
+            return data["image/svg+xml"]
+    return None
 
 
 def output_png(output: W.Output) -> bytes | None:

@@ -3,9 +3,11 @@
 The panels only wire ipywidgets controls to the package's public functions
 (:mod:`workbench.analysis.evaluator`, :mod:`workbench.analysis.fit`, :mod:`workbench.model.design`, :mod:`workbench.colorimetry.primaries`,
 :mod:`workbench.plots`); every number comes from there with its unit and
-method. Figures are drawn by matplotlib's Agg renderer into PNG images held
-by ``ipywidgets.Output`` widgets, so a picture is part of the widget state:
-tests read it without a browser, and a browser shows it as an ``<img>``.
+method. The live figure is SVG drawn by the package's own plotter
+(:mod:`workbench.plots.vector`, no matplotlib: the panel's first figure
+does not wait for matplotlib's import), held by an ``ipywidgets.Output``
+widget, so a picture is part of the widget state: tests read it without a
+browser, and a browser shows it as an ``<img>``.
 
 Shared helpers, also used by the other panels (light sources, tolerances):
 
@@ -14,7 +16,7 @@ Shared helpers, also used by the other panels (light sources, tolerances):
   :class:`~workbench.errors.WorkbenchError`), never a traceback;
 - :func:`uploaded_files` / :func:`read_uploaded_spectra`: the files of a
   ``FileUpload`` widget, read by the CSV rules of ``workbench.fileio.spectra_csv``;
-- :func:`figure_png`, :func:`show_png`, :func:`html_table`, :func:`guard`.
+- :func:`figure_png`, :func:`show_png`, :func:`show_svg`, :func:`html_table`, :func:`guard`.
 
 Panels:
 
@@ -40,7 +42,7 @@ from pathlib import Path
 
 import ipywidgets as W
 import numpy as np
-from IPython.display import Image
+from IPython.display import SVG
 
 from workbench import demo_dir
 from workbench.model.design import CHANNELS, Design
@@ -57,8 +59,8 @@ from workbench.widgets.common import (
     fmt_number,
     guard,
     html_table,
-    output_png,
-    show_png,
+    output_svg,
+    show_svg,
     uploaded_files,
 )
 from workbench.widgets.design_fit import FitControls
@@ -437,8 +439,7 @@ class DesignPanel(FitControls, W.VBox):
     def _show(self, m: Measures) -> None:
         with self._lock:
             self.measures = m
-            png = self.figure.update(m.curves)
-            show_png(self.plot, png, alt="channel responses and targets")
+            show_svg(self.plot, self.figure.update(m.curves), alt="channel responses and targets")
             self.table.value = measures_html(m)
 
     def _redraw_reference(self, draw: bool = True) -> None:
@@ -448,16 +449,16 @@ class DesignPanel(FitControls, W.VBox):
             ref = self.reference if self.overlay.value else None
             self.figure.set_reference(None if ref is None else ref.curves, self.reference_label)
             if draw and self.measures is not None:
-                show_png(self.plot, self.figure.update(self.measures.curves),
+                show_svg(self.plot, self.figure.update(self.measures.curves),
                          alt="channel responses and targets")
 
-    def png(self) -> bytes | None:
-        """The PNG bytes the figure shows now."""
-        return output_png(self.plot)
+    def svg(self) -> str | None:
+        """The SVG text of the figure shown now (``None`` before a design is open)."""
+        return output_svg(self.plot)
 
     def snapshot(self):
         """The picture the panel shows now, as an image for a notebook cell or a report."""
-        return Image(data=self.png(), format="png")
+        return SVG(data=self.svg())
 
 
     # -- saving and export --------------------------------------------------------

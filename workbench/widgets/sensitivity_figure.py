@@ -2,18 +2,16 @@
 
 from __future__ import annotations
 
-import io
 import math
 
 import numpy as np
-from matplotlib.backends.backend_agg import FigureCanvasAgg
-from matplotlib.figure import Figure
-from matplotlib.lines import Line2D
-from PIL import Image  # matplotlib's own PNG writer
+
+from workbench.plots.vector import CHANNEL_COLOURS, Figure, stack
 
 __all__ = ["SensitivityFigure"]
 
-_CHANNEL_COLOURS = ("tab:red", "tab:green", "tab:blue")
+_CHANNEL_COLOURS = tuple(CHANNEL_COLOURS[c] for c in ("R", "G", "B"))
+_NEUTRAL = "#262626"  # the legend's samples: the line style, not a channel
 
 
 def _nice_ceil(v: float) -> float:
@@ -26,7 +24,6 @@ def _nice_ceil(v: float) -> float:
     return 10 * e  # pragma: no cover
 
 
-
 # --------------------------------------------------------------------------
 # The design panel's live figure
 # --------------------------------------------------------------------------
@@ -35,17 +32,17 @@ def _nice_ceil(v: float) -> float:
 class SensitivityFigure:
     """The design panel's figure: camera responses against the targets, with the residual below.
 
-    One matplotlib figure is made once; an update only moves the data of the
-    six changing lines (three responses, three residuals) and redraws them
-    over a cached background (Agg blitting). The axes, labels, targets and
-    the reference curves are redrawn only when they change or when a curve
-    leaves the current limits.
+    Drawn as SVG by the package's own plotter (:mod:`workbench.plots.vector`,
+    a few milliseconds a picture, no matplotlib), so the panel shows its
+    first figure without importing matplotlib (about half a second) and a
+    slider move redraws the whole picture in less time than matplotlib
+    needed to redraw six lines over a cached background.
 
     Parameters
     ----------
     wavelengths : (n,) array_like, nm
     width, height : float
-        Figure size in inches; ``dpi`` the pixels per inch.
+        Figure size in px.
 
     Notes
     -----
@@ -54,139 +51,88 @@ class SensitivityFigure:
     illuminant, on the scale of the targets (Σ target·E = 1 for the
     white), so response − target is the colour error per wavelength. All
     curves are drawn × one factor that makes the largest target value 1.
+    The residual panel's limits are symmetric and change only when the
+    residual outgrows them or shrinks below a quarter, so small slider
+    moves keep the scale.
     """
 
-    def __init__(self, wavelengths, *, width: float = 7.4, height: float = 5.2, dpi: int = 84):
+    def __init__(self, wavelengths, *, width: float = 640.0, height: float = 470.0):
         self.wavelengths = np.asarray(wavelengths, dtype=float)
-        self.fig = Figure(figsize=(width, height), dpi=dpi)
-        self.canvas = FigureCanvasAgg(self.fig)
-        gs = self.fig.add_gridspec(2, 1, height_ratios=(3, 1.25), left=0.12, right=0.985,
-                                   top=0.815, bottom=0.095, hspace=0.1)
-        self.ax = self.fig.add_subplot(gs[0])
-        self.ax_res = self.fig.add_subplot(gs[1], sharex=self.ax)
-        wl = self.wavelengths
-        z = np.zeros_like(wl)
-        self._cam = [self.ax.plot(wl, z, color=c, lw=2.0, animated=True)[0] for c in _CHANNEL_COLOURS]
-        self._tgt = [self.ax.plot(wl, z, color=c, lw=1.2, ls="--")[0] for c in _CHANNEL_COLOURS]
-        self._ref = [self.ax.plot(wl, z, color=c, lw=1.0, ls=":", alpha=0.9)[0] for c in _CHANNEL_COLOURS]
-        self._res = [self.ax_res.plot(wl, z, color=c, lw=1.5, animated=True)[0] for c in _CHANNEL_COLOURS]
-        self._ref_res = [self.ax_res.plot(wl, z, color=c, lw=0.9, ls=":")[0] for c in _CHANNEL_COLOURS]
-        for a in (self.ax, self.ax_res):
-            a.axhline(0, color="0.6", lw=0.6)
-            a.grid(alpha=0.25)
-        self.ax.set_xlim(wl[0], wl[-1])
-        self.ax.tick_params(labelbottom=False, labelsize=9)
-        self.ax_res.tick_params(labelsize=9)
-        self.ax.set_ylabel("relative response\n(largest target value = 1)", fontsize=9.5)
-        self.ax_res.set_ylabel("camera − target\n(same scale)", fontsize=9.5)
-        self.ax_res.set_xlabel("wavelength λ (nm)", fontsize=9.5)
-        self._proxies = [Line2D([], [], color="0.15", lw=2.0), Line2D([], [], color="0.15", lw=1.2, ls="--"),
-                         Line2D([], [], color="0.15", lw=1.0, ls=":")]
-        self._legend = None
-        self._title = self.fig.suptitle("", fontsize=9.5, x=0.02, ha="left", y=0.99, va="top")
+        self.width, self.height = float(width), float(height)
         self.scale = 1.0
+        self._targets = np.zeros((3, self.wavelengths.size))
+        self._title = ""
         self._target_label = "target"
+        self._ref = None
         self._ref_label = None
-        self._bg = None
-        self._stale = True
         self._res_lim = None
-        self.full_draws = 0
+        self.svg = ""
+        self.draws = 0
 
     # -- static parts ----------------------------------------------------------
     def set_context(self, title: str, target_label: str) -> None:
         """The title (design, matrix, illuminant) and the targets' legend label."""
-        self._title.set_text(title)
+        self._title = title
         self._target_label = target_label
-        self._stale = True
 
     def set_targets(self, targets) -> None:
         """The target functions (3, n), dashed."""
         t = np.asarray(targets, dtype=float)
         # one scale for every curve: the largest target value becomes 1
         self.scale = 1.0 / (float(np.max(np.abs(t))) or 1.0)
-        t = t * self.scale
-        for i in range(3):
-            self._tgt[i].set_ydata(t[i])
-        self._targets = t
-        self._stale = True
+        self._targets = t * self.scale
+        self._res_lim = None
 
     def set_reference(self, curves, label: str | None) -> None:
         """Reference responses (3, n), dotted (``None`` hides them), e.g. the design before the fit."""
         if curves is None or label is None:
-            for ln in self._ref + self._ref_res:
-                ln.set_visible(False)
-            self._ref_label = None
+            self._ref, self._ref_label = None, None
         else:
-            c = np.asarray(curves, dtype=float) * self.scale
-            for i in range(3):
-                self._ref[i].set_ydata(c[i])
-                self._ref[i].set_visible(True)
-                self._ref_res[i].set_ydata(c[i] - self._targets[i])
-                self._ref_res[i].set_visible(True)
+            self._ref = np.asarray(curves, dtype=float) * self.scale
             self._ref_label = label
-        self._stale = True
-
-    def _limits(self, curves, res) -> bool:
-        """Set the y limits when the data leave them (or shrink far inside); True when changed."""
-        changed = False
-        data = [self._targets, curves] + ([np.array([ln.get_ydata() for ln in self._ref])]
-                                          if self._ref_label else [])
-        lo = min(float(np.min(d)) for d in data)
-        hi = max(float(np.max(d)) for d in data)
-        span = hi - lo or 1.0
-        cur = self.ax.get_ylim()
-        need = (lo - 0.06 * span, hi + 0.06 * span)
-        if self._stale or need[0] < cur[0] or need[1] > cur[1] or (need[1] - need[0]) < 0.6 * (cur[1] - cur[0]):
-            self.ax.set_ylim(need)
-            changed = True
-        rmax = float(np.max(np.abs(res)))
-        if self._ref_label:
-            rmax = max(rmax, float(np.max(np.abs([ln.get_ydata() for ln in self._ref_res]))))
-        lim = self._res_lim
-        if self._stale or lim is None or rmax > lim or rmax < lim / 4:
-            self._res_lim = _nice_ceil(1.1 * rmax)
-            self.ax_res.set_ylim(-self._res_lim, self._res_lim)
-            changed = True
-        return changed
-
-    def _full_draw(self) -> None:
-        if self._legend is not None:
-            self._legend.remove()
-        labels = ["camera R, G, B (white balance + matrix)", self._target_label]
-        handles = self._proxies[:2]
-        if self._ref_label:
-            labels.append(self._ref_label)
-            handles = self._proxies
-        self._legend = self.fig.legend(handles, labels, fontsize=8, loc="lower left", ncol=3,
-                                       bbox_to_anchor=(0.12, 0.822), frameon=False, borderaxespad=0,
-                                       handlelength=2.4, columnspacing=1.2)
-        self.canvas.draw()
-        self._bg = self.canvas.copy_from_bbox(self.fig.bbox)
-        self._stale = False
-        self.full_draws += 1
 
     # -- the live part -----------------------------------------------------------
-    def update(self, curves) -> bytes:
-        """Draw new responses (3, n) and return the PNG bytes of the figure."""
+    def _residual_limit(self, res: np.ndarray) -> float:
+        rmax = float(np.max(np.abs(res))) if res.size else 0.0
+        if self._ref is not None:
+            rmax = max(rmax, float(np.max(np.abs(self._ref - self._targets))))
+        lim = self._res_lim
+        if lim is None or rmax > lim or rmax < lim / 4:
+            self._res_lim = _nice_ceil(1.1 * rmax)
+        return self._res_lim
+
+    def update(self, curves) -> str:
+        """Draw new responses (3, n) and return the figure as SVG text."""
         c = np.asarray(curves, dtype=float) * self.scale
         res = c - self._targets
-        for i in range(3):
-            self._cam[i].set_ydata(c[i])
-            self._res[i].set_ydata(res[i])
-        if self._limits(c, res) or self._stale or self._bg is None:
-            self._full_draw()
-        else:
-            self.canvas.restore_region(self._bg)
-        for ln in self._cam:
-            self.ax.draw_artist(ln)
-        for ln in self._res:
-            self.ax_res.draw_artist(ln)
-        return self.png()
-
-    def png(self) -> bytes:
-        """PNG bytes of what the canvas holds now (fast zlib level)."""
-        w, h = self.canvas.get_width_height()
-        img = Image.frombuffer("RGBA", (w, h), self.canvas.buffer_rgba(), "raw", "RGBA", 0, 1)
-        buf = io.BytesIO()
-        img.convert("RGB").save(buf, format="PNG", compress_level=1)
-        return buf.getvalue()
+        wl = self.wavelengths
+        fig = Figure(self.width, self.height, name="wb-design", alt="channel responses and targets")
+        lines = fig.title(self._title, size=11.5, y=6.0)
+        top_px = 14 + 15 * lines
+        upper, lower = stack(84, top_px, self.width - 100, self.height - top_px - 46, ratios=(3.0, 1.25), gap=12)
+        xlim = (float(wl[0]), float(wl[-1])) if wl.size else (0.0, 1.0)
+        ax = fig.add_axes(upper, xlim=xlim)
+        lim = self._residual_limit(res)
+        ax_res = fig.add_axes(lower, share_x=ax, ylim=(-lim, lim), yticks=4)
+        ax.tick_labels_x = False
+        for a in (ax, ax_res):
+            a.hline(0.0, colour="#999999", width=0.7)
+        for i, col in enumerate(_CHANNEL_COLOURS):
+            ax.line(wl, self._targets[i], colour=col, width=1.3, dash="dashed")
+            if self._ref is not None:
+                ax.line(wl, self._ref[i], colour=col, width=1.1, dash="dotted", opacity=0.9)
+                ax_res.line(wl, self._ref[i] - self._targets[i], colour=col, width=1.0, dash="dotted",
+                            opacity=0.9)
+            ax.line(wl, c[i], colour=col, width=2.2)
+            ax_res.line(wl, res[i], colour=col, width=1.6)
+        nan = [math.nan]
+        ax.line(nan, nan, colour=_NEUTRAL, width=2.2, label="camera R, G, B (white balance + matrix)")
+        ax.line(nan, nan, colour=_NEUTRAL, width=1.3, dash="dashed", label=self._target_label)
+        if self._ref is not None:
+            ax.line(nan, nan, colour=_NEUTRAL, width=1.1, dash="dotted", label=self._ref_label)
+        ax.legend("best", size=10)
+        ax.set(ylabel="relative response\n(largest target value = 1)")
+        ax_res.set(ylabel="camera − target\n(same scale)", xlabel="wavelength λ (nm)")
+        self.svg = fig.svg()
+        self.draws += 1
+        return self.svg
