@@ -182,6 +182,7 @@ observer = 2
 [grid]
 start_nm = 380
 stop_nm = 780
+# every free edge width (10-90 %) has min = 10 nm: a 5 nm step then keeps 2 grid points across the sharpest edge
 step_nm = 5
 
 [target]
@@ -205,8 +206,8 @@ order = "blue-first"
 # 50 % points at normal incidence; the chief ray meets the faces at 25 and 12 degrees in glass
 blue_green_nm = { value = 532.0, min = 500.0, max = 570.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
 green_red_nm = { value = 605.0, min = 575.0, max = 640.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
-blue_green_width_nm = { value = 18.0, min = 8.0, max = 60.0, free = true }
-green_red_width_nm = { value = 20.0, min = 8.0, max = 60.0, free = true }
+blue_green_width_nm = { value = 18.0, min = 10.0, max = 60.0, free = true }
+green_red_width_nm = { value = 20.0, min = 10.0, max = 60.0, free = true }
 blue_green_aoi_deg = 25.0
 green_red_aoi_deg = 12.0
 medium_index = 1.52
@@ -242,22 +243,22 @@ name = "red-edge"
 type = "short-pass"
 paths = ["R"]
 center_nm = { value = 660.0, min = 600.0, max = 700.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
-width_nm = { value = 25.0, min = 8.0, max = 100.0, free = true }
+width_nm = { value = 25.0, min = 10.0, max = 100.0, free = true }
 
 [[chain]]
 name = "green-edge"
 type = "long-pass"
 paths = ["G"]
 center_nm = { value = 480.0, min = 400.0, max = 540.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
-width_nm = { value = 30.0, min = 8.0, max = 100.0, free = true }
+width_nm = { value = 30.0, min = 10.0, max = 100.0, free = true }
 
 [[chain]]
 name = "blue-trim"
 type = "band-pass"
 paths = ["B"]
-low_nm = { value = 410.0, min = 380.0, max = 450.0, free = true }
-high_nm = { value = 500.0, min = 450.0, max = 540.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
-width_nm = { value = 30.0, min = 8.0, max = 100.0, free = true }
+low_nm = { value = 410.0, min = 380.0, max = 440.0, free = true }
+high_nm = { value = 500.0, min = 460.0, max = 540.0, free = true, tolerance = { distribution = "normal", width = 3.0 } }
+width_nm = { value = 30.0, min = 10.0, max = 100.0, free = true }
 
 [[chain]]
 name = "sensor"

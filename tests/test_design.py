@@ -35,6 +35,17 @@ BAD = {
         'PATH: 1 problem in the design file (chain[0].high_nm)\n'
         '  chain[0].high_nm: expected a wavelength above low_nm = 600 nm (got 500.0)'
     ),
+    # a fit must not be able to put an ordered pair out of order (workbench/fileio/design_toml.py)
+    'band_pass_bounds_overlap': (
+        'PATH: 1 problem in the design file (chain[0].high_nm.min)\n'
+        '  chain[0].high_nm.min: expected bounds that keep high_nm above low_nm in a fit (low_nm may reach '
+        '560 nm, high_nm may fall to 550 nm) (got 550.0)'
+    ),
+    'band_pass_fixed_low_overlap': (
+        'PATH: 1 problem in the design file (chain[0].high_nm.min)\n'
+        '  chain[0].high_nm.min: expected bounds that keep high_nm above low_nm in a fit (low_nm may reach '
+        '600 nm, high_nm may fall to 590 nm) (got 590.0)'
+    ),
     'bounds_order': (
         'PATH: 1 problem in the design file (chain[0].center_nm.max)\n'
         '  chain[0].center_nm.max: expected a number greater than min = 680 (got 620.0)'

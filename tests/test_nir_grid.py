@@ -182,11 +182,23 @@ class TestEdgeSampling:
 
     @pytest.mark.slow  # a whole fit with its report, in a process of its own
     def test_command_line_shows_it_once(self, tmp_path):
-        """The fit's stages (fit, report) each raise the demo fit's coarse-grid warning; the command prints it once."""
+        """The fit's stages (fit, report) each raise the coarse-grid warning; the command prints it once.
+
+        The demo with its edge widths allowed down to 8 nm (its bounds stop at
+        10 nm so that its 5 nm grid keeps 2 points across every edge): the
+        fit drives the blue trim's width to 8 nm.
+        """
+        import shutil
         import subprocess
         import sys
 
-        run = subprocess.run([sys.executable, "-m", "workbench", "fit", str(DEMO), "--out", str(tmp_path / "o"),
+        folder = tmp_path / "demo"
+        shutil.copytree(DEMO.parent, folder)
+        design = folder / DEMO.name
+        text = design.read_text(encoding="utf-8")
+        assert text.count("min = 10.0, max = 100.0") == 3
+        design.write_text(text.replace("min = 10.0, max = 100.0", "min = 8.0, max = 100.0"), encoding="utf-8")
+        run = subprocess.run([sys.executable, "-m", "workbench", "fit", str(design), "--out", str(tmp_path / "o"),
                               "--quiet"], capture_output=True, text=True, timeout=600)
         assert run.returncode == 0, run.stderr[-500:]
         warned = [line for line in run.stderr.splitlines() if line.startswith("warning:")]
@@ -199,3 +211,11 @@ class TestEdgeSampling:
         from workbench.optics.chain import check_edge_sampling
 
         assert check_edge_sampling(load_design(DEMO)) is None
+
+    def test_fitted_demo_grid_is_fine(self, fitted_demo):
+        """The fitted demo keeps 2 grid points across its sharpest edge: its width bounds stop at 10 nm, twice the step."""
+        from workbench.optics.chain import check_edge_sampling
+
+        design = load_design(fitted_demo.design_path)
+        assert design.grid.step_nm == 5  # the demo's grid
+        assert check_edge_sampling(design) is None

@@ -386,10 +386,22 @@ def _check_element(c: _Checker, v, i: int) -> Element | None:
         values = {k: p.value for k, p in params}
         for lo_k, hi_k in kind.ordered:
             lo, hi = values[lo_k], values[hi_k]
+            unit = kind.params[hi_k].unit
             if not lo < hi:
-                unit = kind.params[hi_k].unit
                 what = "wavelength" if unit == "nm" else "number"
                 c.bad(f"{key}.{hi_k}", f"a {what} above {lo_k} = {lo:g}{' ' + unit if unit else ''}", hi)
+                ok = False
+                continue
+            # A fit (or a robust fit's draws) must not be able to put the pair out of order:
+            # the highest value lo_k may reach stays below the lowest value hi_k may reach.
+            lo_p, hi_p = dict(params)[lo_k], dict(params)[hi_k]
+            lo_top = (lo_p.max if lo_p.max is not None else np.inf) if lo_p.free else lo_p.value
+            hi_low = (hi_p.min if hi_p.min is not None else -np.inf) if hi_p.free else hi_p.value
+            if not lo_top < hi_low:
+                bound_key, got = (f"{hi_k}.min", hi_low) if hi_p.free else (f"{lo_k}.max", lo_top)
+                u = f" {unit}" if unit else ""
+                c.bad(f"{key}.{bound_key}", f"bounds that keep {hi_k} above {lo_k} in a fit "
+                      f"({lo_k} may reach {lo_top:g}{u}, {hi_k} may fall to {hi_low:g}{u})", got)
                 ok = False
     if not ok:
         return None
