@@ -78,6 +78,15 @@ class TestCoatingCommand:
         assert "characteristic-matrix method" in out
         assert "45°  s " in out
 
+    def test_table_marks_non_monotone_and_notes_it(self, capsys, blue_stack):
+        """(HL)^10 H in air rises above 50 % again beside its band: the table stars the edge and stderr says so."""
+        status, out, err = _run(capsys, ["coating", str(blue_stack), "--substrate", "1.52", "--angles", "45",
+                                         "--grid", "400:600:0.1"])
+        assert status == 0
+        assert "s - / 486.9–513.8*" in out and "* non-monotone transition" in out
+        assert "pass band (max - min of R, peak-to-peak" in out
+        assert "3 band edges have a non-monotone transition (45° s long-wave, 45° p long-wave, 45° mean long-wave)" in err
+
     def test_figures(self, capsys, blue_stack, tmp_path):
         """--figures writes R/T per angle and the band edges against angle as PNG into a new folder."""
         folder = tmp_path / "figs"
@@ -178,3 +187,55 @@ class TestCoatingRejections:
         status, _, _ = _run(capsys, ["coating", str(path), "--figures", str(folder)])
         assert status == 2 and not folder.exists()
         assert [p.name for p in tmp_path.iterdir()] == ["s.csv"]
+
+
+def _half_period_stack(path, periods, reference_nm):
+    """(0.5L H 0.5L)^periods of plain indices 2.35 / 1.46, QWOT at ``reference_nm``: its rows and the stack."""
+    n = np.array([N_L] + [N_H, N_L] * periods)
+    q = np.ones(n.size)
+    q[0] = q[-1] = 0.5
+    d = q * reference_nm / (4 * n)
+    return _write_stack(path, list(zip(n, d))), n, d
+
+
+class TestCoatingEdgeRule:
+    """`workbench coating` finds each band edge by the rule of docs/methods.md §15 (analysis/transition.py)."""
+
+    def test_quarter_wave_edge_is_the_transition_rule(self, capsys, tmp_path):
+        """A 10-period stack in glass: JSON's band edges are edge_transition's on the engine's R; 0°: one monotone edge."""
+        from workbench.analysis.transition import edge_transition
+        from workbench.optics.thinfilm import stack_response
+
+        path, n, d = _half_period_stack(tmp_path / "ten.csv", 10, 600.0)
+        status, out, err = _run(capsys, ["coating", str(path), "--incident", "1.52", "--substrate", "1.52",
+                                         "--angles", "0,30", "--grid", "450:850:0.02", "--format", "json"])
+        assert status == 0, err
+        doc = json.loads(out)
+        assert "single 50 % crossing" in doc["edge_rule"]
+        wl = np.array(doc["wavelength_nm"])
+        res = stack_response(n[:, None].astype(complex), d, wl, [0.0, 30.0], incident=1.52, substrate=1.52)
+        for ia, a in enumerate(doc["angles"]):
+            for pol, R in (("s", res.R[0, ia]), ("p", res.R[1, ia]), ("mean", res.R_mean[ia])):
+                got = a["band_edges_50"][pol]
+                for side, reflects in (("long_wave", "short"), ("short_wave", "long")):
+                    ref = edge_transition(wl, R, reflects=reflects)
+                    assert got[side]["monotone"] is ref.monotone
+                    assert got[f"{side}_nm"] == pytest.approx(ref.band_edge_nm, abs=1e-4)
+                    assert got[side]["crossings_nm"] == pytest.approx(list(ref.crossings_nm), abs=1e-3)
+                if a["angle_deg"] == 0.0:
+                    ref = edge_transition(wl, R, reflects="short")
+                    assert ref.monotone and got["long_wave"]["monotone"] is True
+                    assert got["long_wave"]["edge_nm"] == pytest.approx(ref.edge_nm, abs=1e-3)
+                    assert got["long_wave"]["crossings_nm"] == [got["long_wave"]["edge_nm"]]
+
+    def test_rippled_stack_flagged_in_json(self, capsys, tmp_path):
+        """A 20-period stack in glass ripples back above 50 %: every crossing listed, no single edge, not monotone."""
+        path, _, _ = _half_period_stack(tmp_path / "twenty.csv", 20, 500.0)
+        status, out, err = _run(capsys, ["coating", str(path), "--incident", "1.52", "--substrate", "1.52",
+                                         "--grid", "380:780:0.2", "--format", "json"])
+        assert status == 0
+        side = json.loads(out)["angles"][0]["band_edges_50"]["mean"]["long_wave"]
+        assert side["monotone"] is False and side["edge_nm"] is None and len(side["crossings_nm"]) > 1
+        assert side["reversal_pct"] > 1.0 and side["pass_ripple_pct"] > 0.0
+        assert side["band_edge_nm"] == side["crossings_nm"][0]
+        assert "band edges have a non-monotone transition" in err

@@ -10,7 +10,8 @@ from workbench.analysis.recipe import (APODISE_MIN_SHARE, apodising_shares, refi
 from workbench.analysis.transition import edge_transition
 from workbench.errors import WorkbenchError
 from workbench.optics.elements import edge
-from workbench.optics.thinfilm import stack_response, stop_band_edges
+from workbench.analysis.transition import stop_band_edges
+from workbench.optics.thinfilm import stack_response
 
 
 class TestStartingStack:

@@ -7,12 +7,12 @@ import math
 import numpy as np
 import pytest
 
+from workbench.analysis.transition import stop_band_edges
 from workbench.errors import WorkbenchError
 from workbench.optics.thinfilm import (
     half_points,
     normal_component,
     stack_response,
-    stop_band_edges,
 )
 
 N_H, N_L, N_GLASS = 2.35, 1.46, 1.52

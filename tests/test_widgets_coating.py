@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from workbench.optics.thinfilm import stack_response, stop_band_edges
+from workbench.analysis.transition import stop_band_edges
+from workbench.optics.thinfilm import stack_response
 from workbench.widgets.coating import CoatingPanel, parse_material_symbols
 from workbench.widgets.common import output_png
 
@@ -37,6 +38,27 @@ class TestCoatingPanel:
         after = stop_band_edges(wl, panel.response.R[0, 0])[1]
         # common practice: a non-dispersive stack scales with its thicknesses
         assert after == pytest.approx(before * 1.02, abs=0.05)
+
+    def test_edges_by_the_transition_rule(self):
+        """The edge table's long-wave edge is edge_transition's single crossing (docs/methods.md §15), unstarred."""
+        from workbench.analysis.transition import edge_transition
+
+        panel = CoatingPanel(layers="0.5L (H L)^9 H 0.5L", materials="H=2.35, L=1.46", reference_nm=600.0,
+                             incident="1.52", substrate="1.52", angles="0")
+        wl, R = panel.response.wavelengths_nm, panel.response.R_mean[0]
+        ref = edge_transition(wl, R, reflects="short")
+        (angle, by), = panel.edges
+        assert angle == 0.0 and ref.monotone and by["mean"]["long_wave"].edge_nm == ref.edge_nm
+        assert f"/ {ref.edge_nm:.1f}" in panel.recipe.value and f"{ref.edge_nm:.1f}*" not in panel.recipe.value
+
+    def test_rippled_stack_is_starred(self):
+        """A 20-period stack in glass ripples back above 50 %: its edges show as a starred span and a note."""
+        panel = CoatingPanel(layers="(0.5L H 0.5L)^20", materials="H=2.35, L=1.46", reference_nm=500.0,
+                             incident="1.52", substrate="1.52", angles="0")
+        side = panel.edges[0][1]["mean"]["long_wave"]
+        assert not side.monotone and len(side.crossings_nm) > 1
+        a, b = side.span_nm
+        assert f"{a:.1f}–{b:.1f}*" in panel.recipe.value and "* non-monotone transition" in panel.recipe.value
 
     def test_bad_formula_is_one_line(self):
         """A bad formula shows one error line and keeps the last response."""

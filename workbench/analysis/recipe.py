@@ -34,7 +34,8 @@ from workbench.errors import WorkbenchError
 from workbench.optics.elements import angle_shift_factor, edge
 from workbench.optics.materials import Material, material_named
 from workbench.optics.stacks import cone_rays, cone_response, parse_layer_formula, physical_thicknesses
-from workbench.optics.thinfilm import stack_response, stop_band_edges
+from workbench.optics.thinfilm import stack_response
+from workbench.analysis.transition import stop_band_edges
 from workbench.fileio.design_toml import design_from_dict, design_to_dict
 
 __all__ = ["Recipe", "starting_stack", "refine_recipe", "RefineReport", "REFLECTS", "refine_in_camera",

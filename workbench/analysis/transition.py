@@ -38,7 +38,7 @@ import numpy as np
 from workbench.errors import WorkbenchError
 from workbench.optics.thinfilm import half_points, stack_response
 
-__all__ = ["EdgeTransition", "edge_transition", "face_edges"]
+__all__ = ["EdgeTransition", "band_sides", "edge_transition", "face_edges", "stop_band_edges"]
 
 #: The side a face reflects (the pass band lies on the other side).
 _SIDES = ("short", "long")
@@ -107,6 +107,14 @@ class EdgeTransition:
         a, b = self.span_nm
         return (f"non-monotone: {len(self.crossings_nm)} crossings of 50 % at {a:.{digits}f}-{b:.{digits}f} nm "
                 f"(reversal {self.reversal_pct:.1f} %)")
+
+    def short_text(self, digits: int = 1) -> str:
+        """The edge for a table cell: ``'478.2'``; ``'457.9–468.0*'`` for several crossings; ``*`` when not monotone; ``-`` without one."""
+        if self.problem or not self.crossings_nm:
+            return "-"
+        a, b = self.span_nm
+        text = f"{a:.{digits}f}" if len(self.crossings_nm) == 1 else f"{a:.{digits}f}–{b:.{digits}f}"
+        return text if self.monotone else text + "*"
 
     def to_dict(self) -> dict:
         """Plain numbers for JSON (NaN as None)."""
@@ -219,6 +227,47 @@ def edge_transition(wavelengths_nm, reflectance, *, reflects: str, high_level: f
         ripple, top, band_nm = math.nan, math.nan, nan2
     return EdgeTransition(reflects, float(edge), tuple(float(c) for c in crossings), float(band_edge), transition,
                           100.0 * reversal, bool(monotone), band_nm, 100.0 * ripple, 100.0 * top)
+
+
+def band_sides(wavelengths_nm, reflectance, **options) -> dict:
+    """Both sides of the main reflection band, each by the rule of :func:`edge_transition`.
+
+    For a stack whose reflecting side is not known (a layer table on its
+    own): the short-wave side is the transition towards a pass band at
+    shorter wavelengths (``reflects='long'``), the long-wave side the one
+    towards longer wavelengths (``reflects='short'``); both look at the
+    same main band (the run of R ≥ 50 % with the largest area).
+
+    Parameters
+    ----------
+    wavelengths_nm : (n_λ,) array_like, nm
+    reflectance : (n_λ,) array_like, fraction 0-1
+    **options
+        Passed to :func:`edge_transition` (levels, tolerance; not ``pass_band_nm``).
+
+    Returns
+    -------
+    dict
+        ``{'short_wave': EdgeTransition, 'long_wave': EdgeTransition}``.
+    """
+    return {"short_wave": edge_transition(wavelengths_nm, reflectance, reflects="long", **options),
+            "long_wave": edge_transition(wavelengths_nm, reflectance, reflects="short", **options)}
+
+
+def stop_band_edges(wavelengths_nm, reflectance) -> tuple[float, float]:
+    """The 50 % crossings that bound the main reflection band, short- and long-wave side, nm.
+
+    Each is :attr:`EdgeTransition.band_edge_nm` of :func:`band_sides`: the
+    single edge where the transition is monotone; on a rippled transition
+    the crossing next to the band (read :func:`band_sides` for the flags).
+
+    Returns
+    -------
+    (float, float), nm
+        NaN on a side where the band runs off the grid (or there is no band).
+    """
+    sides = band_sides(wavelengths_nm, reflectance)
+    return float(sides["short_wave"].band_edge_nm), float(sides["long_wave"].band_edge_nm)
 
 
 def face_edges(recipe, *, reflects: str, window_nm, step_nm: float = 0.05, offsets_deg=(-5.0, 0.0, 5.0)) -> list[dict]:

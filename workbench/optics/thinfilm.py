@@ -78,7 +78,6 @@ __all__ = [
     "stack_response",
     "normal_component",
     "half_points",
-    "stop_band_edges",
     "POLARISATIONS",
 ]
 
@@ -541,29 +540,3 @@ def half_points(wavelengths_nm, values, level: float = 0.5) -> list[tuple[float,
         x = wl[i] + (wl[i + 1] - wl[i]) * (v0 / (v0 - v1)) if v1 != v0 else wl[i]
         out.append((float(x), "rising" if v1 > v0 else "falling"))
     return out
-
-
-def stop_band_edges(wavelengths_nm, reflectance, level: float = 0.5) -> tuple[float, float]:
-    """The 50 % points bounding the reflection band that holds the peak reflectance.
-
-    Parameters
-    ----------
-    wavelengths_nm : (n_λ,) array_like, nm
-    reflectance : (n_λ,) array_like, fraction 0-1
-    level : float
-
-    Returns
-    -------
-    (float, float), nm
-        Short- and long-wave edge; NaN where the band runs off the grid.
-    """
-    wl = np.asarray(wavelengths_nm, dtype=float)
-    R = np.asarray(reflectance, dtype=float)
-    peak = int(np.argmax(R))
-    short, long_ = math.nan, math.nan
-    for x, _ in half_points(wl, R, level):
-        if x <= wl[peak]:
-            short = x
-        elif math.isnan(long_):
-            long_ = x
-    return short, long_

@@ -18,10 +18,11 @@ from __future__ import annotations
 import ipywidgets as W
 import numpy as np
 
+from workbench.analysis.transition import band_sides
 from workbench.errors import WorkbenchError
 from workbench.optics.materials import material_named
 from workbench.optics.stacks import parse_layer_formula, physical_thicknesses, resolve_materials
-from workbench.optics.thinfilm import stack_response, stop_band_edges
+from workbench.optics.thinfilm import stack_response
 from workbench.plots._canvas import png_bytes
 from workbench.plots.coating import plot_stack_angles
 from workbench.widgets.common import ErrorLine, guard, html_table, show_png
@@ -92,6 +93,9 @@ class CoatingPanel(W.VBox):
     ----------
     response : StackResponse or None
         The last computed response.
+    edges : list of (float, dict)
+        Per angle (degrees), the :func:`~workbench.analysis.transition.band_sides` of ``'s'``, ``'p'``
+        and ``'mean'`` (the edge rule of docs/methods.md §15).
     status : ErrorLine
     """
 
@@ -114,6 +118,7 @@ class CoatingPanel(W.VBox):
         self.figure = W.Output()
         self.recipe = W.HTML()
         self.response = None
+        self.edges = []
         self._fig = None
         self.camera = W.HTML()
         self.measures = None
@@ -177,17 +182,27 @@ class CoatingPanel(W.VBox):
             self.response = res = stack_response(N, d, wl, angles, incident=n_inc.real, substrate=sub.index(wl))
             self._fig = plot_stack_angles(res, quantity=self.quantity.value, fig=self._fig)
             show_png(self.figure, png_bytes(self._fig, dpi=90), alt="R or T at each angle")
+            self.edges = []
             rows = []
             for ia, a in enumerate(angles):
+                by = {"s": band_sides(wl, res.R[0, ia]), "p": band_sides(wl, res.R[1, ia]),
+                      "mean": band_sides(wl, res.R_mean[ia])}
+                self.edges.append((a, by))
                 cells = {"angle": f"{a:g}°"}
-                for ip, p in enumerate(("s", "p")):
-                    short, long_ = stop_band_edges(wl, res.R[ip, ia])
-                    cells[p] = f"{short:.1f} / {long_:.1f}".replace("nan", "–")
-                short, long_ = stop_band_edges(wl, res.R_mean[ia])
-                cells["mean"] = f"{short:.1f} / {long_:.1f}".replace("nan", "–")
+                for pol, sides in by.items():
+                    cells[pol] = f"{sides['short_wave'].short_text()} / {sides['long_wave'].short_text()}"
+                    ripple = [t.pass_ripple_pct for t in sides.values() if np.isfinite(t.pass_ripple_pct)]
+                    cells[f"{pol} pass ripple"] = "–" if not ripple else f"{max(ripple):.1f} %"
                 rows.append(cells)
-            edges = html_table(rows, ["angle", "s", "p", "mean"],
-                               caption="reflection-band edges at R = 50 %, nm (short-wave / long-wave)")
+            rough = any(not t.monotone for _, by in self.edges for sides in by.values() for t in sides.values()
+                        if not t.problem)
+            edges = html_table(rows, ["angle", "s", "p", "mean", "s pass ripple", "p pass ripple", "mean pass ripple"],
+                               caption="main reflection band's edges at R = 50 %, nm (short-wave / long-wave; – off "
+                                       "the grid): the single 50 % crossing of each transition to a pass band "
+                                       "(docs/methods.md §15); pass ripple: max − min of R in the pass band, the "
+                                       "larger side"
+                                       + ("; * non-monotone transition (R rises again by more than 1 % between "
+                                          "90 % and 10 %), a–b: several crossings, no single edge" if rough else ""))
             ref = float(self.reference.value)
             n_ref = {s: m.index([ref])[0].real for s, m in mats.items()}
             layer_rows = [{"#": i + 1, "material": mats[s].name, "nm": f"{t:.2f}",

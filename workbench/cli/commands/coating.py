@@ -23,15 +23,20 @@ from pathlib import Path
 import numpy as np
 
 from workbench import plots  # its modules (and matplotlib) load on first use, when a figure is drawn
+from workbench.analysis.transition import band_sides
 from workbench.cli.commands._output import FORMATS, notice, render_rows, to_json
 from workbench.errors import InputFileError, RangeCoverageError, WorkbenchError
 from workbench.fileio.atomic import write_bytes_atomically
 from workbench.fileio.layers_csv import read_layer_table
 from workbench.fileio.outdir import OutputFolder
 from workbench.optics.materials import built_in_names, material_named, read_nk_csv
-from workbench.optics.thinfilm import half_points, stack_response, stop_band_edges
+from workbench.optics.thinfilm import half_points, stack_response
 
 HELP = "reflectance and transmittance of a thin-film layer stack, s and p, at several angles"
+
+EDGE_RULE = ("edge of each side of the main reflection band (the run of R >= 50 % with the largest area): the single "
+             "50 % crossing of its transition (R 90 % -> 10 %) to the pass band; a transition with several crossings "
+             "or a rise of R of more than 1 % is non-monotone (docs/methods.md §15, 'Edges and ripple')")
 
 METHOD = ("characteristic-matrix method (H. A. Macleod, Thin-Film Optical Filters, 4th ed., 2010, ch. 2); "
           "R, T fractions 0-1; angles in degrees in the incidence medium")
@@ -154,15 +159,47 @@ def half_points_of(res, wl, ia: int) -> dict:
             for pol, T in curves.items()}
 
 
-def band_edges_of(res, wl, ia: int) -> dict:
-    """The 50 % points bounding the reflection band that holds the peak R, s, p and mean (None off the grid)."""
+def band_sides_of(res, wl, ia: int) -> dict:
+    """Both sides of the main reflection band (:func:`~workbench.analysis.transition.band_sides`) of R_s, R_p and their mean at angle ``ia``."""
     curves = {"s": res.R[0, ia], "p": res.R[1, ia], "mean": res.R_mean[ia]}
+    return {pol: band_sides(wl, R) for pol, R in curves.items()}
+
+
+def band_edges_of(res, wl, ia: int) -> dict:
+    """The band edges for JSON: per polarisation the crossing bounding the band on each side (None off the grid) and each side's transition."""
     out = {}
-    for pol, R in curves.items():
-        short, long_ = stop_band_edges(wl, R)
-        out[pol] = {"short_wave_nm": None if np.isnan(short) else round(short, 4),
-                    "long_wave_nm": None if np.isnan(long_) else round(long_, 4)}
+    for pol, sides in band_sides_of(res, wl, ia).items():
+        out[pol] = {f"{side}_nm": (None if not np.isfinite(t.band_edge_nm) else round(float(t.band_edge_nm), 4))
+                    for side, t in sides.items()}
+        out[pol].update({side: t.to_dict() for side, t in sides.items()})
     return out
+
+
+def _edge_lines(res, wl, angles) -> tuple[list[str], list[str]]:
+    """The table's lines on the band edges and ripples, and the (angle, polarisation, side) not monotone."""
+    lines = ["# main reflection band's edges at R = 50 %, nm, short-wave / long-wave (- off the grid); " + EDGE_RULE + ":"]
+    ripple = ["# ripple, s / p / mean: in the transition (largest rise of R against its fall, R 90 % -> 10 %) and "
+              "in the pass band (max - min of R, peak-to-peak, from one transition width beyond it to the grid's end):"]
+    rough = []
+
+    def pct(v):
+        return "-" if not np.isfinite(v) else f"{v:.1f}"
+
+    for ia, a in enumerate(angles):
+        by = band_sides_of(res, wl, ia)
+        lines.append(f"#   {angle_label(a):>5}°  " + "   ".join(
+            f"{pol} {by[pol]['short_wave'].short_text()} / {by[pol]['long_wave'].short_text()}"
+            for pol in ("s", "p", "mean")))
+        for side in ("short_wave", "long_wave"):
+            ripple.append(f"#   {angle_label(a):>5}° {side.replace('_', '-')} side: transition " + " / ".join(
+                pct(by[pol][side].reversal_pct) for pol in ("s", "p", "mean")) + " %; pass band " + " / ".join(
+                pct(by[pol][side].pass_ripple_pct) for pol in ("s", "p", "mean")) + " %")
+            rough += [f"{angle_label(a)}° {pol} {side.replace('_', '-')}" for pol in ("s", "p", "mean")
+                      if not by[pol][side].problem and not by[pol][side].monotone]
+    if rough:
+        lines.append("#   * non-monotone transition (R rises again by more than 1 % between R 90 % and 10 %); "
+                     "a–b: several 50 % crossings, first and last, no single edge")
+    return lines + ripple, rough
 
 
 def _csv_columns(angles) -> list[str]:
@@ -209,11 +246,18 @@ def run(args) -> int:
         folder._validate()                     # before any computing
     rows, (inc, sub), res, wl, angles = compute(args)
     figures = render_figures(res, args.layers.name) if folder is not None else None
+    if args.format != "csv":
+        edge_lines, rough = _edge_lines(res, wl, angles)
+        if rough:
+            shown = ", ".join(rough[:6]) + (", …" if len(rough) > 6 else "")
+            notice(f"{len(rough)} band edges have a non-monotone transition ({shown}): marked * in the table, "
+                   "'monotone': false in JSON; a crossing of 50 % on a ripple is not an edge")
     if args.format == "csv":
         text = render_rows(_spectral_rows(res, wl, angles), _csv_columns(angles), "csv")
     elif args.format == "json":
         text = to_json({
             "method": METHOD,
+            "edge_rule": EDGE_RULE,
             "layers_file": str(args.layers),
             "layers": [{"line": r.line, "material": r.material.name, "thickness_nm": r.thickness_nm,
                         "source": r.material.source} for r in rows],
@@ -237,17 +281,7 @@ def run(args) -> int:
             f"substrate {sub.name}{' with its back face' if args.back_surface else ''}",
             f"# {METHOD}",
         ]
-        header.append("# reflection band around the peak R, edges at R = 50 %, nm (short-wave / long-wave; "
-                      "- where off the grid):")
-        for ia, a in enumerate(angles):
-            be = band_edges_of(res, wl, ia)
-
-            def fmt(v):
-                return "-" if v is None else f"{v:.1f}"
-
-            header.append(f"#   {angle_label(a):>5}°  " + "   ".join(
-                f"{pol} {fmt(be[pol]['short_wave_nm'])} / {fmt(be[pol]['long_wave_nm'])}"
-                for pol in ("s", "p", "mean")))
+        header += edge_lines
         text = render_rows(_spectral_rows(res, wl, angles), _csv_columns(angles), "table",
                            header_lines=header, digits=4)
     if figures is not None:
