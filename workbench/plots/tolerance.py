@@ -251,11 +251,12 @@ def plot_field_shift(field, *, fig=None):
         ax.grid(alpha=0.3)
         ax.legend(fontsize="x-small", ncol=2)
         sec = ax.secondary_xaxis("top")
-        sec.set_xticks(list(names), [" / ".join(v) for v in names.values()], fontsize="x-small",
-                       rotation=60, ha="left", rotation_mode="anchor")
+        # horizontal names (they are short); the titles below leave ``y`` unset so that matplotlib
+        # places them above this top axis and its labels instead of across them
+        sec.set_xticks(list(names), [" / ".join(v) for v in names.values()], fontsize="x-small")
         sec.tick_params(length=2, pad=1)
-    left.set_title("samples: each against itself at the centre", fontsize="small", y=1.0)
-    right.set_title("perfect diffuser (white) and grey", fontsize="small", y=1.0)
+    left.set_title("samples: each against itself at the centre", fontsize="small")
+    right.set_title("perfect diffuser (white) and grey", fontsize="small")
     fig.suptitle(f"Colour shift across the image ({field.splitter}): white balance and matrix set at the centre",
                  fontsize="medium")
     return fig
