@@ -19,7 +19,7 @@ def test_notebook_runs(path, tmp_path):
     NotebookClient(nb, timeout=300, kernel_name="python3", resources={"metadata": {"path": str(tmp_path)}}).execute()
     outputs = [o for c in nb.cells if c.cell_type == "code" for o in c.get("outputs", [])]
     assert not [o for o in outputs if o.output_type == "error"]
-    assert any("image/png" in o.get("data", {}) for o in outputs)
+    assert any({"image/png", "image/svg+xml"} & set(o.get("data", {})) for o in outputs)
 
 
 def test_there_are_notebooks():

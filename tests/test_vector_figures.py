@@ -546,3 +546,97 @@ class TestPrimitives:
             d = [p.get("d") for p in parse(fig).iter(SVG + "path") if p.get("fill") == "#0f0f0f"][0]
             assert d.count("M") == 2 and d.count("z") == 2, shape
 
+
+
+# --------------------------------------------------------------------------
+# Tolerance figures (workbench.plots.tolerance_vector)
+# --------------------------------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def tolerance_run(demo_design):
+    from workbench.analysis.tolerance import run_tolerance
+
+    return run_tolerance(demo_design, trials=60, seed=3, progress=False)
+
+
+def _no_nan(svg: str) -> None:
+    assert not re.search(r"\b(nan|inf)\b", svg, flags=re.IGNORECASE)
+
+
+class TestHistogramsFigure:
+    def test_series_and_texts(self, tolerance_run):
+        """Six panels: one step outline per illuminant or channel, the nominal and spec lines, titles with units."""
+        from workbench.plots.tolerance_vector import histograms_figure
+
+        r = tolerance_run
+        fig = histograms_figure(r, case="fixed")
+        svg = fig.svg()
+        _no_nan(svg)
+        ts = texts(parse(fig))
+        assert any(t.startswith(f"{r.design.name}: 60 trials (seed 3), matrix fixed; yield ") for t in ts)
+        for label in ("Vora value ν (1, 0-1)", "ΔE00 (CIEDE2000 units)", "noise gain (1, row 2-norm of the matrix)",
+                      "white-balance gain R/G (1, ratio to the green gain)", "trials", "nominal",
+                      f"spec ν ≥ {r.spec.min_vora:g}", f"spec ≤ {r.spec.max_mean_delta_E00:g}",
+                      "display R", "display G", "display B", *r.illuminants):
+            assert label in ts
+        assert len(fig.axes) == 6
+        n_ill = len(r.illuminants)
+        assert [sum(k == "line" for k, *_ in ax.items) for ax in fig.axes] == [1, n_ill, n_ill, n_ill, n_ill, 3]
+
+    def test_recalibrated_case(self, tolerance_run):
+        """The recalibrated case is drawn from its own trials and named in the title."""
+        from workbench.plots.tolerance_vector import histograms_figure
+
+        ts = texts(parse(histograms_figure(tolerance_run, case="recalibrated")))
+        assert any("matrix recalibrated; yield" in t for t in ts)
+
+
+class TestRankingFigure:
+    def test_rows_and_limit(self, tolerance_run):
+        """One named row per parameter, largest first; `top` keeps that many and the title says how many more."""
+        from workbench.plots.tolerance_vector import ranking_figure
+
+        rows = tolerance_run.ranking("fixed")["parameters"]
+        fig = ranking_figure(tolerance_run, case="fixed")
+        svg = fig.svg()
+        _no_nan(svg)
+        ts = texts(parse(fig))
+        names = [t.split("\n")[0] for t in ts if "\n" in t and ("σ =" in t or "±" in t)]
+        assert names == [r["name"] for r in rows]
+        assert "SRC²" in ts and "at nominal − width" in ts and "at nominal + width" in ts
+        assert "change of the worst-illuminant mean ΔE00 from the nominal (ΔE00 units)" in ts
+        one = texts(parse(ranking_figure(tolerance_run, case="fixed", top=1)))
+        assert any(f"top 1 of {len(rows)} parameters by variance share; {len(rows) - 1} more omitted" in t
+                   for t in one)
+
+
+class TestFieldShiftFigure:
+    def test_positions_and_series(self, tolerance_run):
+        """Both panels name every field position and hold a solid and a dashed line per illuminant."""
+        from workbench.plots.tolerance_vector import field_shift_figure
+
+        field = tolerance_run.field
+        fig = field_shift_figure(field)
+        svg = fig.svg()
+        _no_nan(svg)
+        ts = texts(parse(fig))
+        for p in field.positions:
+            assert ts.count(p.name) == 2
+        assert ts.count("angle offset of the chief ray on both splitter faces (degrees, in glass)") == 2
+        for ill in field.illuminants:
+            assert f"{ill}: mean" in ts and f"{ill}: max" in ts and f"{ill}: white" in ts
+        for ax in fig.axes:
+            assert sum(k == "line" for k, *_ in ax.items) == 2 * len(field.illuminants)
+
+
+class TestTolerancePlotsWithoutMatplotlib:
+    def test_no_matplotlib_import(self):
+        """Importing the tolerance panel and its figures imports no matplotlib (a fresh interpreter)."""
+        import subprocess
+        import sys
+
+        code = ("import sys, workbench.widgets.tolerance, workbench.plots.tolerance_vector; "
+                "print(any(m == 'matplotlib' or m.startswith('matplotlib.') for m in sys.modules))")
+        out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+        assert out.strip() == "False"

@@ -4,7 +4,10 @@ Every function builds its own :class:`matplotlib.figure.Figure` (no pyplot
 state, any backend), returns it and never shows it. Axes carry quantity,
 unit and method; titles name the matrix case. Inputs are
 :class:`workbench.analysis.tolerance.ToleranceResult` and
-:class:`workbench.analysis.tolerance.FieldShift` values.
+:class:`workbench.analysis.tolerance.FieldShift` values. ``workbench
+tolerance --plots`` writes these as PNG files; the notebook and the
+tolerance panel show the same figures drawn as SVG by
+:mod:`workbench.plots.tolerance_vector` (no matplotlib import).
 """
 
 from __future__ import annotations
@@ -14,8 +17,9 @@ import math
 import numpy as np
 
 from workbench.plots._canvas import new_figure, place_axes
+from workbench.plots.tolerance_vector import RANKING_TOP, histogram_bins
 
-__all__ = ["plot_histograms", "plot_ranking", "plot_field_shift"]
+__all__ = ["plot_histograms", "plot_ranking", "plot_field_shift", "RANKING_TOP"]
 
 _CHANNELS = ("R", "G", "B")
 _CH_COLOURS = ("tab:red", "tab:green", "tab:blue")
@@ -26,20 +30,9 @@ def _figure(width: float, height: float, fig=None):
     return new_figure(width, height, fig, layout="constrained")
 
 
-def _bins(x, n_max=40):
-    x = np.asarray(x, dtype=float)
-    x = x[np.isfinite(x)]
-    if x.size == 0:
-        return 10
-    lo, hi = float(x.min()), float(x.max())
-    if hi - lo <= 1e-12 * max(1.0, abs(hi)):
-        return np.array([lo - 0.5e-3 * max(1.0, abs(lo)), hi + 0.5e-3 * max(1.0, abs(hi))])
-    return int(min(n_max, max(10, round(math.sqrt(x.size)))))
-
-
 def _hist(ax, x, **kw):
     x = np.asarray(x, dtype=float)
-    ax.hist(x, bins=_bins(x), histtype="step", lw=1.5, **kw)
+    ax.hist(x, bins=histogram_bins(x), histtype="step", lw=1.5, **kw)
 
 
 def _constant_note(ax, values):
@@ -126,10 +119,6 @@ def plot_histograms(result, *, case: str | None = None, fig=None):
         f"and ν ≥ {spec.min_vora:g}" + (" — interrupted" if result.interrupted else ""),
         fontsize="medium")
     return fig
-
-
-#: The most parameters the ranking figure shows (the largest variance shares); the JSON/CSV keep all.
-RANKING_TOP = 25
 
 
 def plot_ranking(result, *, case: str | None = None, response: str = "worst_mean_delta_E00", fig=None,

@@ -366,6 +366,7 @@ class Axes:
         self.grid_axes = "xy"
         self.custom_xticks: tuple | None = None
         self.tick_labels_x = True
+        self.tick_labels_y = True  # False: no y ticks nor their labels (rows named by annotations instead)
         self.colorbar_spec: dict | None = None
         self.limits: tuple | None = None  # ((x0, x1), (y0, y1)) once resolved
 
@@ -590,6 +591,8 @@ class Axes:
         out = [f'<rect x="{_n(left)}" y="{_n(top)}" width="{_n(w)}" height="{_n(h)}" fill="#ffffff"/>']
         xt, xl = self.ticks(0)
         yt, yl = self.ticks(1)
+        if not self.tick_labels_y:
+            yt, yl = yt[:0], []
         grid = []
         if "x" in self.grid_axes and self.custom_xticks is None:
             grid += [f"M{_n(p)},{_n(top)}V{_n(bottom)}" for p in self.px(xt).tolist()]

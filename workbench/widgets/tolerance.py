@@ -1,9 +1,9 @@
 """A small notebook panel for the tolerance analysis: trials, seed, matrix case, a Run button.
 
 The panel only wires controls to :func:`workbench.analysis.tolerance.run_tolerance`
-and the figures of :mod:`workbench.plots.tolerance`; the progress bar
-(tqdm), the summary and the figures (PNG, inline) appear in one
-``widgets.Output``. A bad input shows as one line, ``error: …``, under the
+and the SVG figures of :mod:`workbench.plots.tolerance_vector` (no
+matplotlib); the progress bar (tqdm), the summary and the figures appear
+in one ``widgets.Output``. A bad input shows as one line, ``error: …``, under the
 controls; interrupting the kernel keeps the finished trials.
 
 >>> from workbench.widgets.tolerance import TolerancePanel   # doctest: +SKIP
@@ -13,26 +13,19 @@ controls; interrupting the kernel keeps the finished trials.
 from __future__ import annotations
 
 import html
-import io
 from pathlib import Path
 
 import ipywidgets as widgets
-from IPython.display import HTML, Image, display
+from IPython.display import HTML, display
 
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.tolerance import MATRIX_CHOICES, run_tolerance
 from workbench.errors import WorkbenchError
 from workbench.fileio.design_toml import load_design
 from workbench.model.design import Design
-from workbench.plots.tolerance import plot_histograms, plot_ranking
+from workbench.plots.tolerance_vector import histograms_figure, ranking_figure
 
 __all__ = ["TolerancePanel", "tolerance_panel"]
-
-
-def _png(fig):
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=90)
-    return Image(data=buf.getvalue(), format="png")
 
 
 class TolerancePanel:
@@ -94,8 +87,8 @@ class TolerancePanel:
                 self.result = r
                 display(HTML(r._repr_html_()))
                 for case in r.cases:
-                    display(_png(plot_histograms(r, case=case)))
-                display(_png(plot_ranking(r)))
+                    display(histograms_figure(r, case=case))
+                display(ranking_figure(r))
             note = f" (interrupted: {r.trials} of {r.trials_requested} trials)" if r.interrupted else ""
             self.status.value = f"{r.trials} trials in {r.seconds:.1f} s{note}"
         except WorkbenchError as err:
