@@ -9,6 +9,7 @@ import pytest
 
 from workbench.analysis.transition import stop_band_edges
 from workbench.errors import WorkbenchError
+from workbench.optics.lossless_stack import lossless_derivatives
 from workbench.optics.thinfilm import (
     half_points,
     normal_component,
@@ -330,6 +331,60 @@ class TestStackResponse:
         with pytest.raises(WorkbenchError) as err:
             stack_response([[2.0]], [100.0], [550.0], 0.0, incident=1.5 + 0.01j)
         assert str(err.value) == "'incident' must be lossless (k = 0) (got an absorbing medium)"
+
+
+class TestLosslessDerivatives:
+    @pytest.mark.parametrize("incident, substrate, back_surface", [
+        (1.0, N_GLASS, False), (N_GLASS, N_GLASS, True), (N_GLASS, 1.0, False), (1.0, 1.6 + 0.2j, False)])
+    def test_match_finite_differences(self, incident, substrate, back_surface):
+        """Lossless layers (the real-arithmetic path): ∂R/∂d, ∂T/∂d agree with central differences, s and p."""
+        rng = np.random.default_rng(21)
+        L = 11
+        wl, ang = np.array([410.0, 520.0, 640.0, 760.0]), np.array([0.0, 25.0, 45.0, 60.0])
+        n = rng.uniform(1.46, 2.4, (L, 1)) + 0.02 * (550.0 / wl) ** 2            # dispersive, lossless
+        d = rng.uniform(30, 250, L)
+        kw = dict(incident=incident, substrate=substrate, back_surface=back_surface)
+        res = stack_response(n, d, wl, ang, derivatives=True, **kw)
+        h = 1e-4
+        for j in range(L):
+            up, down = d.copy(), d.copy()
+            up[j] += h
+            down[j] -= h
+            ru, rd = stack_response(n, up, wl, ang, **kw), stack_response(n, down, wl, ang, **kw)
+            # common practice: central difference, error O(h²)
+            np.testing.assert_allclose(res.dR_dd[j], (ru.R - rd.R) / (2 * h), atol=1e-9)
+            np.testing.assert_allclose(res.dT_dd[j], (ru.T - rd.T) / (2 * h), atol=1e-9)
+
+    @pytest.mark.parametrize("n_shape, d_shape", [((), ()), ((), (3,)), ((2, 1), (2, 3)), ((5,), (5,))])
+    @pytest.mark.parametrize("incident, substrate", [(1.0, N_GLASS), (N_GLASS, 1.0)])
+    def test_match_the_complex_path(self, n_shape, d_shape, incident, substrate):
+        """R, T and derivatives equal the complex path's to 5e-13 of the largest, for the callers' batch shapes."""
+        rng = np.random.default_rng(5)
+        L = 40
+        wl, ang = np.linspace(380.0, 780.0, 81), np.linspace(0.0, 30.0, 7)
+        n = np.where(np.arange(L) % 2 == 0, 2.35, 1.46)[:, None] + rng.uniform(0, 0.05, n_shape + (L, 1))
+        d = rng.uniform(40, 120, d_shape + (L,))
+        kw = dict(incident=incident, substrate=substrate)
+        fast = stack_response(n, d, wl, ang, derivatives=True, **kw)
+        # an absorption of 1e-300 sends the stack down the complex path and moves nothing by an ulp
+        slow = stack_response(n + 1e-300j, d, wl, ang, derivatives=True, **kw)
+        for a, b in ((fast.R, slow.R), (fast.T, slow.T), (fast.dR_dd, slow.dR_dd), (fast.dT_dd, slow.dT_dd)):
+            assert a.shape == b.shape
+            # rounding of 40 layers' products: up to 2e-13 of the largest derivative (a few per nm when resonant)
+            np.testing.assert_allclose(a, b, rtol=0, atol=5e-13 * max(1.0, np.abs(b).max()))
+
+    def test_falls_back_for_absorbing_or_evanescent_layers(self):
+        """An absorbing layer, or one whose wave is evanescent (1.38 at 70° from glass), gives None."""
+        wl = np.array([500.0, 600.0])
+        beta2 = (N_GLASS * np.sin(np.radians([[0.0], [70.0]]))) ** 2 * np.ones((2, 2))
+        q0 = np.sqrt(N_GLASS**2 - beta2)
+        eta0 = np.stack([q0, N_GLASS**2 / q0])
+        eta_s = eta0.astype(complex)
+        d = np.array([100.0, 80.0])                                          # layer axis first, as the indices
+        lossless = np.array([[2.35, 2.35], [1.46, 1.46]])
+        assert lossless_derivatives(lossless, d, wl, beta2[:1], eta0[:, :1], eta_s[:, :1]) is not None
+        assert lossless_derivatives(lossless + [[0.0], [1e-3j]], d, wl, beta2, eta0, eta_s) is None
+        assert lossless_derivatives(np.array([[2.35, 2.35], [1.38, 1.38]]), d, wl, beta2, eta0, eta_s) is None
 
 
 class TestNormalComponent:

@@ -8,7 +8,10 @@ glass 1.52) × s and p, onto glass 1.52.
 
 * workbench ``stack_response`` (R and T; and with all 40 thickness derivatives),
 * the same for a periodic stack of 41 layers, (0.5L H 0.5L)^20 at one
-  reference wavelength (its repeated block raised to its power),
+  reference wavelength (its repeated block raised to its power), and with
+  its 41 derivatives (a recipe refinement's call),
+* the 40-layer stack with derivatives when its layers absorb a little
+  (k = 1e-4: the complex path),
 * the same per stack inside a batch of 100 stacks,
 * colour-science 0.4.7 ``colour.phenomena.multilayer_tmm`` (one call, both
   polarisations),
@@ -69,6 +72,10 @@ def main() -> None:
     d_per[[0, -1]] /= 2.0
     N_per = np.broadcast_to(n_per[:, None], (41, wl.size))
     periodic = timings(lambda: stack_response(N_per, d_per, wl, angles, **kw), args.repeats)
+    periodic_d = timings(lambda: stack_response(N_per, d_per, wl, angles, derivatives=True, **kw),
+                         max(5, args.repeats // 5))
+    N_abs = N + 1e-4j
+    absorbing_d = timings(lambda: stack_response(N_abs, d, wl, angles, derivatives=True, **kw), max(5, args.repeats // 5))
     dB = rng.uniform(40, 120, (100, L))
     batch = timings(lambda: stack_response(N, dB, wl, angles, **kw), max(3, args.repeats // 10))
     ref = timings(lambda: colour.phenomena.multilayer_tmm([1.52, *n, 1.52], d, wl, angles), max(3, args.repeats // 5))
@@ -95,6 +102,8 @@ def main() -> None:
     print(f"  workbench with {L} derivatives     {ours_d[0] * 1e3:8.3f} / {ours_d[1] * 1e3:8.3f} ms")
     print(f"  workbench, per stack in 100       {batch[0] * 10:8.3f} / {batch[1] * 10:8.3f} ms")
     print(f"  workbench, periodic 41 layers     {periodic[0] * 1e3:8.3f} / {periodic[1] * 1e3:8.3f} ms")
+    print(f"  workbench, periodic, derivatives  {periodic_d[0] * 1e3:8.3f} / {periodic_d[1] * 1e3:8.3f} ms")
+    print(f"  workbench, absorbing, derivatives {absorbing_d[0] * 1e3:8.3f} / {absorbing_d[1] * 1e3:8.3f} ms")
     print(f"  colour.phenomena.multilayer_tmm   {ref[0] * 1e3:8.3f} / {ref[1] * 1e3:8.3f} ms")
     print(f"  loop over tmm.coh_tmm             {loop[0] * 1e3:8.1f} ms")
     print(f"  ratio colour / workbench          {ref[0] / ours[0]:8.1f} x")

@@ -1,9 +1,9 @@
 """Lossless thin-film stacks in real arithmetic: the fast paths of the characteristic-matrix engine.
 
 :func:`workbench.optics.thinfilm.stack_response` comes here when every
-layer is lossless and the wave propagates in every layer, and no
-derivatives are asked for; this module also holds the scratch buffers and
-phase factors the engine shares.
+layer is lossless and the wave propagates in every layer (with thickness
+derivatives: :func:`lossless_derivatives`); this module also holds the
+scratch buffers and phase factors the engine shares.
 
 With real phase thickness ``δ`` and tilted admittance ``η`` a layer's
 characteristic matrix is ``[[cos δ, −i sin δ / η], [−i η sin δ, cos δ]]``.
@@ -39,7 +39,7 @@ import threading
 
 import numpy as np
 
-__all__ = ["lossless_response", "lossless_one_change", "scratch_arrays", "cos_sin"]
+__all__ = ["lossless_response", "lossless_one_change", "lossless_derivatives", "scratch_arrays", "cos_sin"]
 
 _TWO_PI = 2.0 * np.pi
 _LOCAL = threading.local()
@@ -438,3 +438,118 @@ def _columns(E, which, a, s, eta_s, slot):
         np.multiply(V[j], a[j, 0], out=V[j - 1])
         V[j - 1] += t
     return V
+
+
+def lossless_derivatives(Nt, dt, wl, beta2, eta0, eta_s):
+    """R, T and their thickness derivatives of lossless, propagating stacks in real arithmetic; None otherwise.
+
+    One pass from the substrate stores the vectors ``v_j = M_{j+1} … M_L
+    [1, η_sub]`` as ``(Re B, Im B, Re C, Im C)``; with ``Z± = [η₀, ±1] M₁ …
+    M_L [1, η_sub]`` (so ``R = |Z₋|²/|Z₊|²``, ``T = 4 η₀ Re η_sub / |Z₊|²``)
+    one pass from the incidence side carries the row vector
+    ``g = conj(Z₋) [η₀, −1] − R conj(Z₊) [η₀, 1]`` through ``M₁ … M_{j−1}``.
+    With ``x_j = (∂M_j/∂δ_j) v_j = −sin δ v_j + cos δ (E ⊙ reversed(v_j))``
+    and ``k_j = ∂δ_j/∂d_j = 2π q_j/λ``:
+    ``∂R/∂d_j = 2 k_j Re(g_j·x_j) / |Z₊|²``. No layer absorbs, so
+    ``R + T = 1`` (``T = 0`` and ``R = 1`` when the substrate's wave is
+    evanescent) and ``∂T/∂d_j = −∂R/∂d_j``. The matrices of lossless layers
+    have real diagonals and imaginary off-diagonals, so every product is
+    carried as real arrays (no complex temporaries).
+
+    Parameters
+    ----------
+    Nt : (L, ..., n_λ) ndarray
+        Layer indices, layer axis first.
+    dt : (L, ...) ndarray, nm
+        Thicknesses, layer axis first (same number of batch axes as ``Nt``).
+    wl, beta2, eta0, eta_s
+        As for :func:`lossless_response`.
+
+    Returns
+    -------
+    (R, T, dR, dT) with R, T shaped (..., 2, n_a, n_λ) and dR, dT shaped
+    (..., L, 2, n_a, n_λ) (1/nm), or None when a layer absorbs or carries an
+    evanescent wave (the complex path applies).
+
+    References
+    ----------
+    H. A. Macleod, *Thin-Film Optical Filters*, 4th ed., CRC Press, 2010,
+    chapter 2 (characteristic matrix, tilted admittances).
+    """
+    if np.iscomplexobj(Nt):
+        if np.any(Nt.imag):
+            return None
+        Nt = Nt.real
+    L = Nt.shape[0]
+    if math.prod(Nt.shape[1:-1]) == 1:
+        first, which = _distinct_rows(Nt.reshape(L, Nt.shape[-1]))
+        U = Nt[first]
+    else:
+        U, which = Nt, np.arange(L)
+    U2 = U * U
+    arg = U2[..., None, :] - beta2                                     # (M, ..., A, W)
+    if not np.all(arg > 0):
+        return None
+    q = np.sqrt(arg)
+    eta = np.empty(q.shape[:-2] + (2,) + q.shape[-2:])                 # (M, ..., 2, A, W)
+    eta[..., 0, :, :] = q
+    np.divide(U2[..., None, :], q, out=eta[..., 1, :, :])
+    E = np.empty((eta.shape[0], 4) + eta.shape[1:])                    # (M, 4, ..., 2, A, W): (1/η, −1/η, η, −η)
+    E[:, 2] = eta
+    np.divide(1.0, eta, out=E[:, 0])
+    np.negative(E[:, 0], out=E[:, 1])
+    np.negative(E[:, 2], out=E[:, 3])
+    E_row = E[:, [2, 3, 0, 1]]                                         # (η, −η, 1/η, −1/η) for row vectors
+    k = ((_TWO_PI / wl) * q)[which]                                    # rad/nm, (L, ..., A, W)
+    delta = k * dt.reshape(dt.shape + (1, 1))
+    cd, sd = cos_sin(delta)
+    a = cd[..., None, :, :]                                            # (L, ..., 1, A, W)
+    s = sd[..., None, :, :]
+    shape = np.broadcast_shapes(E.shape[2:], a.shape[1:])              # (..., 2, A, W)
+    V, P, G = scratch_arrays((L, 4) + shape, 3, slot="derivative", dtype=float)
+    t = np.empty((4,) + shape)
+    # v_j from the substrate, and P_j = E_j ⊙ reversed(v_j): v_{j−1} = cos δ_j v_j + sin δ_j P_j
+    V[L - 1, 0] = 1.0
+    V[L - 1, 1] = 0.0
+    V[L - 1, 2] = eta_s.real
+    V[L - 1, 3] = eta_s.imag
+    for j in range(L - 1, -1, -1):
+        np.multiply(V[j, ::-1], E[which[j]], out=P[j])
+        if j:
+            np.multiply(P[j], s[j], out=t)
+            np.multiply(V[j], a[j], out=V[j - 1])
+            V[j - 1] += t
+    Br, Bi, Cr, Ci = V[0] * a[0] + s[0] * P[0]                         # [B, C] = M₁ v₁
+    eBr = eta0 * Br
+    eBi = eta0 * Bi
+    Zpr, Zpi, Zmr, Zmi = eBr + Cr, eBi + Ci, eBr - Cr, eBi - Ci
+    Y2 = Zpr * Zpr
+    Y2 += Zpi * Zpi
+    R = Zmr * Zmr
+    R += Zmi * Zmi
+    R /= Y2
+    T = (4.0 * eta0 * eta_s.real) / Y2
+    # the row vector g (Re a, Im a, Re b, Im b), then g_{j+1} = g_j M_j
+    RZpr, RZpi = R * Zpr, R * Zpi
+    G[0, 0] = eta0 * (Zmr - RZpr)
+    G[0, 1] = eta0 * (RZpi - Zmi)
+    G[0, 2] = -(Zmr + RZpr)
+    G[0, 3] = Zmi + RZpi
+    for j in range(L - 1):
+        np.multiply(G[j, ::-1], E_row[which[j]], out=t)
+        t *= s[j]
+        np.multiply(G[j], a[j], out=G[j + 1])
+        G[j + 1] += t
+    # x_j = (∂M_j/∂δ_j) v_j = cos δ_j P_j − sin δ_j v_j, into P
+    P *= a[:, None]
+    V *= s[:, None]
+    P -= V
+    # Re(g·x) = Re a Re x_B − Im a Im x_B + Re b Re x_C − Im b Im x_C
+    G *= P
+    dR = G[:, 0] - G[:, 1]
+    dR += G[:, 2]
+    dR -= G[:, 3]
+    dR *= k[..., None, :, :]
+    dR *= 2.0 / Y2                                                     # (L, ..., 2, A, W), 1/nm
+    dR = np.moveaxis(dR, 0, -4)
+    return R, T, dR, -dR

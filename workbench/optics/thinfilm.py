@@ -8,12 +8,13 @@ with respect to every layer thickness. It is vectorised over wavelengths ×
 angles × polarisations × any number of stacks at once (leading batch axes):
 the only Python loop runs over the layers.
 
-The general complex path, the incoherent back surface and the analytic
-thickness derivatives are here; lossless stacks without derivatives (and
-batches whose rows each change one layer of a base stack) go to the
-real-arithmetic paths of :mod:`workbench.optics.lossless_stack` (same
-conventions, checked against the same references), which also holds the
-scratch buffers and phase factors both share.
+The general complex path (with its analytic thickness derivatives) and the
+incoherent back surface are here; lossless stacks, with or without
+derivatives (and batches whose rows each change one layer of a base stack),
+go to the real-arithmetic paths of :mod:`workbench.optics.lossless_stack`
+(same conventions, checked against the same references and against the
+complex path), which also holds the scratch buffers and phase factors both
+share.
 
 Conventions
 -----------
@@ -45,7 +46,9 @@ Derivatives
 ``∂R/∂d_j`` and ``∂T/∂d_j`` (per nm) come from one backward pass (the
 vectors ``v_j = M_{j+1} … M_L [1, η_sub]ᵀ``) and one forward pass carrying
 two row vectors (adjoints of r and Y), so every thickness derivative costs
-about as much as three evaluations in all, not one per layer.
+about as much as three evaluations in all, not one per layer. Lossless
+stacks need one row vector (``∂T = −∂R``) in real arithmetic
+(:func:`workbench.optics.lossless_stack.lossless_derivatives`).
 
 Back surface
 ------------
@@ -71,7 +74,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from workbench.errors import WorkbenchError
-from workbench.optics.lossless_stack import cos_sin, lossless_one_change, lossless_response, scratch_arrays
+from workbench.optics.lossless_stack import (cos_sin, lossless_derivatives, lossless_one_change, lossless_response,
+                                             scratch_arrays)
 
 __all__ = [
     "StackResponse",
@@ -396,58 +400,26 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     # Layer axis first internally so that each layer's slice is contiguous.
     Nt = np.moveaxis(N, -2, 0)                                         # (L, ..., W)
     dt = np.moveaxis(d, -1, 0)                                         # (L, ...)
-    if not derivatives:
-        fast = lossless_response(Nt, dt, wl, beta2, eta0, eta_s)
-        if fast is not None:
-            return fast
+    fast = (lossless_derivatives if derivatives else lossless_response)(Nt, dt, wl, beta2, eta0, eta_s)
+    if fast is not None:
+        return fast
+    # an absorbing layer or an evanescent wave somewhere: complex arithmetic
     N2 = Nt * Nt
-    real_path = not np.any(N2.imag)
-    if real_path:
-        # lossless and propagating everywhere: real arithmetic in reused buffers
-        arg_shape = np.broadcast_shapes(N2.shape[:-1] + (1, N2.shape[-1]), beta2.shape)
-        (arg,) = scratch_arrays(arg_shape, 1, slot="normal", dtype=float)   # (L, ..., A, W)
-        np.subtract(N2.real[..., None, :], beta2, out=arg)
-        real_path = bool(np.all(arg > 0))
-    if real_path:
-        q = np.sqrt(arg, out=arg)
-        N2 = N2.real
-    else:
-        q = normal_component(N2[..., None, :] - beta2)
+    q = normal_component(N2[..., None, :] - beta2)
     qe = q[..., None, :, :]                                            # (L, ..., 1, A, W)
-    eta_shape = qe.shape[:-3] + (2,) + qe.shape[-2:]
-    if real_path:
-        (eta,) = scratch_arrays(eta_shape, 1, slot="admittance", dtype=float)
-    else:
-        eta = np.empty(eta_shape, dtype=complex)
+    eta = np.empty(qe.shape[:-3] + (2,) + qe.shape[-2:], dtype=complex)
     eta[..., 0, :, :] = q
     np.divide(N2[..., None, :], q, out=eta[..., 1, :, :])
-    if real_path:
-        (k,) = scratch_arrays(qe.shape, 1, slot="wavenumber", dtype=float)
-        np.multiply(_TWO_PI / wl, qe, out=k)                           # rad/nm
-        d_e = dt.reshape(dt.shape + (1, 1, 1))
-        (delta,) = scratch_arrays(np.broadcast_shapes(k.shape, d_e.shape), 1, slot="phase-thickness", dtype=float)
-        np.multiply(k, d_e, out=delta)
-    else:
-        k = (_TWO_PI / wl) * qe                                        # rad/nm
-        delta = k * dt.reshape(dt.shape + (1, 1, 1))
+    k = (_TWO_PI / wl) * qe                                            # rad/nm
+    delta = k * dt.reshape(dt.shape + (1, 1, 1))
     cd, sd = cos_sin(delta)
     L = dt.shape[0]
     batch = np.broadcast_shapes(eta.shape[1:-3], delta.shape[1:-3])
     shape = (L,) + batch + eta.shape[-3:]
     a, b, c = scratch_arrays(shape, 3)
     a[...] = cd
-    if real_path:
-        # b = −i sin δ / η, c = −i η sin δ are purely imaginary: fill the
-        # imaginary parts (a real × complex-scalar product is a slow cast).
-        b.real = 0.0
-        c.real = 0.0
-        np.divide(sd, eta, out=b.imag)
-        np.multiply(sd, eta, out=c.imag)
-        np.negative(b.imag, out=b.imag)
-        np.negative(c.imag, out=c.imag)
-    else:
-        b[...] = (-1j * sd) / eta
-        c[...] = (-1j * sd) * eta
+    b[...] = (-1j * sd) / eta
+    c[...] = (-1j * sd) * eta
     B = np.ones(shape[1:], dtype=complex)
     C = np.empty(shape[1:], dtype=complex)
     C[...] = eta_s
@@ -467,8 +439,7 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     if not derivatives:
         return R, T, None, None
     # Adjoint row vectors: dr = u·d[B, C], dY = w·d[B, C]. With
-    # x_j = (∂M_j/∂δ_j) v_j:  ∂r/∂d_j = k_j u_j·x_j, k_j = ∂δ_j/∂d_j = 2π q_j/λ
-    # (real on the lossless path, applied after taking real parts).
+    # x_j = (∂M_j/∂δ_j) v_j:  ∂r/∂d_j = k_j u_j·x_j, k_j = ∂δ_j/∂d_j = 2π q_j/λ.
     u0 = eta0 * (1.0 - r) / Y
     u1 = -(1.0 + r) / Y
     w0 = np.empty_like(B)
@@ -500,15 +471,10 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
         w0, w1 = w0 * a_j + w1 * c_j, w0 * b_j + w1 * a_j
     dr *= np.conj(r)
     dY /= Y
-    kk = k if np.isrealobj(k) else None
-    if kk is not None:
-        dR = dr.real * (2.0 * kk)
-        dT = dY.real * (-2.0 * kk)
-    else:
-        dr *= k
-        dY *= k
-        dR = 2.0 * dr.real
-        dT = -2.0 * dY.real
+    dr *= k
+    dY *= k
+    dR = 2.0 * dr.real
+    dT = -2.0 * dY.real
     dT *= T
     # layer axis just before the polarisation axis
     return R, T, np.moveaxis(dR, 0, -4), np.moveaxis(dT, 0, -4)
