@@ -112,6 +112,7 @@ def plot_histograms(result, *, case: str | None = None, fig=None):
     for ax in axes.ravel():
         ax.set_ylabel("trials")
         ax.grid(alpha=0.3)
+        ax.set_ylim(0, ax.get_ylim()[1] * 1.4)  # room above the tallest bin, so the legend covers no data
     y = result.yield_fraction(case)
     fig.suptitle(
         f"{result.design.name}: {result.trials} trials (seed {result.seed}), matrix {case}; "
