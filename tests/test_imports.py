@@ -102,6 +102,18 @@ class TestImportedModules:
         assert "ipywidgets" in names and "workbench.plots.vector" in names
         assert heavy(names, ("matplotlib", "colour", "pandas", "dask", "scipy.optimize", "scipy.stats")) == []
 
+    @pytest.mark.slow  # imports ipywidgets in a fresh interpreter and computes a stack
+    def test_coating_panel_module(self):
+        """The coating panel up to its first figure imports no matplotlib, scipy.optimize, scipy.stats, colour, pandas or dask."""
+        code = ("from workbench.widgets.coating import coating_panel; "
+                "p = coating_panel(angles='0, 30, 45'); assert p.svg() and not p.status.text")
+        proc = subprocess.run([sys.executable, "-X", "importtime", "-c", code],
+                              cwd=ROOT, capture_output=True, text=True, timeout=300)
+        assert proc.returncode == 0, proc.stderr[-2000:]
+        names = [line.split("|")[-1].strip() for line in proc.stderr.splitlines() if line.startswith("import time:")]
+        assert "ipywidgets" in names and "workbench.plots.coating_vector" in names
+        assert heavy(names, ("matplotlib", "colour", "pandas", "dask", "scipy.optimize", "scipy.stats")) == []
+
     @pytest.mark.slow  # imports the heavy libraries in a fresh interpreter
     def test_detects_heavy(self):
         """The check itself: a process that imports pandas is caught (so the tests above can fail)."""

@@ -8,16 +8,33 @@ import pytest
 from workbench.analysis.transition import stop_band_edges
 from workbench.optics.thinfilm import stack_response
 from workbench.widgets.coating import CoatingPanel, parse_material_symbols
-from workbench.widgets.common import output_png
+from workbench.widgets.common import output_svg
 
 
 class TestCoatingPanel:
     def test_builds_and_draws(self):
-        """The default panel computes a response and shows a figure and the recipe table."""
+        """The default panel computes a response and shows an SVG figure and the recipe table."""
         panel = CoatingPanel()
         assert panel.status.text == ""
-        assert output_png(panel.figure)[:8] == b"\x89PNG\r\n\x1a\n"
+        svg = output_svg(panel.figure)
+        assert svg.startswith('<svg xmlns="http://www.w3.org/2000/svg"') and svg == panel.svg()
+        assert "transmittance T at each angle" in svg and "45°, mean of s and p" in svg
         assert "QWOT" in panel.recipe.value and panel.response.R.shape[:2] == (2, 3)
+
+    def test_quantity_redraws(self):
+        """Switching to R redraws the figure as reflectance; snapshot() holds the same picture."""
+        panel = CoatingPanel()
+        panel.quantity.value = "R"
+        assert "reflectance R at each angle" in panel.svg() and "transmittance T at each" not in panel.svg()
+        assert panel.snapshot().data.strip() == panel.svg().strip()
+
+    def test_figure_marks_the_table_edges(self):
+        """The figure marks the edge table's crossings: a rippled transition hollow, with the legend's note."""
+        panel = CoatingPanel(layers="(0.5L H 0.5L)^20", materials="H=2.35, L=1.46", reference_nm=500.0,
+                             incident="1.52", substrate="1.52", angles="0")
+        side = panel.edges[0][1]["mean"]["long_wave"]
+        assert not side.monotone
+        assert 'fill="#ffffff"' in panel.svg() and "(hollow: not monotone)" in panel.svg()
 
     def test_plain_indices_match_engine(self):
         """With plain indices the panel's R equals the engine's for the same quarter-wave stack."""

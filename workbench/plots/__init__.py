@@ -1,5 +1,5 @@
 """Figures, one module per subject. This package's ``__init__`` imports no matplotlib; its modules do,
-except ``vector`` and ``fit_vector``.
+except ``vector``, ``fit_vector`` and ``coating_vector``.
 
 Every plot function takes ``ax=None`` (or ``fig=None``), returns the axes or
 figure, never calls ``show()``, and labels each axis with its quantity, unit
@@ -13,8 +13,8 @@ never pyplot (:mod:`workbench.plots._canvas`); a notebook shows one with
 import importlib
 
 #: The plot modules; each is imported on first use as ``workbench.plots.NAME``.
-MODULES = ("chain", "chromaticity", "coating", "fit", "fit_vector", "images", "light", "near_infrared", "spectra",
-           "tolerance", "vector")
+MODULES = ("chain", "chromaticity", "coating", "coating_vector", "fit", "fit_vector", "images", "light",
+           "near_infrared", "spectra", "tolerance", "vector")
 
 
 def __getattr__(name: str):

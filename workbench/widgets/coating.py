@@ -1,12 +1,14 @@
 """A notebook panel to edit a thin-film stack and see R and T at several angles and polarisations live.
 
 The panel wires ipywidgets controls to :func:`workbench.optics.stacks.parse_layer_formula`,
-:func:`workbench.optics.thinfilm.stack_response` and the figures of
-:mod:`workbench.plots.coating`. The stack is a layer formula over material
+:func:`workbench.optics.thinfilm.stack_response` and the figure of
+:mod:`workbench.plots.coating_vector`. The stack is a layer formula over material
 symbols (``(0.5L H 0.5L)^10`` with ``H=TiO2, L=SiO2``, QWOTs at the
 reference wavelength); a slider scales every thickness (a systematic
-thickness error, or a quick shift of the whole design). Figures are PNG
-images in ``ipywidgets.Output`` widgets; a bad entry shows as one line,
+thickness error, or a quick shift of the whole design). The figure is SVG
+drawn by the package's own plotter (:mod:`workbench.plots.vector`, no
+matplotlib: the panel's first figure does not wait for matplotlib's
+import) in an ``ipywidgets.Output`` widget; a bad entry shows as one line,
 ``error: …``, never a traceback.
 
 >>> from workbench.widgets.coating import CoatingPanel   # doctest: +SKIP
@@ -15,22 +17,21 @@ images in ``ipywidgets.Output`` widgets; a bad entry shows as one line,
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import ipywidgets as W
 import numpy as np
+from IPython.display import SVG
 
+from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.transition import band_sides
 from workbench.errors import WorkbenchError
-from workbench.optics.materials import material_named
-from workbench.optics.stacks import parse_layer_formula, physical_thicknesses, resolve_materials
-from workbench.optics.thinfilm import stack_response
-from workbench.plots._canvas import png_bytes
-from workbench.plots.coating import plot_stack_angles
-from workbench.widgets.common import ErrorLine, guard, html_table, show_png
-from pathlib import Path
-from workbench.analysis.evaluator import DesignEvaluator
 from workbench.fileio.design_toml import load_design
-from workbench.analysis.recipe import measures_with_curves
-from workbench.optics.stacks import cone_response
+from workbench.optics.materials import material_named
+from workbench.optics.stacks import cone_response, parse_layer_formula, physical_thicknesses, resolve_materials
+from workbench.optics.thinfilm import stack_response
+from workbench.plots.coating_vector import stack_angles_figure
+from workbench.widgets.common import ErrorLine, guard, html_table, output_svg, show_svg
 
 __all__ = ["CoatingPanel", "coating_panel", "parse_material_symbols"]
 
@@ -119,7 +120,6 @@ class CoatingPanel(W.VBox):
         self.recipe = W.HTML()
         self.response = None
         self.edges = []
-        self._fig = None
         self.camera = W.HTML()
         self.measures = None
         self._evaluator = None
@@ -180,8 +180,6 @@ class CoatingPanel(W.VBox):
             by_sym = {s: m.index(wl) for s, m in mats.items()}
             N = np.stack([by_sym[s] for s in symbols])
             self.response = res = stack_response(N, d, wl, angles, incident=n_inc.real, substrate=sub.index(wl))
-            self._fig = plot_stack_angles(res, quantity=self.quantity.value, fig=self._fig)
-            show_png(self.figure, png_bytes(self._fig, dpi=90), alt="R or T at each angle")
             self.edges = []
             rows = []
             for ia, a in enumerate(angles):
@@ -194,6 +192,8 @@ class CoatingPanel(W.VBox):
                     ripple = [t.pass_ripple_pct for t in sides.values() if np.isfinite(t.pass_ripple_pct)]
                     cells[f"{pol} pass ripple"] = "–" if not ripple else f"{max(ripple):.1f} %"
                 rows.append(cells)
+            show_svg(self.figure, stack_angles_figure(res, quantity=self.quantity.value, edges=self.edges).svg(),
+                     alt="R or T at each angle")
             rough = any(not t.monotone for _, by in self.edges for sides in by.values() for t in sides.values()
                         if not t.problem)
             edges = html_table(rows, ["angle", "s", "p", "mean", "s pass ripple", "p pass ripple", "mean pass ripple"],
@@ -213,8 +213,18 @@ class CoatingPanel(W.VBox):
             if self._evaluator is not None:
                 self._camera_update(symbols, mats, d, inc, sub, angles[0])
 
+    def svg(self) -> str | None:
+        """The SVG text of the figure shown now."""
+        return output_svg(self.figure)
+
+    def snapshot(self):
+        """The picture the panel shows now, as an image for a notebook cell or a report."""
+        return SVG(data=self.svg())
+
     def _camera_update(self, symbols, mats, d, inc, sub, aoi) -> None:
         """The camera's measures with the stack in place of the chosen element."""
+        from workbench.analysis.recipe import measures_with_curves  # late: scipy.optimize, only with a design
+
         ev = self._evaluator
         wl = ev.wavelengths
         by_sym = {s: m.index(wl) for s, m in mats.items()}
