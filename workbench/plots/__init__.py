@@ -1,5 +1,5 @@
 """Figures, one module per subject. This package's ``__init__`` imports no matplotlib; its modules do,
-except ``vector``, ``fit_vector`` and ``coating_vector``.
+except ``vector`` and the ``*_vector`` modules drawn on it.
 
 Every plot function takes ``ax=None`` (or ``fig=None``), returns the axes or
 figure, never calls ``show()``, and labels each axis with its quantity, unit
@@ -14,7 +14,7 @@ import importlib
 
 #: The plot modules; each is imported on first use as ``workbench.plots.NAME``.
 MODULES = ("chain", "chromaticity", "coating", "coating_vector", "fit", "fit_vector", "images", "light",
-           "near_infrared", "spectra", "tolerance", "vector")
+           "near_infrared", "spectra", "tolerance", "tolerance_vector", "vector")
 
 
 def __getattr__(name: str):
