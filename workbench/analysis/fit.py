@@ -25,7 +25,7 @@ import numpy as np
 from scipy.optimize import differential_evolution, least_squares, minimize
 
 from workbench.analysis.evaluator import DesignEvaluator, fitted_matrix
-from workbench.analysis.fit_objective import Objective, RobustObjective, bound_costs
+from workbench.analysis.fit_objective import SMOOTHNESS_METHOD, Objective, RobustObjective, bound_costs
 from workbench.analysis.fit_result import FIT_STATUS_TABLE, FitResult, FitStatus, FitStopped, parameter_unit
 from workbench.analysis.progress import progress_bar
 from workbench.analysis.threads import one_blas_thread
@@ -438,6 +438,13 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
                                 [parameter_unit(design, k) for k in ev.free])
         except WorkbenchError:
             costs = ()
+    smoothness = None
+    if objective.smoothness is not None and status != FitStatus.INFEASIBLE:
+        (c0, c1), (s0, s1) = objective.split(np.stack([x_start, x_final]))
+        smoothness = {"weight": objective.smoothness.weight, "elements": list(objective.smoothness.names),
+                      "colour_cost_before": float(c0), "colour_cost_after": float(c1),
+                      "smoothness_cost_before": float(s0), "smoothness_cost_after": float(s1),
+                      "method": SMOOTHNESS_METHOD}
     for i, k in enumerate(ev.free):
         v = values[k]
         at = "min" if v - ev.lower[i] <= span_tol * span[i] else ("max" if ev.upper[i] - v <= span_tol * span[i] else None)
@@ -450,6 +457,7 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
         global_start=gs, seed=seed, notes=ev.notes, budget=int(budget), time_limit_s=time_limit,
         bound_costs=costs, across_illuminants=across,
         illuminant_weights=tuple((n, float(fit_weights.get(n, 1.0))) for n in ev.bench.illuminant_names),
+        smoothness=smoothness,
     )
 
 

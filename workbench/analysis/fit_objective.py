@@ -15,8 +15,71 @@ import numpy as np
 
 from workbench.analysis.evaluator import DesignEvaluator
 from workbench.analysis.measures import vora_value
+from workbench.optics.ripple import RIPPLE_STEP_NM, CoatingRipple, ripple_scale
 
-__all__ = ["Objective", "RobustObjective", "WORST_P", "tail_residuals", "bound_costs", "bound_cost_text"]
+__all__ = ["Objective", "RobustObjective", "CoatingSmoothness", "SMOOTHNESS_METHOD", "WORST_P", "tail_residuals",
+           "bound_costs", "bound_cost_text"]
+
+
+# --------------------------------------------------------------------------
+# The ripple penalty of coatings with free layers
+# --------------------------------------------------------------------------
+
+#: How the coating smoothness term is made (reported with a fit).
+SMOOTHNESS_METHOD = (
+    f"[fit] coating_smoothness w: for each coating element with a free layer_<i>_nm, the second differences "
+    f"R(k−1) − 2R(k) + R(k+1) of its coherent stack's chief-ray R_s and R_p on a {RIPPLE_STEP_NM:g} nm grid over "
+    "the design's range, at its aoi_deg, each times w·√(m/n) (m the colour objective's residuals, n the "
+    "element's second differences), appended to the residuals: with w = 1 each element's mean square counts as "
+    "much as the colour objective's (the ripple penalty of workbench recipe; docs/methods.md §15)")
+
+
+class CoatingSmoothness:
+    """The ripple residuals of every ``coating`` element with a free ``layer_<i>_nm``, for batches of points.
+
+    Each element's block is :class:`workbench.optics.ripple.CoatingRipple`
+    on its own 2 nm grid over the design's range, times
+    ``weight · √(m / n_e)`` (:func:`workbench.optics.ripple.ripple_scale`;
+    m the colour objective's residual count, n_e the element's number of
+    second differences), as ``workbench recipe``'s refinement weighs them.
+    Batched like the chain: only the rows that move an element's parameters
+    are computed for it.
+    """
+
+    def __init__(self, ev: DesignEvaluator, weight: float):
+        self.weight = float(weight)
+        wl = ev.wavelengths
+        col = {k: i for i, k in enumerate(ev.free)}
+        self.elements = []
+        for e in ev.design.chain:
+            if e.type != "coating" or not any(k.startswith("layer_") and p.free for k, p in e.params):
+                continue
+            fixed = {k: float(p.value) for k, p in e.params if f"{e.name}.{k}" not in col}
+            moving = {k: col[f"{e.name}.{k}"] for k, _ in e.params if f"{e.name}.{k}" in col}
+            self.elements.append((CoatingRipple(e, (wl[0], wl[-1])), fixed, moving))
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return tuple(r.name for r, _, _ in self.elements)
+
+    def __call__(self, X, m: int) -> np.ndarray:
+        """Residuals (B, Σ n_e) for points X (B, n_free [+ matrix entries]) and a colour objective of m residuals."""
+        X = np.atleast_2d(np.asarray(X, dtype=float))
+        blocks = []
+        for ripple, fixed, moving in self.elements:
+            params = dict(fixed)
+            params.update({k: X[:, i] for k, i in moving.items()})
+            blocks.append(ripple_scale(self.weight, m, ripple.size) * ripple(params))
+        return np.concatenate(blocks, axis=-1)
+
+
+def smoothness_of(ev: DesignEvaluator, weight=None) -> CoatingSmoothness | None:
+    """The design's coating smoothness term, or None (weight 0, or no coating with free layers)."""
+    w = ev.design.fit.coating_smoothness if weight is None else float(weight)
+    if w == 0:
+        return None
+    term = CoatingSmoothness(ev, w)
+    return term if term.elements else None
 
 
 # --------------------------------------------------------------------------
@@ -39,7 +102,9 @@ class Objective:
     c_j = ω_j (ω_j m_j / G)^(p−1), since Σ_j c_j m_j = G^p / G^(p−1) = G.
     The noise term of ``noise_weight`` and the evaluator's extra blocks
     (:meth:`DesignEvaluator.extra_residuals`) are appended as in the
-    evaluator.
+    evaluator; then, for a design with coatings whose layers are free and
+    ``[fit] coating_smoothness`` > 0, their ripple penalty
+    (:class:`CoatingSmoothness`; :meth:`split` tells the two parts apart).
     """
 
     def __init__(self, ev: DesignEvaluator, *, illuminant_weights=None, across="weighted-mean",
@@ -56,6 +121,33 @@ class Objective:
                       and self.noise_weight == fit.noise_weight)
         self.nf = len(ev.free)
         self.nm = ev._n_matrix_params()
+        self.smoothness = smoothness_of(ev)
+
+    def colour(self, X) -> np.ndarray:
+        """The colour objective's residuals (B, m): everything but the coating smoothness term."""
+        if self.mix is None:
+            return self._accuracy(X)
+        # a point of the accuracy-noise front: (1 − t)·cost/cost₀ + t·NG²/NG₀², NG² = mean_ij ‖m_ij‖²
+        t, e0, g0 = self.mix
+        X = np.atleast_2d(np.asarray(X, dtype=float))
+        _, _, M = self.parts(X)
+        rn = np.linalg.norm(M, axis=-1).reshape(X.shape[0], -1) / math.sqrt(M.shape[-3] * 3)
+        blocks = [math.sqrt(t) / g0 * rn]
+        if t < 1:
+            blocks.insert(0, math.sqrt((1 - t) / e0) * self._accuracy(X))
+        return np.concatenate(blocks, axis=-1)
+
+    def __call__(self, X) -> np.ndarray:
+        r = self.colour(X)
+        if self.smoothness is None:
+            return r
+        return np.concatenate([r, self.smoothness(X, r.shape[-1])], axis=-1)
+
+    def split(self, X) -> tuple[np.ndarray, np.ndarray]:
+        """Σr² of the colour objective and of the coating smoothness term (B,), (B,) for points X; they add to the cost."""
+        r = self(X)
+        m = r.shape[-1] - (0 if self.smoothness is None else sum(e[0].size for e in self.smoothness.elements))
+        return np.sum(r[:, :m] ** 2, axis=-1), np.sum(r[:, m:] ** 2, axis=-1)
 
     def parts(self, X):
         """Sensitivities (B, 3, n), balanced RGB (B, J, K, 3) and matrices (B, J, 3, 3) of points X."""
@@ -74,19 +166,6 @@ class Objective:
             method = "least-squares" if fit.matrix == "delta-e00" else fit.matrix
             M = ev.bench.fit_matrices(C, method, fit.matrix_scope)
         return S, C, M
-
-    def __call__(self, X) -> np.ndarray:
-        if self.mix is None:
-            return self._accuracy(X)
-        # a point of the accuracy-noise front: (1 − t)·cost/cost₀ + t·NG²/NG₀², NG² = mean_ij ‖m_ij‖²
-        t, e0, g0 = self.mix
-        X = np.atleast_2d(np.asarray(X, dtype=float))
-        _, _, M = self.parts(X)
-        rn = np.linalg.norm(M, axis=-1).reshape(X.shape[0], -1) / math.sqrt(M.shape[-3] * 3)
-        blocks = [math.sqrt(t) / g0 * rn]
-        if t < 1:
-            blocks.insert(0, math.sqrt((1 - t) / e0) * self._accuracy(X))
-        return np.concatenate(blocks, axis=-1)
 
     def _accuracy(self, X) -> np.ndarray:
         if self.plain:
@@ -182,7 +261,7 @@ class RobustObjective(Objective):
         u = top[:, 0] * np.sum((m / top) ** WORST_P, axis=1) ** (1.0 / WORST_P)
         return u.reshape(B, K)
 
-    def __call__(self, X) -> np.ndarray:
+    def colour(self, X) -> np.ndarray:
         return tail_residuals(self.unit_scores(X), self.percentile)
 
 

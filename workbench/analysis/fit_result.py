@@ -81,7 +81,11 @@ class FitResult:
     :data:`FIT_STATUS_TABLE`: :attr:`status_name`, :attr:`status_message`);
     ``message`` the local solver's own words for its last run;
     ``budget`` the evaluation budget and ``time_limit_s`` the wall-time
-    limit (None: none) that capped the whole fit.
+    limit (None: none) that capped the whole fit. ``smoothness`` (None
+    without the term): the ``[fit] coating_smoothness`` weight, the coating
+    elements it applies to and the cost split into the colour objective
+    and the smoothness term at the start and fitted (they add to
+    ``cost_before`` / ``cost_after``), with its method.
     """
 
     design: Design
@@ -106,6 +110,7 @@ class FitResult:
     illuminant_weights: tuple[tuple[str, float], ...] = ()
     front: tuple[dict, ...] = ()
     robust: dict | None = None
+    smoothness: dict | None = None
 
     @property
     def converged(self) -> bool:
@@ -145,6 +150,7 @@ class FitResult:
             "seed": self.seed,
             "cost_before": self.cost_before,
             "cost_after": self.cost_after,
+            "smoothness": self.smoothness,
             "parameters": list(self.parameters),
             "parameters_at_bounds": [p["name"] for p in self.parameters if p["at_bound"]],
             "bound_costs": list(self.bound_costs),

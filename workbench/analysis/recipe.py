@@ -33,8 +33,8 @@ from workbench.analysis.threads import one_blas_thread
 from workbench.errors import WorkbenchError
 from workbench.optics.elements import angle_shift_factor, edge
 from workbench.optics.materials import Material, material_named
+from workbench.optics.ripple import ripple_grid, ripple_residuals, ripple_scale
 from workbench.optics.stacks import cone_rays, cone_response, parse_layer_formula, physical_thicknesses
-from workbench.optics.thinfilm import stack_response
 from workbench.analysis.transition import stop_band_edges
 from workbench.fileio.design_toml import design_from_dict, design_to_dict
 
@@ -270,23 +270,18 @@ def ripple_penalty(recipe: Recipe, window_nm, *, weight: float, fit_weight: floa
     """
     if not (np.isfinite(weight) and weight >= 0):
         raise WorkbenchError(f"'smoothness' must be a weight ≥ 0 (got {weight!r})")
-    wl_f = np.arange(float(window_nm[0]), float(window_nm[1]) + step_nm / 2, step_nm)
-    if wl_f.size < 3:
-        raise WorkbenchError(f"the ripple penalty needs at least 3 wavelengths (got {wl_f.size})")
+    wl_f = ripple_grid(window_nm[0], window_nm[1], step_nm)
     N_f = recipe.indices(wl_f)
     kw_f = dict(incident=recipe.incident.index(wl_f).real, substrate=recipe.substrate.index(wl_f))
-    scale = weight * np.sqrt(fit_weight / (2 * (wl_f.size - 2)))
+    scale = ripple_scale(weight, fit_weight, 2 * (wl_f.size - 2))
     cache = {}
 
     def penalty(d):
         key = d.tobytes()
         if key not in cache:
-            res = stack_response(N_f, d, wl_f, [recipe.aoi_deg], derivatives=True, **kw_f)
-            R, dR = res.R[:, 0], res.dR_dd[:, :, 0]                       # (2, n_f), (L, 2, n_f)
-            D2 = R[:, :-2] - 2 * R[:, 1:-1] + R[:, 2:]
-            dD2 = dR[..., :-2] - 2 * dR[..., 1:-1] + dR[..., 2:]
+            r, J = ripple_residuals(N_f, d, wl_f, recipe.aoi_deg, derivatives=True, **kw_f)
             cache.clear()
-            cache[key] = (scale * D2.reshape(-1), scale * dD2.reshape(dR.shape[0], -1).T)
+            cache[key] = (scale * r, scale * J)
         return cache[key]
 
     return penalty
@@ -659,7 +654,8 @@ def splitter_recipes(design, *, periods: int = 20, high="TiO2", low="SiO2", refi
 
 def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coated faces)",
                   layer_error: float = 0.01, material_error: float = 0.005, index_error: float = 0.005,
-                  layer_range: float = 0.2, free_layers: bool = False, keep_free: bool = True):
+                  layer_range: float = 0.2, free_layers: bool = False, keep_free: bool = True,
+                  coating_smoothness: float | None = None):
     """The design with its idealised splitter replaced by two ``coating`` elements made of ``faces``.
 
     Each face keeps its angle, cone and glass; its layers are written with
@@ -676,7 +672,11 @@ def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coat
     ``index_error``. The splitter's ``loss`` is not carried over (the stacks
     are lossless dielectrics). A matrix stored with the design (by
     ``workbench fit``) was fitted to the idealised faces and is not carried
-    over: the coated design's matrix follows its ``[fit]`` rule.
+    over: the coated design's matrix follows its ``[fit]`` rule. With
+    ``free_layers``, ``coating_smoothness`` (None: the design's own ``[fit]``
+    value, default :data:`RIPPLE_WEIGHT`) is written as ``[fit]
+    coating_smoothness``, the weight of the refit's ripple penalty on the
+    faces (give it the weight the faces were refined with).
 
     Returns
     -------
@@ -723,6 +723,11 @@ def coated_design(design, faces: list[FaceRecipe], *, name_suffix: str = " (coat
             el[f"index_scale_{sym}"] = {"value": 1.0, "tolerance": {"distribution": "normal", "width": index_error}}
         elements.append(el)
     chain[i:i + 1] = elements
+    if free_layers:
+        w = design.fit.coating_smoothness if coating_smoothness is None else coating_smoothness
+        if not (np.isfinite(w) and w >= 0):
+            raise WorkbenchError(f"'coating_smoothness' must be a weight ≥ 0 (got {w!r})")
+        data.setdefault("fit", {})["coating_smoothness"] = float(w)
     # a matrix stored by a fit belongs to the idealised faces: the coated camera gets its own from its [fit] rule
     data.pop("matrix", None)
     data["name"] = design.name + name_suffix

@@ -508,7 +508,7 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
     c.unknown(t, ("objective", "recording_illuminant", "viewing_illuminant", "weights", "illuminants",
                   "matrix", "matrix_scope", "noise_weight", "global_start", "starts", "seed",
                   "max_evaluations", "infrared_cutoff_nm", "infrared_weight", "max_infrared_share",
-                  "illuminant_weights", "across_illuminants"), "fit")
+                  "illuminant_weights", "across_illuminants", "coating_smoothness"), "fit")
     n0 = len(c.problems)
     objective = c.choice(t.get("objective", "vora"), OBJECTIVES, "fit.objective")
     extra = {}
@@ -523,6 +523,7 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
         extra["noise_weight"] = f
     for k, lo, hi, text in (("infrared_cutoff_nm", 380, 1100, "a number in [380, 1100] nm"),
                             ("infrared_weight", 0, math.inf, "a number >= 0"),
+                            ("coating_smoothness", 0, math.inf, "a number >= 0"),
                             ("max_infrared_share", 0, 1, "a number in [0, 1]")):
         if k in t:
             f = _number(t[k])
@@ -968,6 +969,11 @@ def design_to_dict(d: Design, rebase=None) -> dict:
         v = getattr(d.fit, k)
         if v != getattr(defaults, k):
             fit[k] = list(v) if isinstance(v, tuple) else v
+    # written whenever a coating has free layers (the fit then applies it), so the file says what the fit weighs
+    free_layers = any(e.type == "coating" and any(k.startswith("layer_") and p.free for k, p in e.params)
+                      for e in d.chain)
+    if free_layers or d.fit.coating_smoothness != defaults.coating_smoothness:
+        fit["coating_smoothness"] = d.fit.coating_smoothness
     out["fit"] = fit
     if d.noise != NoiseModel():
         out["noise"] = {k: getattr(d.noise, k) for k in ("full_well_e", "read_noise_e", "exposure", "grey")}

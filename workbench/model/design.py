@@ -276,6 +276,9 @@ class Fit:
     (:mod:`workbench.analysis.near_infrared`). ``illuminant_weights`` and
     ``across_illuminants`` ('weighted-mean' or 'worst') combine the
     illuminants in the ``mean-delta-e00`` objective (:mod:`workbench.analysis.fit`).
+    ``coating_smoothness`` weighs the ripple penalty (second differences of
+    the chief ray's R_s and R_p on a 2 nm grid, as ``workbench recipe``'s)
+    of every ``coating`` element with a free ``layer_<i>_nm``; 0: none.
     """
 
     objective: str = "vora"
@@ -295,6 +298,7 @@ class Fit:
     max_infrared_share: float | None = None
     illuminant_weights: tuple[tuple[str, float], ...] = ()
     across_illuminants: str = "weighted-mean"
+    coating_smoothness: float = 1.0
 
 
 @dataclass(frozen=True)

@@ -434,6 +434,17 @@ _ALT = {
 }
 
 
+def _smoothness_html(sm) -> str:
+    """The cost split into the colour objective and the coating smoothness term (nothing without the term)."""
+    if sm is None:
+        return ""
+    return (f"<p><b>Coating smoothness</b> (weight {_esc(_f(sm['weight'], 'g'))}; "
+            f"{_esc(', '.join(sm['elements']))}): cost Σr² = colour objective "
+            f"{_esc(_f(sm['colour_cost_before'], '.6g'))} → {_esc(_f(sm['colour_cost_after'], '.6g'))} + smoothness "
+            f"{_esc(_f(sm['smoothness_cost_before'], '.6g'))} → {_esc(_f(sm['smoothness_cost_after'], '.6g'))}. "
+            f"{_esc(sm['method'])}.</p>")
+
+
 def _throughput_table(design) -> str:
     label, E, _ = design.illuminant_values(design.fit.recording_illuminant)
     t = throughput(design.element_curves(), E, illuminant=label)
@@ -511,6 +522,7 @@ def fit_report_html(result, evaluator=None) -> str:
         f"<b>Search</b>: {_esc(search)}. Cost Σr² {_esc(_f(result.cost_before, '.6g'))} at the start → "
         f"{_esc(_f(result.cost_after, '.6g'))} fitted; {_esc(result.evaluations)} evaluations in "
         f"{_esc(_f(result.seconds, '.2f'))} s.</p>",
+        _smoothness_html(result.smoothness),
         _methods_list(a.methods),
         "<h2>Measures at the start and after the fit</h2>",
         _measures_table(result),

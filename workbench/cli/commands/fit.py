@@ -129,6 +129,14 @@ def bound_cost_table(result) -> str:
                                      "the other parameters re-optimised (best first):"])
 
 
+def smoothness_line(sm: dict) -> str:
+    """One line: the cost split into the colour objective and the coating smoothness term, start → fitted."""
+    return (f"cost Σr² = colour objective {sm['colour_cost_before']:.6g} → {sm['colour_cost_after']:.6g} + coating "
+            f"smoothness {sm['smoothness_cost_before']:.6g} → {sm['smoothness_cost_after']:.6g} (weight "
+            f"{sm['weight']:g}: ripple of {', '.join(sm['elements'])}, second differences of the chief ray's "
+            "R_s, R_p on a 2 nm grid)")
+
+
 def front_csv(front) -> str:
     """The front as CSV: one row per point, the measures then the fitted parameter values."""
     buf = io.StringIO()
@@ -167,6 +175,7 @@ def metrics(result) -> dict:
         "objective": d["objective"],
         "cost_before": d["cost_before"],
         "cost_after": d["cost_after"],
+        "smoothness": d["smoothness"],
         "evaluations": d["evaluations"],
         "seconds": d["seconds"],
         "global_start": d["global_start"],
@@ -198,6 +207,7 @@ def _print_summary(design, result) -> None:
         f"fit: {result.status_name} — {result.status_message}; objective {result.objective}; "
         f"{result.evaluations} of {result.budget} evaluations, {result.seconds:.2f} s"
         + (f" (time limit {result.time_limit_s:g} s)" if result.time_limit_s else ""),
+        *([] if result.smoothness is None else [smoothness_line(result.smoothness)]),
         f"Vora value {b.vora_value:.4f} → {a.vora_value:.4f} ({a.methods['vora_value']})",
         "Neugebauer q R/G/B " + " / ".join(f"{v:.4f}" for v in a.neugebauer_q),
         f"matrix: {a.matrix_method}, {a.matrix_scope}; ΔE00 = CIEDE2000 after white balance and matrix",

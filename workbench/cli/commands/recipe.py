@@ -206,7 +206,7 @@ def run(args) -> int:
               + (f" with a ripple penalty of weight {args.smoothness:g} on the chief ray's s and p"
                  if args.smoothness > 0 else "") + " (workbench.analysis.recipe)")
     coated = coated_design(design, faces, layer_range=args.layer_range, free_layers=args.free_layers,
-                           keep_free=args.keep_free)
+                           keep_free=args.keep_free, coating_smoothness=args.smoothness)
     m_ideal, m_coated = DesignEvaluator(design).measures(), DesignEvaluator(coated).measures()
     compare = {"vora_value": {"idealised": m_ideal.vora_value, "coated": m_coated.vora_value},
                "mean_delta_E00": {ill: {"idealised": m_ideal.delta_E00[ill]["mean"],

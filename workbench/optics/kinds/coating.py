@@ -55,7 +55,7 @@ from workbench.optics.materials import material_named, read_nk_csv
 from workbench.optics.stacks import parse_layer_formula, resolve_materials
 from workbench.optics.stacks import cone_response
 
-__all__ = ["KIND", "MaterialTable", "MaterialFile", "parse_materials", "CoatingData"]
+__all__ = ["KIND", "MaterialTable", "MaterialFile", "parse_materials", "CoatingData", "layer_thicknesses", "layer_indices"]
 
 REFLECTS = ("none", "R", "G", "B")
 POLARISATIONS = ("unpolarised", "s", "p")
@@ -340,28 +340,49 @@ def _thicknesses(data: CoatingData, params: dict) -> np.ndarray:
     return d * scale[..., None]
 
 
-def _curve(x: CurveInput):
-    data: CoatingData = x.data
-    wl = np.asarray(x.wavelengths, dtype=float)
-    d = _thicknesses(data, x.params)
+def layer_thicknesses(data: CoatingData, params: dict) -> np.ndarray:
+    """Every layer's physical thickness ``(..., L)`` in nm for batched parameters of a coating element.
+
+    The formula's thicknesses (QWOT at ``reference_nm`` or physical), each
+    ``layer_<i>_nm`` given in its place, times ``thickness_scale`` and the
+    layer's material's ``thickness_scale_<S>``; ``params`` by parameter name
+    (``layer_3_nm``, not ``element.layer_3_nm``). Not checked for > 0.
+    """
+    d = _thicknesses(data, params)
     symbols = list(data.materials)
     which = data.layer_tables[2]
-    t_scales = [np.asarray(x.params[f"thickness_scale_{s}"], dtype=float) for s in symbols
-                if f"thickness_scale_{s}" in x.params]
-    if t_scales:
-        ts = np.stack(np.broadcast_arrays(*[np.asarray(x.params.get(f"thickness_scale_{s}", 1.0), dtype=float)
+    if any(f"thickness_scale_{s}" in params for s in symbols):
+        ts = np.stack(np.broadcast_arrays(*[np.asarray(params.get(f"thickness_scale_{s}", 1.0), dtype=float)
                                             for s in symbols]), axis=-1)        # (..., M)
         d = d * ts[..., which]
-    if np.any(~(d > 0)):
-        raise WorkbenchError("coating layer thicknesses must be > 0 nm (got one ≤ 0)")
-    N = data.N
-    if any(f"index_scale_{s}" in x.params for s in symbols):
-        ns = np.stack(np.broadcast_arrays(*[np.asarray(x.params.get(f"index_scale_{s}", 1.0), dtype=float)
+    return d
+
+
+def layer_indices(data: CoatingData, params: dict, N=None) -> np.ndarray:
+    """The layers' indices ``(L, n)`` or ``(..., L, n)`` with each material's ``index_scale_<S>`` applied to n.
+
+    ``N`` the unscaled indices (L, n) on some grid (default the design
+    grid's, ``data.N``); one set when every row has the same scales.
+    """
+    N = data.N if N is None else N
+    symbols = list(data.materials)
+    if any(f"index_scale_{s}" in params for s in symbols):
+        ns = np.stack(np.broadcast_arrays(*[np.asarray(params.get(f"index_scale_{s}", 1.0), dtype=float)
                                             for s in symbols]), axis=-1)        # (..., M)
         flat = ns.reshape(-1, ns.shape[-1])
         if np.all(flat == flat[0]):
             ns = flat[0]                  # the same indices in every row: one set (the engine then sees one stack)
-        N = data.N.real * ns[..., which, None] + 1j * data.N.imag               # (..., L, n)
+        N = N.real * ns[..., data.layer_tables[2], None] + 1j * N.imag          # (..., L, n)
+    return N
+
+
+def _curve(x: CurveInput):
+    data: CoatingData = x.data
+    wl = np.asarray(x.wavelengths, dtype=float)
+    d = layer_thicknesses(data, x.params)
+    if np.any(~(d > 0)):
+        raise WorkbenchError("coating layer thicknesses must be > 0 nm (got one ≤ 0)")
+    N = layer_indices(data, x.params)
     aoi = np.asarray(x.p("aoi_deg"), dtype=float)
     fno = x.params.get("f_number")
     engine = dict(incident=data.n_incident, substrate=data.n_substrate, polarisation=x.option("polarisation"),
