@@ -267,3 +267,27 @@ class TestCoatingSmoothnessKey:
         assert coated_design(demo_design, faces, free_layers=True).fit.coating_smoothness == 1.0
         fixed = replace(demo_design, fit=replace(demo_design.fit, coating_smoothness=3.0))
         assert coated_design(fixed, faces, free_layers=True).fit.coating_smoothness == 3.0
+
+
+class TestFitCommandSplit:
+    def test_summary_metrics_and_report_show_the_split(self, tmp_path, capsys):
+        """workbench fit prints, stores in metrics.json and reports the colour objective and the smoothness term."""
+        import json
+
+        from workbench.cli.main import main
+
+        path = tmp_path / "faces.toml"
+        save_design(design_from_dict(_design_dict(1.0, max_evaluations=60)), path)
+        rc = main(["fit", str(path), "--out", str(tmp_path / "o")])
+        assert rc in (0, 3)                                  # converged, or the small budget spent
+        out = capsys.readouterr().out
+        line = next(x for x in out.splitlines() if x.startswith("cost Σr² = colour objective "))
+        assert "coating smoothness" in line and "(weight 1: ripple of blue, red," in line
+        m = json.loads((tmp_path / "o" / "metrics.json").read_text())
+        sm = m["smoothness"]
+        assert sm["weight"] == 1.0 and sm["elements"] == ["blue", "red"]
+        assert sm["colour_cost_after"] + sm["smoothness_cost_after"] == pytest.approx(m["cost_after"], rel=1e-9)
+        assert sm["smoothness_cost_after"] > 0
+        html = (tmp_path / "o" / "report.html").read_text()
+        assert "<b>Coating smoothness</b> (weight 1; blue, red)" in html
+        assert load_design(tmp_path / "o" / "design.toml").fit.coating_smoothness == 1.0
