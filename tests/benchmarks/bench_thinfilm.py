@@ -9,7 +9,8 @@ glass 1.52) × s and p, onto glass 1.52.
 * workbench ``stack_response`` (R and T; and with all 40 thickness derivatives),
 * the same for a periodic stack of 41 layers, (0.5L H 0.5L)^20 at one
   reference wavelength (its repeated block raised to its power), and with
-  its 41 derivatives (a recipe refinement's call),
+  its 41 derivatives, and with its derivatives over the 16 rays of an f/2
+  cone at 25° (the call a recipe refinement makes at every evaluation),
 * the 40-layer stack with derivatives when its layers absorb a little
   (k = 1e-4: the complex path),
 * the same per stack inside a batch of 100 stacks,
@@ -51,6 +52,7 @@ def main() -> None:
     import colour
     import tmm
 
+    from workbench.optics.stacks import cone_rays
     from workbench.optics.thinfilm import stack_response
 
     warnings.simplefilter("ignore")
@@ -74,6 +76,8 @@ def main() -> None:
     periodic = timings(lambda: stack_response(N_per, d_per, wl, angles, **kw), args.repeats)
     periodic_d = timings(lambda: stack_response(N_per, d_per, wl, angles, derivatives=True, **kw),
                          max(5, args.repeats // 5))
+    cone = np.unique(cone_rays(25.0, 2.0, 1.52)[0])
+    cone_d = timings(lambda: stack_response(N_per, d_per, wl, cone, derivatives=True, **kw), max(5, args.repeats // 5))
     N_abs = N + 1e-4j
     absorbing_d = timings(lambda: stack_response(N_abs, d, wl, angles, derivatives=True, **kw), max(5, args.repeats // 5))
     dB = rng.uniform(40, 120, (100, L))
@@ -103,6 +107,7 @@ def main() -> None:
     print(f"  workbench, per stack in 100       {batch[0] * 10:8.3f} / {batch[1] * 10:8.3f} ms")
     print(f"  workbench, periodic 41 layers     {periodic[0] * 1e3:8.3f} / {periodic[1] * 1e3:8.3f} ms")
     print(f"  workbench, periodic, derivatives  {periodic_d[0] * 1e3:8.3f} / {periodic_d[1] * 1e3:8.3f} ms")
+    print(f"  workbench, periodic, {cone.size} cone rays {cone_d[0] * 1e3:8.3f} / {cone_d[1] * 1e3:8.3f} ms")
     print(f"  workbench, absorbing, derivatives {absorbing_d[0] * 1e3:8.3f} / {absorbing_d[1] * 1e3:8.3f} ms")
     print(f"  colour.phenomena.multilayer_tmm   {ref[0] * 1e3:8.3f} / {ref[1] * 1e3:8.3f} ms")
     print(f"  loop over tmm.coh_tmm             {loop[0] * 1e3:8.1f} ms")
