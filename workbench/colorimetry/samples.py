@@ -49,7 +49,8 @@ SAMPLE_SETS = ("cie-13.3", "cie-224", "csv")
 def _tcs_table() -> Spectra:
     names = tuple(str(n) for n in cie_table("tcs_names"))
     return Spectra(cie_table("tcs_wl"), cie_table("tcs"), names, kind="reflectance",
-                   notes=("CIE 13.3-1995 test colour samples TCS01-TCS14 (via colour-science)",),
+                   notes=("CIE 13.3-1995 test colour samples TCS01-TCS14 "
+                          "(colour-science's table, stored in the package)",),
                    source="CIE 13.3-1995")
 
 
@@ -60,7 +61,7 @@ def _ces_table(step: int) -> Spectra:
     names = tuple(f"CES{i + 1:02d}" for i in range(values.shape[0]))
     return Spectra(wl, values, names, kind="reflectance",
                    notes=(f"CIE 224:2017 colour evaluation samples CES01-CES99 at {step} nm "
-                          "(via colour-science)",),
+                          "(colour-science's table, stored in the package)",),
                    source="CIE 224:2017")
 
 
