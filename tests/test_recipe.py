@@ -163,7 +163,8 @@ class TestRefineInCamera:
     def test_residuals_and_refinement(self, demo_design):
         """The residuals from sensitivities equal the evaluator's; refining a real trim stack lowers the cost."""
         from workbench.analysis.evaluator import DesignEvaluator
-        from workbench.analysis.recipe import _residuals_of_sensitivities, refine_in_camera
+        from workbench.analysis.recipe import refine_in_camera
+        from workbench.analysis.recipe_refine import _residuals_of_sensitivities
 
         ev = DesignEvaluator(demo_design)
         r = ev.residuals(ev.start)[0]
