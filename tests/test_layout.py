@@ -6,6 +6,8 @@
 - Computation builds no HTML: every ``_repr_html_`` outside ``workbench/report/``
   is one ``return`` of a call (it delegates to :mod:`workbench.report.html`).
 - One JSON cleaner: ``json.dumps`` of results only in ``workbench/report/json_text.py``.
+- Modules of at most 600 lines, unless the module docstring says why
+  (a paragraph starting 'Over 600 lines for a reason:').
 """
 
 from __future__ import annotations
@@ -18,6 +20,10 @@ import pytest
 PACKAGE = Path(__file__).resolve().parents[1] / "workbench"
 #: The ceiling the layout issue sets for imports inside functions.
 MAX_LATE_IMPORTS = 20
+#: The longest a module may be without saying why in its docstring.
+MAX_MODULE_LINES = 600
+#: The words a longer module's docstring uses to say why.
+LONG_MODULE_REASON = "Over 600 lines for a reason:"
 
 
 def _modules(package: Path = PACKAGE):
@@ -100,3 +106,31 @@ class TestDisplayOutOfComputation:
                         and any(k.arg == "allow_nan" for k in node.keywords)):
                     users.append(str(path.relative_to(PACKAGE)))
         assert users == ["report/json_text.py"]
+
+
+def too_long(text: str, *, limit: int = MAX_MODULE_LINES) -> bool:
+    """A module's ``text`` is longer than ``limit`` lines and its docstring does not say why."""
+    if len(text.splitlines()) <= limit:
+        return False
+    return LONG_MODULE_REASON not in (ast.get_docstring(ast.parse(text), clean=False) or "")
+
+
+class TestModuleLength:
+    def test_every_module_short_or_says_why(self):
+        """Every module under workbench/ is at most 600 lines, or its docstring says 'Over 600 lines for a reason:'."""
+        long_ = [f"{p.relative_to(PACKAGE.parent)}: {len(lines)} lines" for p, _, lines in _modules()
+                 if too_long("\n".join(lines))]
+        assert long_ == []
+
+    def test_rule_sees_a_long_module(self):
+        """601 lines without the phrase fail; 600 lines, or 601 with the phrase in the docstring, pass."""
+        body = "x = 1\n" * 599
+        assert too_long('"""A module."""\n' + body + "y = 2\n")
+        assert not too_long('"""A module."""\n' + body)
+        assert not too_long('"""A module.\n\nOver 600 lines for a reason: one subject.\n"""\n' + body)
+
+    def test_phrase_outside_the_docstring_does_not_count(self):
+        """The phrase in a comment or a string below the docstring does not excuse a long module."""
+        body = "x = 1\n" * 600
+        assert too_long('"""A module."""\n# Over 600 lines for a reason: none\n' + body)
+        assert too_long('"""A module."""\ns = "Over 600 lines for a reason: none"\n' + body)
