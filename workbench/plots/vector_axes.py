@@ -15,7 +15,7 @@ import math
 import numpy as np
 
 from workbench.plots.vector_style import (AXIS_COLOUR, FAR_PX, GRID_COLOUR, PALETTE, TEXT_COLOUR, VIRIDIS, arrow_path,
-                                          colour_map, marker_path, nice_limits, nice_ticks, path_svg, point_texts,
+                                          marker_path, nice_limits, nice_ticks, path_svg, point_texts,
                                           px_text, style_attrs, text_svg, text_width, tick_labels)
 
 __all__ = ["Axes"]
