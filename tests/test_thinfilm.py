@@ -333,6 +333,44 @@ class TestStackResponse:
         assert str(err.value) == "'incident' must be lossless (k = 0) (got an absorbing medium)"
 
 
+    def test_thick_absorbing_layer_reaches_the_bulk_reflectance_without_overflow(self):
+        """A 1 µm layer of k = 50 (Im δ ≈ 800, cosh overflows) gives the bulk Fresnel R, T = 0, finite slopes."""
+        import warnings
+
+        wl = np.array([400.0, 550.0, 700.0])
+        N = 2.0 + 50j
+        with warnings.catch_warnings():
+            warnings.simplefilter("error")
+            res = stack_response(np.array([[1.46], [N]]), np.array([80.0, 1000.0]), wl, 0.0,
+                                 substrate=N_GLASS, derivatives=True)
+            bare = stack_response(np.array([[1.46]]), np.array([80.0]), wl, 0.0, substrate=N)
+        # Born & Wolf, Principles of Optics, §14.4: an opaque absorbing layer acts as its bulk medium
+        np.testing.assert_allclose(res.R, bare.R, atol=1e-12, rtol=0)
+        assert np.all(res.T == 0.0)
+        assert np.all(np.isfinite(res.dR_dd)) and np.all(np.isfinite(res.dT_dd))
+        # the top layer's slope against a central difference (common practice)
+        h = 1e-3
+        up = stack_response(np.array([[1.46], [N]]), np.array([80.0 + h, 1000.0]), wl, 0.0, substrate=N_GLASS)
+        dn = stack_response(np.array([[1.46], [N]]), np.array([80.0 - h, 1000.0]), wl, 0.0, substrate=N_GLASS)
+        np.testing.assert_allclose(res.dR_dd[0], (up.R - dn.R) / (2 * h), atol=1e-8, rtol=0)
+
+    def test_light_trapped_by_total_reflection_at_the_back_face_is_reflected(self):
+        """Beyond the back face's critical angle in a stop band R = 1 and T = 0 with no 0/0 (energy conservation)."""
+        import warnings
+
+        n = np.array([2.4, 1.46] * 15 + [2.4])
+        d = np.array([65.0, 105.0] * 15 + [65.0])
+        wl = np.arange(380.0, 781.0, 1.0)
+        with warnings.catch_warnings():
+            warnings.simplefilter("error")
+            res = stack_response(n[:, None], d, wl, 70.0, incident=1.517, substrate=1.517,
+                                 back_surface=True, exit_medium=1.0, derivatives=True)
+        # lossless stack, back face beyond its critical angle: nothing leaves behind (common practice)
+        np.testing.assert_allclose(res.R, 1.0, atol=1e-9, rtol=0)
+        assert np.all(res.T == 0.0)
+        assert np.all(np.isfinite(res.dR_dd)) and np.all(np.isfinite(res.dT_dd))
+
+
 class TestLosslessDerivatives:
     @pytest.mark.parametrize("incident, substrate, back_surface", [
         (1.0, N_GLASS, False), (N_GLASS, N_GLASS, True), (N_GLASS, 1.0, False), (1.0, 1.6 + 0.2j, False)])

@@ -377,9 +377,13 @@ def _stack(N, d, wl, media, derivatives):
     Rr, Tr, dRr, dTr = _coherent(N[..., ::-1, :], d[..., ::-1], wl, beta2, eta_s_in,
                                  eta0.astype(complex), derivatives)
     D = 1.0 - Rr * Rb
+    # D = 0 only when the back face reflects totally (Rb = 1, Tb = 0) and the
+    # stack too (Rr = 1, so Tr = Tf = 0): the trapped light's limit, Tr Rb / D → 1.
+    live = D > 0
+    D = np.where(live, D, 1.0)
     Rf, Tf = R, T
-    R = np.where(ok, Rf + Tf * Tr * Rb / D, Rf)
-    T = np.where(ok, Tf * Tb / D, 0.0)
+    R = np.where(ok, Rf + Tf * np.where(live, Tr * Rb / D, 1.0), Rf)
+    T = np.where(ok & live, Tf * Tb / D, 0.0)
     if derivatives:
         dRr = dRr[..., ::-1, :, :, :]
         dTr = dTr[..., ::-1, :, :, :]
@@ -412,7 +416,21 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     np.divide(N2[..., None, :], q, out=eta[..., 1, :, :])
     k = (_TWO_PI / wl) * qe                                            # rad/nm
     delta = k * dt.reshape(dt.shape + (1, 1, 1))
-    cd, sd = cos_sin(delta)
+    # Thick absorbing layers: cosh(Im δ) overflows near 710, and the product of
+    # the layers' matrices sooner. Scale each layer's matrix by exp(−|Im δ|); r
+    # and the derivatives' ratios are unchanged, T takes back exp(−2 Σ|Im δ|).
+    damping = np.abs(delta.imag)
+    log_scale = damping.sum(axis=0)
+    scaled = bool(np.max(log_scale, initial=0.0) > 300.0)
+    if scaled:
+        cx, sx = cos_sin(delta.real)
+        cx, sx = cx.copy(), sx.copy()
+        e2 = np.exp(-2.0 * damping)
+        ch = 0.5 * (1.0 + e2)
+        sh = 0.5 * np.sign(delta.imag) * (1.0 - e2)
+        cd, sd = cx * ch - 1j * (sx * sh), sx * ch + 1j * (cx * sh)
+    else:
+        cd, sd = cos_sin(delta)
     L = dt.shape[0]
     batch = np.broadcast_shapes(eta.shape[1:-3], delta.shape[1:-3])
     shape = (L,) + batch + eta.shape[-3:]
@@ -436,6 +454,8 @@ def _coherent(N, d, wl, beta2, eta0, eta_s, derivatives):
     r = (eB - C) / Y
     R = r.real ** 2 + r.imag ** 2
     T = (4.0 * eta0.real * eta_s.real) / (Y.real ** 2 + Y.imag ** 2)
+    if scaled:
+        T = T * np.exp(-2.0 * log_scale)
     if not derivatives:
         return R, T, None, None
     # Adjoint row vectors: dr = u·d[B, C], dY = w·d[B, C]. With
