@@ -70,6 +70,15 @@ class TestRecipeCommand:
         assert at["s_nm"] is None and at["s"]["monotone"] is False and len(at["s"]["crossings_nm"]) > 1
         assert at["s"]["band_edge_nm"] == at["s"]["crossings_nm"][0] and at["s"]["pass_ripple_pct"] > 10.0
 
+    @pytest.mark.parametrize("extra, message", [
+        (["--keep-free"], "error: '--keep-free' needs --free-layers\n"),
+        (["--free-layers"], "error: '--free-layers' needs --out (it writes DIR/design.toml)\n"),
+    ])
+    def test_rejects_layer_options_that_would_do_nothing(self, capsys, demo_design_path, extra, message):
+        """--keep-free without --free-layers, or --free-layers without --out, is refused, not ignored."""
+        status, out, err = _run(capsys, ["recipe", str(demo_design_path), *extra])
+        assert status == 2 and out == "" and err == message
+
     def test_rejects_design_without_splitter(self, capsys, tmp_path, demo_design_path):
         """A design without a dichroic-splitter is refused in one line."""
         text = demo_design_path.read_text()

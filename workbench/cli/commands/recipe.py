@@ -190,6 +190,10 @@ def run(args) -> int:
         raise WorkbenchError(f"--smoothness must be a weight 0-1000 (got {args.smoothness:g})")
     if not 0 <= 2 * args.apodise <= args.periods:
         raise WorkbenchError(f"--apodise must be 0-{args.periods // 2}, half of --periods at most (got {args.apodise})")
+    if args.keep_free and not args.free_layers:
+        raise WorkbenchError("'--keep-free' needs --free-layers")
+    if args.free_layers and args.out is None:
+        raise WorkbenchError("'--free-layers' needs --out (it writes DIR/design.toml)")
     folder = None
     if args.out is not None:
         folder = OutputFolder(args.out, option="--out", command="recipe",
