@@ -250,13 +250,14 @@ class TestCoatingSmoothnessKey:
         save_design(design_from_dict(_design_dict(free=False)), path)
         assert "coating_smoothness" not in path.read_text()
 
-    @pytest.mark.parametrize("bad, shown", [(-1, "-1"), ("high", "'high'"), (True, "true"), (float("inf"), "inf")])
+    @pytest.mark.parametrize("bad, shown", [(-1, "-1"), ("high", "'high'"), (True, "true"), (float("inf"), "inf"),
+                                            (1e308, "1e+308"), (1000.5, "1000.5")])
     def test_rejected(self, bad, shown):
-        """A weight that is not a finite number ≥ 0 is refused in one line naming the key."""
+        """A weight outside [0, 1000] (recipe --smoothness's range; 1e308 made every fit evaluation fail) is refused in one line."""
         with pytest.raises(DesignError) as info:
             design_from_dict(_design_dict(bad))
         assert str(info.value) == ("1 problem in the design file (fit.coating_smoothness)\n"
-                                   f"  fit.coating_smoothness: expected a number >= 0 (got {shown})")
+                                   f"  fit.coating_smoothness: expected a number in [0, 1000] (got {shown})")
 
     def test_recipe_writes_the_key(self, demo_design):
         """coated_design with free layers writes the weight it is given (the recipe's --smoothness)."""

@@ -523,7 +523,7 @@ def _check_fit(c: _Checker, v, illuminant_names, sample_names) -> Fit | None:
         extra["noise_weight"] = f
     for k, lo, hi, text in (("infrared_cutoff_nm", 380, 1100, "a number in [380, 1100] nm"),
                             ("infrared_weight", 0, math.inf, "a number >= 0"),
-                            ("coating_smoothness", 0, math.inf, "a number >= 0"),
+                            ("coating_smoothness", 0, 1000, "a number in [0, 1000]"),  # the range of recipe --smoothness
                             ("max_infrared_share", 0, 1, "a number in [0, 1]")):
         if k in t:
             f = _number(t[k])
