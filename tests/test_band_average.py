@@ -85,3 +85,16 @@ class TestLightBand:
         assert s.wavelengths[1] - s.wavelengths[0] == 5
         # a normalised triangle kernel preserves ∫E dλ away from the ends: 8·√(2π) (closed form of the Gaussian)
         assert float(s.values.sum() * 5) == pytest.approx(8 * np.sqrt(2 * np.pi), rel=1e-4)
+
+    def test_band_on_coarser_data_is_refused_naming_the_file(self, tmp_path, capsys):
+        """--band 1 on a 5 nm SPD is refused in one line naming the file and the steps (band averaging only coarsens, CIE 167)."""
+        from workbench.cli.main import main
+
+        p = tmp_path / "lamp.csv"
+        p.write_text("wavelength_nm,lamp\n" + "".join(f"{w},1\n" for w in range(380, 785, 5)), encoding="utf-8")
+        assert main(["light", str(p), "--band", "1"]) == 2
+        out = capsys.readouterr()
+        assert out.out == ""
+        assert out.err.splitlines()[-1] == (f"error: {p}: --band 1 averages a finer export onto a 1 nm grid; expected "
+                                            "steps of at most 1 nm (got steps up to 5 nm) — leave out --band")
+        assert out.err.count("error:") == 1 and "Traceback" not in out.err

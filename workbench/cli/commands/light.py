@@ -24,6 +24,8 @@ from workbench.fileio.atomic import write_atomically
 from workbench.fileio.outdir import OutputFolder
 from workbench.report.light import report_rows, value_text
 import math
+
+import numpy as np
 from workbench.model.spectra import grid
 
 NAME = "light"
@@ -177,10 +179,14 @@ def _table(report) -> str:
     return "\n".join(out)
 
 
-def band_average(spd, step: float):
+def band_average(spd, step: float, path: str = "SPD"):
     """The SPD on the whole-``step`` nm grid inside its range, averaged over each step (triangular band-pass)."""
 
     wl = spd.wavelengths
+    coarsest = float(np.max(np.diff(wl)))
+    if coarsest > step + 1e-9:
+        raise WorkbenchError(f"{path}: --band {step:g} averages a finer export onto a {step:g} nm grid; expected "
+                             f"steps of at most {step:g} nm (got steps up to {coarsest:g} nm) — leave out --band")
     start, stop = math.ceil(wl[0] / step - 1e-9) * step, math.floor(wl[-1] / step + 1e-9) * step
     return spd.resample(grid(start, stop, step), method="band")
 
@@ -197,8 +203,8 @@ def run(args) -> int:
     spd = read_light(args.spd, spectrum=args.spectrum, kind=args.kind)
     other = read_light(args.compare, spectrum=args.compare_spectrum) if args.compare else None
     if args.band is not None:
-        spd = band_average(spd, args.band)
-        other = band_average(other, args.band) if other is not None else None
+        spd = band_average(spd, args.band, args.spd)
+        other = band_average(other, args.band, args.compare) if other is not None else None
     camera = _load_camera(args.camera, args.primaries) if args.camera else None
     ref = _ssi_reference(args.ssi_reference)
     report = light_report(spd, camera=camera, compare=other, ssi_reference=ref,
