@@ -153,6 +153,14 @@ def main() -> None:
                              ["grid"]),
         "huge_number": (demo.replace("step_nm = 5", "step_nm = 1e309"), ["problem"]),
         "int_overflow": (demo.replace("step_nm = 5", "step_nm = " + "9" * 5000), ["not valid TOML"]),
+        # ordered pairs whose fit bounds touch (docs/design-file.md: refused, a fit could invert the pair)
+        "splitter_bounds_touch": (demo.replace("max = 570.0", "max = 575.0", 1),
+                                  ["chain[2].green_red_nm.min", "blue_green_nm may reach 575 nm"]),
+        "band_pass_bounds_touch": (demo.replace("low_nm = { value = 410.0, min = 380.0, max = 440.0",
+                                                "low_nm = { value = 410.0, min = 380.0, max = 460.0", 1),
+                                   ["chain[7].high_nm.min", "low_nm may reach 460 nm"]),
+        "coating_smoothness_1e308": (demo.replace("[fit]\n", "[fit]\ncoating_smoothness = 1e308\n", 1),
+                                     ["fit.coating_smoothness", "a number in [0, 1000]"]),
     }
     for name, (content, words) in designs.items():
         entries.append((write("design", name, content, ".toml"), "design", words))
