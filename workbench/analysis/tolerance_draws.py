@@ -22,7 +22,12 @@ __all__ = [
     "sample_parameters",
     "one_at_a_time_values",
     "check_trials_seed",
+    "InvertedPairError",
 ]
+
+
+class InvertedPairError(WorkbenchError):
+    """Drawn units put a pair a kind keeps in order (splitter edges, band-pass ends) out of order."""
 
 # --------------------------------------------------------------------------
 # Parameters and their draws
@@ -118,7 +123,7 @@ def _check_pair(known: dict, values: dict, what: str, lo_k: str, hi_k: str) -> N
     if np.any(bad):
         n = int(np.broadcast_to(bad, np.broadcast_shapes(lo.shape, hi.shape)).sum())
         size = int(np.broadcast_to(lo, np.broadcast_shapes(lo.shape, hi.shape)).size)
-        raise WorkbenchError(f"{hi_k} must stay above {lo_k}: {n} of {size} {what} do not; "
+        raise InvertedPairError(f"{hi_k} must stay above {lo_k}: {n} of {size} {what} do not; "
                              "narrow the tolerances")
 
 

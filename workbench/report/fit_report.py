@@ -356,9 +356,13 @@ def robust_section_html(result) -> str:
     body = ""
     for side in ("nominal", "robust"):
         d = rb[side]
-        lo, hi = d["yield_interval_95"]
-        body += (f"<tr><td>{side}</td><td class=\"num\">{_esc(_f(100 * d['yield'], '.1f'))} %</td>"
-                 f"<td class=\"num\">{_esc(_f(100 * lo, '.1f'))}–{_esc(_f(100 * hi, '.1f'))} %</td>"
+        if d["yield"] is None:
+            cells = f"<td class=\"num\">n/a</td><td>{_esc(d.get('yield_note') or '')}</td>"
+        else:
+            lo, hi = d["yield_interval_95"]
+            cells = (f"<td class=\"num\">{_esc(_f(100 * d['yield'], '.1f'))} %</td>"
+                     f"<td class=\"num\">{_esc(_f(100 * lo, '.1f'))}–{_esc(_f(100 * hi, '.1f'))} %</td>")
+        body += (f"<tr><td>{side}</td>{cells}"
                  f"<td class=\"num\">{_esc(_f(d['worst_mean_delta_E00'], '.3f'))}</td>"
                  f"<td class=\"num\">{_esc(_f(d['vora_value'], '.4f'))}</td>"
                  f"<td class=\"num\">{_esc(_f(d['noise_gain'], '.3f'))}</td></tr>")

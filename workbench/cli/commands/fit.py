@@ -227,8 +227,12 @@ def _print_summary(design, result) -> None:
         rows = []
         for side in ("nominal", "robust"):
             d = rb[side]
-            lo, hi = d["yield_interval_95"]
-            rows.append({"design": side, "yield_%": 100 * d["yield"], "wilson_95_%": f"{100 * lo:.1f}-{100 * hi:.1f}",
+            if d["yield"] is None:
+                yield_pct, wilson = "n/a", "n/a"
+            else:
+                lo, hi = d["yield_interval_95"]
+                yield_pct, wilson = 100 * d["yield"], f"{100 * lo:.1f}-{100 * hi:.1f}"
+            rows.append({"design": side, "yield_%": yield_pct, "wilson_95_%": wilson,
                          "worst_mean_dE00": d["worst_mean_delta_E00"], "vora_value": d["vora_value"],
                          "noise_gain": d["noise_gain"]})
         print()
@@ -291,6 +295,9 @@ def run(args) -> int:
             result = fit_robust(design, draws=args.robust_draws, percentile=args.robust_percentile,
                                 seed=args.seed, progress=not args.quiet, nominal=result,
                                 time_limit=args.time_limit)
+            for side in ("nominal", "robust"):
+                if result.robust[side]["yield_note"]:
+                    notice(f"{side} design: {result.robust[side]['yield_note']}")
         if args.front is not None:
             front = fit_front(design, args.front, progress=not args.quiet, max_evaluations=args.max_evaluations,
                               accuracy_fit=result)
