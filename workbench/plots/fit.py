@@ -29,7 +29,7 @@ from workbench.plots._canvas import new_figure, place_axes
 from workbench.plots.chromaticity import AXIS_LABELS, draw_spectral_locus
 # the rules shared with the report's vector figures live there (no matplotlib)
 from workbench.plots.fit_vector import (ARROW_SCALES, NOISE_KEY, NOISE_LABEL, arrow_scale, label_levels, set_runs,
-                                        uv_region)
+                                        uv_shifts)
 
 __all__ = [
     "plot_sensitivities_vs_targets",
@@ -274,21 +274,8 @@ def plot_chromaticity_shifts(measures, illuminant: str | None = None, *, observe
     balance and matrix, each converted from CIELAB (display white) to XYZ
     and u′ = 4X/(X + 15Y + 3Z), v′ = 9Y/(X + 15Y + 3Z) (CIE 15:2004 § 8.1).
     """
-    ill = illuminant or measures.curve_illuminant
-    if ill not in measures.illuminants:
-        raise WorkbenchError(f"illuminant must be one of {', '.join(measures.illuminants)} (got {ill!r})")
-    j = measures.illuminants.index(ill)
-    t = np.asarray(measures.true_uv, dtype=float)[j]
-    c = np.asarray(measures.camera_uv, dtype=float)[j]
-    de = np.asarray(measures.per_sample, dtype=float)[j]
-    ok = np.all(np.isfinite(t), axis=1) & np.all(np.isfinite(c), axis=1)
-    t, c, de = t[ok], c[ok], de[ok]
-    names = [n for n, keep in zip(measures.sample_names, ok) if keep]
+    ill, t, c, de, names, k, corner, side = uv_shifts(measures, illuminant)
     dv = c - t
-
-    _, side = uv_region(np.vstack([t, c]) if len(t) else t)
-    k = arrow_scale(np.linalg.norm(dv, axis=1), side)
-    corner, side = uv_region(np.vstack([t, t + k * dv]) if len(t) else t)
 
     fig = new_figure(12.0, 5.8, fig)
     place_axes(fig, left=0.75, right=0.2, top=0.55, bottom=1.15, wspace=0.9, cols=2)

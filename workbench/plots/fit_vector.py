@@ -37,6 +37,7 @@ __all__ = [
     "set_runs",
     "label_levels",
     "uv_region",
+    "uv_shifts",
     "NOISE_LABEL",
     "NOISE_KEY",
     "WL_LABEL",
@@ -240,13 +241,17 @@ def delta_e_bars_figure(measures, *, label_worst: int = 3) -> Figure:
 # --------------------------------------------------------------------------
 
 
-def chromaticity_figure(measures, illuminant: str | None = None, *, observer="2", label_worst: int = 3) -> Figure:
-    """CIE 1976 u′v′: the diagram with the samples, and a zoom with an arrow from each true colour to the camera's.
+def uv_shifts(measures, illuminant: str | None = None):
+    """The u′v′ shifts both chromaticity figures draw: finite samples, arrow factor and zoom square.
 
-    As :func:`workbench.plots.fit.plot_chromaticity_shifts`: arrows
-    coloured by ΔE00 (colour bar), lengthened by a factor from
-    :data:`ARROW_SCALES` when too short to see, said in the legend and the
-    zoom's title.
+    Returns
+    -------
+    tuple
+        ``(illuminant, true_uv (m, 2), camera_uv (m, 2), delta_E00 (m,),
+        sample names, arrow factor k, zoom corner (2,), zoom side)``: the
+        samples with finite u′v′ under ``illuminant`` (default the curve
+        illuminant), k from :func:`arrow_scale`, the square around the true
+        colours and the lengthened arrow tips.
     """
     ill = illuminant or measures.curve_illuminant
     if ill not in measures.illuminants:
@@ -262,6 +267,19 @@ def chromaticity_figure(measures, illuminant: str | None = None, *, observer="2"
     _, side = uv_region(np.vstack([t, c]) if len(t) else t)
     k = arrow_scale(np.linalg.norm(dv, axis=1), side)
     corner, side = uv_region(np.vstack([t, t + k * dv]) if len(t) else t)
+    return ill, t, c, de, names, k, corner, side
+
+
+def chromaticity_figure(measures, illuminant: str | None = None, *, observer="2", label_worst: int = 3) -> Figure:
+    """CIE 1976 u′v′: the diagram with the samples, and a zoom with an arrow from each true colour to the camera's.
+
+    As :func:`workbench.plots.fit.plot_chromaticity_shifts`: arrows
+    coloured by ΔE00 (colour bar), lengthened by a factor from
+    :data:`ARROW_SCALES` when too short to see, said in the legend and the
+    zoom's title.
+    """
+    ill, t, c, de, names, k, corner, side = uv_shifts(measures, illuminant)
+    dv = c - t
     what = "true → camera" + ("" if k == 1 else f", arrows lengthened ×{k}")
 
     key = observer_key(observer)
