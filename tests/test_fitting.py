@@ -337,6 +337,19 @@ class TestFit:
         assert r.evaluations == 1
         assert r.after.vora_value == pytest.approx(r.before.vora_value)
 
+    def test_interrupt_before_the_first_evaluation_is_stopped(self, demo_design, monkeypatch):
+        """Ctrl-C or SIGTERM during the start point's evaluation: stopped (status 3, exit 130), not infeasible."""
+        from workbench.analysis import fit_objective
+
+        def interrupted(self, X):
+            raise KeyboardInterrupt
+
+        monkeypatch.setattr(fit_objective.Objective, "__call__", interrupted)
+        r = fit_design(demo_design, progress=False)
+        assert r.status == FitStatus.STOPPED and r.evaluations == 0
+        assert "before the first evaluation finished" in r.message
+        assert r.after.vora_value == pytest.approx(r.before.vora_value)  # the start values kept
+
     def test_global_start_is_seeded(self, tmp_path):
         """Multi-start with the same seed gives the same result."""
         p = _recovery_design(tmp_path)

@@ -409,7 +409,11 @@ def fit_design(design: Design, *, progress: bool = True, stop: threading.Event |
         track.close()
     seconds = time.perf_counter() - t0
     if track.best_x is None:        # not one valid evaluation, the start included
-        status = FitStatus.INFEASIBLE
+        if status == FitStatus.STOPPED:
+            # stopped (Ctrl-C, SIGTERM, Stop) before the start point's evaluation finished: the start is kept
+            message = f"{message}; stopped before the first evaluation finished, the start values are kept"
+        else:
+            status = FitStatus.INFEASIBLE
     x = track.best_x if track.best_x is not None else x_start
     values = dict(zip(ev.free, (float(v) for v in x[:nf])))
     values = {k: float(np.clip(v, ev.lower[i], ev.upper[i])) for i, (k, v) in enumerate(values.items())}
