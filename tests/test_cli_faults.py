@@ -120,3 +120,22 @@ def test_second_run_on_a_locked_folder(tmp_path, capsys):
         code = main(["fit", DESIGN, "--out", str(out), "--quiet"])
     err = capsys.readouterr().err
     assert code == 2 and "another run is writing this folder" in err
+
+
+def test_sigterm_while_the_command_is_imported(monkeypatch, capsys):
+    """SIGTERM already becomes 'interrupted' (status 130) while the parser imports the command's modules."""
+    import importlib
+
+    cli = importlib.import_module("workbench.cli.main")
+    seen = []
+
+    def parser_being_built(argv):
+        seen.append(signal.getsignal(signal.SIGTERM))
+        raise KeyboardInterrupt  # what the handler raises on SIGTERM
+
+    before = signal.getsignal(signal.SIGTERM)
+    monkeypatch.setattr(cli, "build_parser", parser_being_built)
+    assert cli.main(["evaluate", DESIGN]) == 130
+    assert seen == [cli._sigterm]
+    assert capsys.readouterr().err == "interrupted\n"
+    assert signal.getsignal(signal.SIGTERM) == before

@@ -202,16 +202,28 @@ def _sigterm(signum, frame):
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
     argv = sys.argv[1:] if argv is None else list(argv)
-    parser = build_parser(argv)
-    args = parser.parse_args(argv)
+    # SIGTERM becomes Ctrl-C from the start: parsing imports the command's modules, which takes a while
+    try:
+        old_term = signal.signal(signal.SIGTERM, _sigterm)
+    except ValueError:  # not the main thread
+        old_term = None
+    try:
+        parser = build_parser(argv)
+        args = parser.parse_args(argv)
+    except KeyboardInterrupt:
+        if old_term is not None:
+            signal.signal(signal.SIGTERM, old_term)
+        print("interrupted", file=sys.stderr)
+        return 130
+    except BaseException:  # argparse's exit (--help, a usage error): the caller's handler back
+        if old_term is not None:
+            signal.signal(signal.SIGTERM, old_term)
+        raise
+    if args.command == "lab" and old_term is not None:  # lab forwards SIGTERM to JupyterLab itself
+        signal.signal(signal.SIGTERM, old_term)
+        old_term = None
     out, err = sys.stdout, sys.stderr
     sys.stdout, sys.stderr = _Escaping(out), _Escaping(err)
-    old_term = None
-    if args.command != "lab":
-        try:
-            old_term = signal.signal(signal.SIGTERM, _sigterm)
-        except ValueError:  # not the main thread
-            old_term = None
     saved = _limits.limits()
     code = 2
     with warnings.catch_warnings(record=True) as caught:
